@@ -1,0 +1,5 @@
+"""afecheck: pre-layout review of analog front-end schematics."""
+
+__version__ = "0.1.0"
+
+__all__ = ["__version__"]

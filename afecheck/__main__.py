@@ -1,0 +1,7 @@
+"""``python -m afecheck``."""
+
+import sys
+
+from afecheck.cli import main
+
+sys.exit(main())

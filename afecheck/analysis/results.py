@@ -1,0 +1,106 @@
+"""Frozen analysis results: the numbers the rules read and `afecheck stages` prints.
+
+All fields hold Python floats (never numpy scalars) in SI units; ``None`` means "not evaluated"
+and the reason is in ``not_evaluated``.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+from typing import Literal, Mapping
+
+Topology = Literal[
+    "follower", "non-inverting", "inverting", "summing", "difference", "transimpedance", "integrator",
+    "active-filter", "general",
+]
+SourceKind = Literal["signal", "signal-source", "divider", "ntc-divider", "rail", "vsource", "stage-output", "unknown"]
+
+
+@dataclass(frozen=True)
+class SourceEquivalent:
+    """Thevenin equivalent of what drives one stage input, over the declared range."""
+
+    net: str
+    kind: SourceKind
+    refs: tuple[str, ...]
+    v_min: float
+    v_max: float
+    r_min: float
+    r_max: float
+    ac_amplitude: float = 0.0
+    f_max: float = 0.0
+
+
+@dataclass(frozen=True)
+class StageInput:
+    """One signal input of a stage: its source, the parts between it and the op-amp pin, gain and loading."""
+
+    net: str
+    pin: Literal["in+", "in-"]
+    source: SourceEquivalent
+    via: tuple[str, ...]
+    gain: float
+    ideal_gain: float
+    input_resistance: float
+    loading_error_min: float
+    loading_error_max: float
+
+
+@dataclass(frozen=True)
+class StageResult:
+    """Everything computed for one op-amp stage (or one op-amp of a stage group solved together)."""
+
+    opamp: str
+    part: str
+    topology: Topology
+    refs: tuple[str, ...]
+    in_plus: str
+    in_minus: str
+    out: str
+    group: tuple[str, ...]
+    inputs: tuple[StageInput, ...]
+    noise_gain_dc: float | None
+    noise_gain_at_crossover: float | None
+    noise_gain_hf: float | None
+    output_resistance: float | None
+    vcm_min: float | None
+    vcm_max: float | None
+    vout_min: float | None
+    vout_max: float | None
+    vout_ac_peak: float
+    f_max: float
+    load_resistance: float | None
+    load_capacitance: float
+    iout_peak: float | None
+    feedback: Literal["negative", "positive", "none"]
+    loop_gain_dc: float | None
+    crossover_hz: float | None
+    phase_margin_deg: float | None
+    gain_margin_db: float | None
+    loop_gain_at_fmax: float | None
+    required_slew_rate: float
+    rail_plus: float
+    rail_minus: float
+    assumed: tuple[str, ...] = ()
+    estimated: bool = False
+    not_evaluated: tuple[str, ...] = ()
+
+
+@dataclass(frozen=True)
+class NetSignal:
+    """The signal a net carries: DC range, AC amplitude and highest frequency."""
+
+    net: str
+    dc_min: float
+    dc_max: float
+    ac_amplitude: float = 0.0
+    f_max: float = 0.0
+
+
+@dataclass(frozen=True)
+class DesignAnalysis:
+    """All stages, the signal on every net, and what could not be evaluated (refs, reason)."""
+
+    stages: tuple[StageResult, ...]
+    nets: Mapping[str, NetSignal]
+    not_evaluated: tuple[tuple[tuple[str, ...], str], ...] = field(default=())

@@ -1,0 +1,202 @@
+"""The exchange format, version 1: pydantic models that YAML and JSON design files validate against.
+
+Every quantity is stored in SI as a Python float (temperatures in °C); strings in the trade's
+notation are read by :mod:`afecheck.model.units` on the way in. Models are frozen and refuse
+unknown keys, so a typo in a design file is an input error, never a silently ignored field.
+"""
+
+from __future__ import annotations
+
+from typing import Annotated, Literal, Union
+
+from pydantic import BaseModel, BeforeValidator, ConfigDict, Field, field_validator
+
+from afecheck.model.units import parse_quantity, parse_temperature_c, parse_tolerance
+from afecheck.parts.model import OpAmpModel
+
+FORMAT_VERSION = 1
+
+
+def _q(unit: str) -> BeforeValidator:
+    return BeforeValidator(lambda v: parse_quantity(v, unit))
+
+
+def _quantity_schema(unit: str) -> dict:
+    return {"anyOf": [{"type": "number"}, {"type": "string"}], "description": f"quantity in {unit}"}
+
+
+def Q(unit: str):  # noqa: N802 - reads like a unit annotation at the use site
+    """Annotated float read from a number or a string in the given unit."""
+    return Annotated[float, _q(unit), Field(json_schema_extra=_quantity_schema(unit))]
+
+
+Ohm = Q("ohm")
+Farad = Q("F")
+Volt = Q("V")
+Ampere = Q("A")
+Hertz = Q("Hz")
+Ratio = Q("1")
+Tolerance = Annotated[float, BeforeValidator(parse_tolerance),
+                      Field(json_schema_extra={"anyOf": [{"type": "number"}, {"type": "string"}]})]
+Celsius = Annotated[float, BeforeValidator(parse_temperature_c),
+                    Field(json_schema_extra={"anyOf": [{"type": "number"}, {"type": "string"}]})]
+NetName = Annotated[str, Field(min_length=1, max_length=200)]
+
+
+class _Strict(BaseModel):
+    model_config = ConfigDict(extra="forbid", frozen=True, populate_by_name=True)
+
+
+def _pin_keys(v: object) -> object:
+    """YAML reads pin ``1:`` as an integer key; pins are names, so keys become strings."""
+    if isinstance(v, dict):
+        return {str(k): val for k, val in v.items()}
+    return v
+
+
+Pins = Annotated[dict[str, NetName], BeforeValidator(_pin_keys)]
+
+DIELECTRICS_CLASS1 = ("C0G", "NP0", "COG", "NPO", "film", "mica", "PP", "PPS", "PET", "PEN")
+DIELECTRICS_CLASS2 = ("X7R", "X5R", "X6S", "X7S", "X8R", "X7T", "Y5V", "Z5U", "Y5U")
+DIELECTRICS_OTHER = ("electrolytic", "tantalum", "unknown")
+
+
+class _Component(_Strict):
+    pins: Pins
+    tolerance: Tolerance | None = None
+    description: str | None = None
+
+
+class Resistor(_Component):
+    kind: Literal["resistor"]
+    value: Ohm = Field(gt=0)
+
+
+class Capacitor(_Component):
+    kind: Literal["capacitor"]
+    value: Farad = Field(gt=0)
+    dielectric: str | None = None
+
+    @field_validator("dielectric")
+    @classmethod
+    def _known_dielectric(cls, v: str | None) -> str | None:
+        known = DIELECTRICS_CLASS1 + DIELECTRICS_CLASS2 + DIELECTRICS_OTHER
+        if v is not None and v not in known:
+            raise ValueError(f"unknown dielectric {v!r}; expected one of {', '.join(known)}")
+        return v
+
+
+class OpAmp(_Component):
+    kind: Literal["opamp"]
+    part: str = Field(min_length=1)
+
+
+class Ntc(_Component):
+    """NTC thermistor, Beta model R(T) = R25·exp(B·(1/T − 1/T25)), over a declared temperature range."""
+
+    kind: Literal["ntc"]
+    r25: Ohm = Field(gt=0)
+    beta: Q("K") = Field(gt=0)
+    temperature: tuple[Celsius, Celsius] = (25.0, 25.0)
+    dissipation: Q("W/K") | None = Field(default=None, gt=0)
+
+
+class VoltageSource(_Component):
+    """Ideal voltage source or reference between pins ``p`` (+) and ``n`` (−)."""
+
+    kind: Literal["vsource"]
+    value: Volt
+
+
+class SignalSource(_Component):
+    """Declared signal source between ``p`` and ``n``: DC range, AC amplitude, band, source resistance."""
+
+    kind: Literal["signal_source"]
+    dc: tuple[Volt, Volt] = (0.0, 0.0)
+    ac_amplitude: Volt = Field(default=0.0, ge=0)
+    band: tuple[Hertz, Hertz] | None = None
+    source_resistance: Ohm = Field(default=0.0, ge=0)
+
+
+Component = Annotated[
+    Union[Resistor, Capacitor, OpAmp, Ntc, VoltageSource, SignalSource], Field(discriminator="kind")
+]
+
+PIN_NAMES: dict[str, tuple[str, ...]] = {
+    "resistor": ("1", "2"),
+    "capacitor": ("1", "2"),
+    "ntc": ("1", "2"),
+    "opamp": ("in+", "in-", "out", "v+", "v-"),
+    "vsource": ("p", "n"),
+    "signal_source": ("p", "n"),
+}
+
+
+class Rail(_Strict):
+    """A supply or reference net held at ``voltage`` (relative to ground) within ``tolerance``."""
+
+    voltage: Volt | None = None
+    tolerance: Tolerance = 0.0
+    description: str | None = None
+
+
+class Signal(_Strict):
+    """A signal driven onto a net from outside the design (a connector), as a Thevenin source."""
+
+    dc: tuple[Volt, Volt] = (0.0, 0.0)
+    ac_amplitude: Volt = Field(default=0.0, ge=0)
+    band: tuple[Hertz, Hertz] | None = None
+    source_resistance: Ohm = Field(default=0.0, ge=0)
+    description: str | None = None
+
+
+class Adc(_Strict):
+    full_scale: Volt = Field(gt=0)
+    bits: int = Field(ge=1, le=32)
+    sample_rate: Hertz = Field(gt=0)
+    bipolar: bool = False
+
+
+class Load(_Strict):
+    """What a net drives outside the drawn schematic: resistance and capacitance to ``reference``, or an ADC."""
+
+    resistance: Ohm | None = Field(default=None, gt=0)
+    capacitance: Farad | None = Field(default=None, ge=0)
+    reference: NetName | None = None
+    adc: Adc | None = None
+
+
+class Budget(_Strict):
+    gain_accuracy: Tolerance | None = None
+    offset: Volt | None = Field(default=None, gt=0)
+    noise: Volt | None = Field(default=None, gt=0)
+
+
+Hazard = Literal["mains", "high-voltage", "patient-connected", "hazardous-area"]
+
+
+class Intent(_Strict):
+    """Design intent that may live in its own file keyed by net name."""
+
+    afecheck_intent: Literal[1] | None = Field(default=None, alias="afecheck-intent")
+    signals: dict[NetName, Signal] = {}
+    loads: dict[NetName, Load] = {}
+    budgets: dict[NetName, Budget] = {}
+
+
+class Design(_Strict):
+    """A whole front-end design: rails, components, part models and design intent."""
+
+    afecheck: Literal[1]
+    name: str = "unnamed design"
+    description: str | None = None
+    ground: NetName = "GND"
+    hazards: tuple[Hazard, ...] = ()
+    part_libraries: tuple[str, ...] = ()
+    intent: str | None = None
+    parts: dict[str, OpAmpModel] = {}
+    rails: dict[NetName, Rail] = {}
+    components: dict[str, Component] = {}
+    signals: dict[NetName, Signal] = {}
+    loads: dict[NetName, Load] = {}
+    budgets: dict[NetName, Budget] = {}
