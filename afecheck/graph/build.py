@@ -1,0 +1,120 @@
+"""Build the circuit graph of a loaded design: nets, components, pins, ground, fixed-voltage and signal nets.
+
+The networkx graph is bipartite (net nodes ``("net", name)`` and component nodes ``("comp", ref)``, one edge per
+pin carrying the pin name). Plain dictionaries beside it answer the hot queries (what sits on a net, which net a
+pin is on) without walking networkx, so per-stage work stays cheap on large designs.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Mapping
+from dataclasses import dataclass
+from functools import cached_property
+
+import networkx as nx
+
+from afecheck.model.loaded import LoadedDesign
+
+PASSIVE_KINDS = frozenset({"resistor", "capacitor", "ntc"})
+CONDUCTIVE_KINDS = frozenset({"resistor", "ntc"})
+
+
+@dataclass(frozen=True)
+class Circuit:
+    """A design as a graph plus lookup tables; built once, read by stage finding and the analyses."""
+
+    loaded: LoadedDesign
+    ground: str
+    kinds: Mapping[str, str]
+    pins: Mapping[str, Mapping[str, str]]
+    net_pins: Mapping[str, tuple[tuple[str, str], ...]]
+    fixed: Mapping[str, float | None]
+    signal_nets: Mapping[str, str]
+    opamp_outputs: Mapping[str, str]
+
+    @cached_property
+    def graph(self) -> nx.MultiGraph:
+        """Bipartite multigraph of nets and components; each edge is one pin (attribute ``pin``)."""
+        g = nx.MultiGraph()
+        for net in self.net_pins:
+            g.add_node(("net", net), kind="net")
+        for ref, pins in self.pins.items():
+            g.add_node(("comp", ref), kind=self.kinds[ref])
+            for pin, net in pins.items():
+                g.add_edge(("comp", ref), ("net", net), pin=pin)
+        return g
+
+    @property
+    def opamps(self) -> tuple[str, ...]:
+        """Reference designators of every op-amp, in file order."""
+        return tuple(r for r, k in self.kinds.items() if k == "opamp")
+
+    def is_fixed(self, net: str) -> bool:
+        """True for ground, rails and nets held by a voltage source."""
+        return net in self.fixed
+
+    def other_pin_net(self, ref: str, net: str) -> str | None:
+        """For a two-pin part touching ``net``, the net on its other pin (None if both pins are on ``net``)."""
+        for n in self.pins[ref].values():
+            if n != net:
+                return n
+        return None
+
+
+def _fixed_nets(loaded: LoadedDesign, ground: str) -> dict[str, float | None]:
+    """Ground at 0 V, rails at their declared voltage, and nets a voltage source ties to a known voltage."""
+    d = loaded.design
+    fixed: dict[str, float | None] = {ground: 0.0}
+    for name, rail in d.rails.items():
+        if name != ground:
+            fixed[name] = None if rail.voltage is None else float(rail.voltage)
+    vsources = [(c.pins.get("p"), c.pins.get("n"), float(c.value)) for c in d.components.values()
+                if c.kind == "vsource"]
+    changed = True
+    while changed:
+        changed = False
+        for p, n, v in vsources:
+            if p is None or n is None:
+                continue
+            if n in fixed and p not in fixed:
+                fixed[p] = None if fixed[n] is None else fixed[n] + v
+                changed = True
+            elif p in fixed and n not in fixed:
+                fixed[n] = None if fixed[p] is None else fixed[p] - v
+                changed = True
+    return fixed
+
+
+def build_circuit(loaded: LoadedDesign) -> Circuit:
+    """Make the :class:`Circuit` of ``loaded``: every pin on its net, fixed nets, signal nets, op-amp outputs."""
+    d = loaded.design
+    ground = d.ground
+    kinds: dict[str, str] = {}
+    pins: dict[str, dict[str, str]] = {}
+    net_pins: dict[str, list[tuple[str, str]]] = {}
+    for ref, comp in d.components.items():
+        kinds[ref] = comp.kind
+        pins[ref] = dict(comp.pins)
+        for pin, net in comp.pins.items():
+            net_pins.setdefault(net, []).append((ref, pin))
+    for net in (ground, *d.rails, *d.signals, *d.loads):
+        net_pins.setdefault(net, [])
+    fixed = _fixed_nets(loaded, ground)
+    signal_nets: dict[str, str] = {}
+    for ref, comp in d.components.items():
+        if comp.kind == "signal_source" and "p" in comp.pins:
+            signal_nets.setdefault(comp.pins["p"], ref)
+    for net in d.signals:
+        signal_nets[net] = "signal"
+    outputs = {comp.pins["out"]: ref for ref, comp in d.components.items()
+               if comp.kind == "opamp" and "out" in comp.pins}
+    return Circuit(
+        loaded=loaded,
+        ground=ground,
+        kinds=kinds,
+        pins=pins,
+        net_pins={k: tuple(v) for k, v in net_pins.items()},
+        fixed=fixed,
+        signal_nets=signal_nets,
+        opamp_outputs=outputs,
+    )

@@ -1,0 +1,206 @@
+"""Find one stage per op-amp, group op-amps whose feedback runs through each other, and classify each topology.
+
+A stage is an op-amp plus the passives reached from its pins. The walk from ``in+``/``in-`` stops at ground, rails,
+fixed-voltage nets, declared signal nets and other op-amps' outputs (a stiff node ends a stage); the walk from
+``out`` also stops at other op-amps' ``in-`` nets (a virtual ground). Op-amps whose input walks reach each other's
+outputs in a loop (instrumentation amplifiers, state-variable filters) form a group that is solved together.
+
+Topology criteria, in the order they are tried:
+
+- ``general`` when nothing connects the output back to the inputs;
+- ``active-filter`` when a feedback part lands on an inner node of the input network (not on ``in+``/``in-``)
+  and the stage holds at least two capacitors (Sallen-Key, multiple feedback);
+- ``follower`` when ``in-`` is the output net, or is tied to it by one resistor and nothing else;
+- ``transimpedance`` when a declared signal or signal source drives ``in-`` directly (no series part) and the
+  feedback holds a resistor: the source's resistance is read as the sensor's shunt resistance;
+- ``integrator`` when the feedback to ``in-`` is capacitors only and a signal reaches ``in-``;
+- with resistive feedback: a signal on the ``in+`` side only -> ``non-inverting``; on the ``in-`` side only ->
+  ``inverting`` (one signal) or ``summing`` (several); on both -> ``difference``;
+- anything else is ``general``.
+
+A signal is a declared signal net, a signal source, another op-amp's output outside the group, or a thermistor
+in the walked network.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import networkx as nx
+
+from afecheck.analysis.results import Topology
+from afecheck.graph.build import Circuit
+from afecheck.graph.queries import Region, passive_region, stage_stop
+
+MAX_GROUP = 8
+_EMPTY = Region(frozenset(), frozenset(), frozenset())
+
+
+@dataclass(frozen=True)
+class Stage:
+    """One op-amp with its input network, feedback, output network and the group it is solved in."""
+
+    opamp: str
+    in_plus: str
+    in_minus: str
+    out: str
+    supply_plus: str | None
+    supply_minus: str | None
+    plus_region: Region
+    minus_region: Region
+    output_region: Region
+    feedback: tuple[str, ...]
+    upstream: tuple[str, ...]
+    group: tuple[str, ...]
+    topology: Topology
+
+    @property
+    def refs(self) -> tuple[str, ...]:
+        """Every passive of the stage, sorted."""
+        return tuple(sorted(self.plus_region.refs | self.minus_region.refs | self.output_region.refs))
+
+    @property
+    def nets(self) -> frozenset[str]:
+        """Every net the stage touches, boundaries included."""
+        nets = {self.in_plus, self.in_minus, self.out}
+        for r in (self.plus_region, self.minus_region, self.output_region):
+            nets |= r.nets | r.boundary
+        return frozenset(nets)
+
+
+@dataclass(frozen=True)
+class StagePlan:
+    """All stages, the solve units (single op-amps or groups) in signal order, and loops that cannot be solved."""
+
+    stages: dict[str, Stage]
+    units: tuple[tuple[str, ...], ...]
+    unsolved_loops: tuple[tuple[str, ...], ...]
+
+
+def _input_regions(circuit: Circuit, ref: str) -> tuple[Region, Region]:
+    pins = circuit.pins[ref]
+    inp, inm, out = pins.get("in+"), pins.get("in-"), pins.get("out")
+    stop = stage_stop(circuit, out or "")
+
+    def walk(net: str | None, allow_signal: bool) -> Region:
+        if net is None:
+            return _EMPTY
+        blocked = net in circuit.fixed or (net in circuit.opamp_outputs) or net == out
+        if net in circuit.signal_nets and not allow_signal:
+            blocked = True
+        if blocked:
+            return Region(frozenset(), frozenset(), frozenset({net}))
+        return passive_region(circuit, (net,), stop)
+
+    return walk(inp, False), walk(inm, True)
+
+
+def _signal_terminals(circuit: Circuit, region: Region, group: tuple[str, ...], start: str | None) -> set[str]:
+    """Signal-carrying nets a side of the stage reaches; a thermistor counts as one."""
+    found = set()
+    nets = set(region.boundary)
+    if start is not None:
+        nets.add(start)
+    for net in nets:
+        if net in circuit.signal_nets:
+            found.add(net)
+        elif net in circuit.opamp_outputs and circuit.opamp_outputs[net] not in group:
+            found.add(net)
+    for ref in region.refs:
+        if circuit.kinds[ref] == "ntc":
+            found.add(f"ntc:{ref}")
+    return found
+
+
+def classify(circuit: Circuit, ref: str, plus: Region, minus: Region, group: tuple[str, ...]) -> tuple[Topology,
+                                                                                                       tuple[str, ...]]:
+    """Topology of op-amp ``ref`` (criteria in the module docstring) and its feedback parts."""
+    pins = circuit.pins[ref]
+    inp, inm, out = pins.get("in+"), pins.get("in-"), pins.get("out")
+    kinds = circuit.kinds
+    side_refs = plus.refs | minus.refs
+    feedback = tuple(sorted(r for r in side_refs if out in circuit.pins[r].values()))
+    wire = inm is not None and inm == out
+    if not feedback and not wire:
+        return "general", feedback
+    landing = {n for r in feedback for n in circuit.pins[r].values() if n != out}
+    caps = [r for r in side_refs if kinds[r] == "capacitor"]
+    if landing - {inp, inm} and len(caps) >= 2:
+        return "active-filter", feedback
+    fb_minus = [r for r in feedback if r in minus.refs]
+    if wire or (len(fb_minus) == 1 and kinds[fb_minus[0]] != "capacitor" and minus.refs == {fb_minus[0]}
+                and inm not in circuit.signal_nets):
+        return "follower", feedback
+    fb_minus_res = [r for r in fb_minus if kinds[r] != "capacitor"]
+    minus_signals = _signal_terminals(circuit, minus, group, inm)
+    plus_signals = _signal_terminals(circuit, plus, group, inp)
+    if inm in circuit.signal_nets and fb_minus_res:
+        return "transimpedance", feedback
+    if fb_minus and not fb_minus_res:
+        return ("integrator" if minus_signals else "general"), feedback
+    if not fb_minus_res:
+        return "general", feedback
+    if plus_signals and not minus_signals:
+        return "non-inverting", feedback
+    if minus_signals and not plus_signals:
+        return ("inverting" if len(minus_signals) == 1 else "summing"), feedback
+    if plus_signals and minus_signals:
+        return "difference", feedback
+    return "general", feedback
+
+
+def find_stages(circuit: Circuit) -> StagePlan:
+    """One :class:`Stage` per op-amp; groups from loops between stages; solve units in signal order."""
+    opamps = circuit.opamps
+    order = {r: i for i, r in enumerate(opamps)}
+    regions = {r: _input_regions(circuit, r) for r in opamps}
+    deps = nx.DiGraph()
+    deps.add_nodes_from(opamps)
+    upstream: dict[str, tuple[str, ...]] = {}
+    for r, (plus, minus) in regions.items():
+        ups = sorted({circuit.opamp_outputs[n] for n in plus.boundary | minus.boundary
+                      if n in circuit.opamp_outputs and circuit.opamp_outputs[n] != r}, key=order.__getitem__)
+        upstream[r] = tuple(ups)
+        deps.add_edges_from((u, r) for u in ups)
+    group_of: dict[str, tuple[str, ...]] = {}
+    loops: list[tuple[str, ...]] = []
+    for scc in nx.strongly_connected_components(deps):
+        members = tuple(sorted(scc, key=order.__getitem__))
+        if len(members) > MAX_GROUP:
+            loops.append(members)
+        for m in members:
+            group_of[m] = members if len(members) <= MAX_GROUP else (m,)
+    stages: dict[str, Stage] = {}
+    for r in opamps:
+        pins = circuit.pins[r]
+        out = pins.get("out")
+        group = group_of[r]
+        plus, minus = regions[r]
+        topology, feedback = classify(circuit, r, plus, minus, group)
+        virtual_grounds = {circuit.pins[o].get("in-") for o in opamps if o not in group}
+        base_stop = stage_stop(circuit, out or "")
+
+        def stop(net: str, base=base_stop, vg=virtual_grounds, own=pins) -> bool:
+            return base(net) or (net in vg and net not in (own.get("in+"), own.get("in-")))
+
+        if out is None or out in circuit.fixed:
+            out_region = _EMPTY
+        else:
+            out_region = passive_region(circuit, (out,), lambda n, s=stop, o=out: n != o and s(n))
+        stages[r] = Stage(
+            opamp=r, in_plus=pins.get("in+", ""), in_minus=pins.get("in-", ""), out=out or "",
+            supply_plus=pins.get("v+"), supply_minus=pins.get("v-"),
+            plus_region=plus, minus_region=minus, output_region=out_region, feedback=feedback,
+            upstream=upstream[r], group=group, topology=topology,
+        )
+    units_graph = nx.DiGraph()
+    unit_of = {r: group_of[r] for r in opamps}
+    units_graph.add_nodes_from(set(unit_of.values()))
+    for u, v in deps.edges:
+        if unit_of[u] != unit_of[v]:
+            units_graph.add_edge(unit_of[u], unit_of[v])
+    if nx.is_directed_acyclic_graph(units_graph):
+        units = tuple(nx.lexicographical_topological_sort(units_graph, key=lambda g: order[g[0]]))
+    else:
+        units = tuple(sorted(units_graph.nodes, key=lambda g: order[g[0]]))
+    return StagePlan(stages=stages, units=units, unsolved_loops=tuple(loops))
