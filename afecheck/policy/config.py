@@ -1,0 +1,144 @@
+"""Project configuration: a ``.afecheck.yaml`` beside the design (or given with ``--config``) that picks a rule
+set, turns rules off, overrides severities and thresholds, names waiver files and sets the fail level.
+
+    afecheck-config: 1
+    ruleset: precision            # a shipped set, or a path to a rule-set file
+    fail-on: warning              # error | warning | info | never
+    waivers: [waivers.yaml]       # paths relative to this file
+    promote: {info: warning}
+    rules:
+      AFE301: {params: {min_phase_margin: 60 deg}}
+      output-swing-limit: off
+"""
+
+from __future__ import annotations
+
+from collections.abc import Mapping
+from dataclasses import dataclass, field
+from pathlib import Path
+from typing import Any
+
+from afecheck.engine.finding import Severity
+from afecheck.policy._yaml import Problems, load_yaml
+from afecheck.policy.rulesets import (
+    Catalogue,
+    RuleSet,
+    RuleSetting,
+    find_ruleset,
+    load_ruleset,
+    merge,
+    parse_promote,
+    parse_rules_section,
+)
+
+CONFIG_NAME = ".afecheck.yaml"
+CONFIG_KEY = "afecheck-config"
+CONFIG_KEYS = {CONFIG_KEY, "ruleset", "fail-on", "waivers", "promote", "rules"}
+FAIL_ON_VALUES = ("error", "warning", "info", "never")
+DEFAULT_RULESET = "default"
+
+
+@dataclass(frozen=True)
+class Policy:
+    """The resolved policy for a design: which rules run, at which severity, with which thresholds."""
+
+    ruleset: str = DEFAULT_RULESET
+    fail_on: str = "error"
+    disabled: frozenset[str] = frozenset()
+    severity: Mapping[str, Severity] = field(default_factory=dict)
+    params: Mapping[str, Mapping[str, float]] = field(default_factory=dict)
+    waiver_files: tuple[str, ...] = ()
+    config: str | None = None
+
+    def run_options(self, catalogue: Catalogue) -> dict[str, Any]:
+        """Keyword options for the rule runner: ``select``, ``params``, ``severity_overrides``."""
+        return {
+            "select": [m.id for m in catalogue.metas if m.id not in self.disabled],
+            "params": {k: dict(v) for k, v in self.params.items()},
+            "severity_overrides": dict(self.severity),
+        }
+
+
+def discover_config(design: str | Path) -> Path | None:
+    """The nearest ``.afecheck.yaml`` in the design's folder or its parents, stopping at a repository root."""
+    folder = Path(design).resolve().parent
+    for d in (folder, *folder.parents):
+        candidate = d / CONFIG_NAME
+        if candidate.is_file():
+            return candidate
+        if (d / ".git").exists():
+            return None
+    return None
+
+
+def resolve_policy(catalogue: Catalogue, config: str | Path | None = None, ruleset: str | None = None) -> Policy:
+    """Rule set (``ruleset`` argument, else the config's, else ``default``) with the config's settings on top."""
+    cfg_settings: dict[str, RuleSetting] = {}
+    cfg_promote: dict[Severity, Severity] = {}
+    cfg_fail_on: str | None = None
+    waivers: tuple[str, ...] = ()
+    base_dir: Path | None = None
+    set_name = ruleset
+    if config is not None:
+        cpath = Path(config)
+        base_dir = cpath.parent
+        data, positions = load_yaml(cpath)
+        problems = Problems(str(cpath), positions)
+        if not isinstance(data, dict) or data.get(CONFIG_KEY) != 1:
+            problems.add((), f"a project config starts with '{CONFIG_KEY}: 1'")
+            problems.raise_if_any()
+        for k in data:
+            if k not in CONFIG_KEYS:
+                problems.add((k,), f"unknown key {k!r}; expected one of {', '.join(sorted(CONFIG_KEYS))}")
+        cfg_settings = parse_rules_section(data.get("rules"), catalogue, problems)
+        cfg_promote = parse_promote(data.get("promote"), problems)
+        if data.get("fail-on") is not None:
+            cfg_fail_on = str(data["fail-on"])
+            if cfg_fail_on not in FAIL_ON_VALUES:
+                problems.add(("fail-on",), f"read {cfg_fail_on!r}; expected {', '.join(FAIL_ON_VALUES)}")
+        waivers = _waiver_paths(data.get("waivers"), cpath.parent, problems)
+        if set_name is None and data.get("ruleset") is not None:
+            set_name = str(data["ruleset"])
+            if find_ruleset(set_name, base_dir)[0] is None:
+                problems.add(("ruleset",), f"unknown rule set {set_name!r}; give a shipped set name or a .yaml path")
+        problems.raise_if_any()
+    rs: RuleSet = load_ruleset(set_name or DEFAULT_RULESET, catalogue, base_dir)
+    settings = merge(rs.settings, cfg_settings)
+    promote = {**rs.promote, **cfg_promote}
+    return _policy(catalogue, rs, settings, promote, cfg_fail_on or rs.fail_on or "error", waivers,
+                   None if config is None else str(config))
+
+
+def _waiver_paths(raw: object, base: Path, problems: Problems) -> tuple[str, ...]:
+    if raw is None:
+        return ()
+    items = [raw] if isinstance(raw, str) else raw
+    if not isinstance(items, list) or not all(isinstance(i, str) for i in items):
+        problems.add(("waivers",), "expected a file name or a list of file names")
+        return ()
+    out = []
+    for i, name in enumerate(items):
+        path = base / name
+        if not path.is_file():
+            where = ("waivers",) if isinstance(raw, str) else ("waivers", i)
+            problems.add(where, f"waiver file {str(path)!r} not found")
+        out.append(str(path))
+    return tuple(out)
+
+
+def _policy(catalogue: Catalogue, rs: RuleSet, settings: Mapping[str, RuleSetting],
+            promote: Mapping[Severity, Severity], fail_on: str, waivers: tuple[str, ...], config: str | None) -> Policy:
+    severity: dict[str, Severity] = {}
+    disabled: set[str] = set()
+    params: dict[str, dict[str, float]] = {}
+    for meta in catalogue.metas:
+        s = settings.get(meta.id, RuleSetting())
+        wanted = s.severity if s.severity is not None else promote.get(meta.severity, meta.severity)
+        if wanted != meta.severity:
+            severity[meta.id] = wanted
+        if s.enabled is False:
+            disabled.add(meta.id)
+        if s.params:
+            params[meta.id] = dict(s.params)
+    return Policy(ruleset=rs.name, fail_on=fail_on, disabled=frozenset(disabled), severity=severity, params=params,
+                  waiver_files=waivers, config=config)

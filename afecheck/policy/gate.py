@@ -1,0 +1,73 @@
+"""Gate semantics: give each finding its status (open, new, unchanged, waived) and pick the exit code."""
+
+from __future__ import annotations
+
+import datetime as dt
+from collections import Counter
+from collections.abc import Callable, Sequence
+from dataclasses import dataclass
+
+from afecheck.engine.finding import Finding
+from afecheck.policy.waivers import is_expired
+from afecheck.report.data import Entry, Report, WaiverNote
+
+EXIT_CLEAN, EXIT_FINDINGS, EXIT_INPUT = 0, 1, 2
+
+
+@dataclass(frozen=True)
+class Review:
+    """The outcome of classifying one design's findings."""
+
+    entries: tuple[Entry, ...]
+    used: frozenset[str]
+    expired: frozenset[str]
+
+
+def classify(
+    findings: Sequence[Finding],
+    waivers: Sequence[WaiverNote] = (),
+    baseline: Sequence[Finding] | None = None,
+    today: dt.date | None = None,
+    stage_of: Callable[[Finding], str] = lambda f: "",
+) -> Review:
+    """Statuses for ``findings``: waived if a live waiver matches, else unchanged/new against ``baseline``
+    (matched as a multiset of fingerprints), else open; baseline records not found come back as "fixed"."""
+    today = today or dt.date.today()
+    by_fp: dict[str, WaiverNote] = {}
+    for w in waivers:
+        by_fp.setdefault(w.fingerprint, w)
+    remaining = Counter(b.fingerprint for b in baseline) if baseline is not None else Counter()
+    entries: list[Entry] = []
+    used: set[str] = set()
+    expired: set[str] = set()
+    for f in findings:
+        fp = f.fingerprint
+        w = by_fp.get(fp)
+        if w is not None and w.rule is not None and w.rule != f.rule:
+            w = None
+        in_baseline = remaining[fp] > 0
+        if in_baseline:
+            remaining[fp] -= 1
+        if w is not None and not is_expired(w, today):
+            used.add(fp)
+            entries.append(Entry(f, "waived", stage_of(f), waiver=w))
+            continue
+        lapsed = None
+        if w is not None:
+            used.add(fp)
+            expired.add(fp)
+            lapsed = w
+        status = "open" if baseline is None else ("unchanged" if in_baseline else "new")
+        entries.append(Entry(f, status, stage_of(f), expired_waiver=lapsed))
+    if baseline is not None:
+        for b in baseline:
+            if remaining[b.fingerprint] > 0:
+                remaining[b.fingerprint] -= 1
+                entries.append(Entry(b, "fixed", stage_of(b)))
+    entries.sort(key=lambda e: (e.finding.sort_key(), e.status))
+    return Review(tuple(entries), frozenset(used), frozenset(expired))
+
+
+def exit_code(report: Report) -> int:
+    """0 when nothing active is at or above the fail level, 1 when something is."""
+    return EXIT_FINDINGS if report.failed() else EXIT_CLEAN

@@ -1,0 +1,145 @@
+"""The data every reporter renders: findings with their review status, per design, plus the rule catalogue.
+
+Built by the policy layer and :mod:`afecheck.api`; reporters only read it. Nothing here computes circuits.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+from typing import Literal
+
+from afecheck.engine.finding import Finding, Severity
+
+Status = Literal["open", "new", "unchanged", "waived", "fixed"]
+ACTIVE: tuple[Status, ...] = ("open", "new")
+STATUS_MEANING: dict[str, str] = {
+    "open": "found, not waived (no baseline in use)",
+    "new": "found, not waived, and not in the baseline",
+    "unchanged": "found and already recorded in the baseline; does not fail the gate",
+    "waived": "found and accepted by a waiver that has not expired; does not fail the gate",
+    "fixed": "recorded in the baseline but no longer found",
+}
+FAIL_LEVELS: tuple[str, ...] = ("error", "warning", "info", "never")
+
+
+@dataclass(frozen=True)
+class WaiverNote:
+    """An accepted finding as the waiver records it: fingerprint, why, who, until when, and where it is written."""
+
+    fingerprint: str
+    justification: str
+    accepted_by: str
+    expires: str | None = None
+    rule: str | None = None
+    file: str = ""
+    line: int | None = None
+
+
+@dataclass(frozen=True)
+class Entry:
+    """One finding with its status, the stage (op-amp refdes, or "" for design-wide) and any waiver behind it."""
+
+    finding: Finding
+    status: Status
+    stage: str = ""
+    waiver: WaiverNote | None = None
+    expired_waiver: WaiverNote | None = None
+
+    @property
+    def active(self) -> bool:
+        return self.status in ACTIVE
+
+
+@dataclass(frozen=True)
+class RuleInfo:
+    """What a report says about a rule: identity, default level, one-line and full text, help from rule.md."""
+
+    id: str
+    slug: str
+    severity: Severity
+    summary: str
+    family: str = ""
+    description: str = ""
+    help: str = ""
+    fix: str = ""
+
+
+@dataclass(frozen=True)
+class DesignResult:
+    """The reviewed findings of one design file, with the hazards it declares and the policy applied."""
+
+    file: str
+    name: str
+    hazards: tuple[str, ...] = ()
+    entries: tuple[Entry, ...] = ()
+    stages: tuple[str, ...] = ()
+    ruleset: str = "default"
+    config: str | None = None
+    rules_run: tuple[str, ...] = ()
+
+
+@dataclass(frozen=True)
+class Report:
+    """A whole run: every design, the rule catalogue, the fail level and the waiver/baseline bookkeeping."""
+
+    designs: tuple[DesignResult, ...]
+    rules: tuple[RuleInfo, ...] = ()
+    fail_on: Severity | None = Severity.ERROR
+    tool_version: str = ""
+    baseline: str | None = None
+    unused_waivers: tuple[WaiverNote, ...] = ()
+    expired_waivers: tuple[WaiverNote, ...] = field(default=())
+
+    def entries(self) -> tuple[Entry, ...]:
+        return tuple(e for d in self.designs for e in d.entries)
+
+    def gating(self, entry: Entry) -> bool:
+        """True when ``entry`` fails the gate: active and at or above the fail level."""
+        return self.fail_on is not None and entry.active and entry.finding.severity >= self.fail_on
+
+    def failed(self) -> bool:
+        return any(self.gating(e) for e in self.entries())
+
+    def hazards(self) -> tuple[str, ...]:
+        return tuple(sorted({h for d in self.designs for h in d.hazards}))
+
+    def rule(self, rule_id: str) -> RuleInfo | None:
+        return next((r for r in self.rules if r.id == rule_id), None)
+
+    def counts(self) -> dict[str, int]:
+        """Active findings by severity, then the other statuses; keys in a fixed order."""
+        out = {"error": 0, "warning": 0, "info": 0, "waived": 0, "unchanged": 0, "fixed": 0}
+        for e in self.entries():
+            if e.active:
+                out[e.finding.severity.label] += 1
+            else:
+                out[e.status] += 1
+        return out
+
+
+def fail_level_label(level: Severity | None) -> str:
+    return "never" if level is None else level.label
+
+
+def parse_fail_level(text: str) -> Severity | None:
+    """``error|warning|info|never`` -> Severity or None (never fail)."""
+    if text.strip().lower() == "never":
+        return None
+    return Severity.parse(text)
+
+
+def plural(n: int, word: str) -> str:
+    return f"{n} {word}" if n == 1 else f"{n} {word}s"
+
+
+def summary_line(report: Report) -> str:
+    """One line: counts and the verdict, shared by the text and Markdown reporters."""
+    c = report.counts()
+    n = len(report.designs)
+    head = (f"{plural(n, 'design')}: {plural(c['error'], 'error')}, {plural(c['warning'], 'warning')}, "
+            f"{c['info']} info")
+    extra = [f"{c[k]} {k}" for k in ("waived", "unchanged", "fixed") if c[k]]
+    if extra:
+        head += " (" + ", ".join(extra) + ")"
+    verdict = "FAIL" if report.failed() else "PASS"
+    return f"{head}; fail level {fail_level_label(report.fail_on)}: {verdict}"

@@ -1,0 +1,61 @@
+"""Markdown summary for a pull-request comment: counts, a table of open findings, the rest folded away."""
+
+from __future__ import annotations
+
+from afecheck.report._common import rule_label, unused_text, where
+from afecheck.report.cautions import cautions
+from afecheck.report.data import Entry, Report, summary_line
+
+_ICON = {"error": "🛑 error", "warning": "⚠️ warning", "info": "ℹ️ info"}
+
+
+def _cell(text: str) -> str:
+    return text.replace("\\", "\\\\").replace("|", "\\|").replace("\n", " ").replace("<", "&lt;")
+
+
+def _table(entries: list[Entry], with_note: bool = False) -> list[str]:
+    head = "| Severity | Rule | Where | Message | Fix |" + (" Note |" if with_note else "")
+    rule = "|---|---|---|---|---|" + ("---|" if with_note else "")
+    rows = [head, rule]
+    for e in entries:
+        f = e.finding
+        row = (f"| {_ICON[f.severity.label]} | `{_cell(rule_label(e))}` | `{_cell(where(e))}` | {_cell(f.message)} "
+               f"| {_cell(f.fix)} |")
+        if with_note:
+            note = e.status
+            if e.waiver is not None:
+                note += f": {e.waiver.justification} ({e.waiver.accepted_by})"
+            row += f" {_cell(note)} |"
+        rows.append(row)
+    return rows
+
+
+def render_markdown(report: Report) -> str:
+    """A short pull-request comment: verdict, counts by severity, open findings, and folded waived/baselined ones."""
+    c = report.counts()
+    verdict = "❌ fails" if report.failed() else "✅ passes"
+    out = [f"### afecheck {verdict} the gate", "", summary_line(report), ""]
+    hazards = report.hazards()
+    if hazards:
+        out.append(f"> **Caution (declared hazards: {', '.join(hazards)})**")
+        out.extend(f"> - {line}" for line in cautions(hazards))
+        out.append("")
+    out += ["| error | warning | info | waived | unchanged | fixed |", "|---:|---:|---:|---:|---:|---:|",
+            f"| {c['error']} | {c['warning']} | {c['info']} | {c['waived']} | {c['unchanged']} | {c['fixed']} |", ""]
+    entries = report.entries()
+    active = [e for e in entries if e.active]
+    if active:
+        out += _table(active) + [""]
+    else:
+        out += ["No open findings.", ""]
+    for status, title in (("waived", "waived"), ("unchanged", "already in the baseline"), ("fixed", "fixed")):
+        group = [e for e in entries if e.status == status]
+        if group:
+            out += ["<details>", f"<summary>{len(group)} {title}</summary>", ""]
+            out += _table(group, with_note=True) + ["", "</details>", ""]
+    notes = [f"- expired waiver `{w.fingerprint}` ({w.file}:{w.line or 0}, expired {w.expires}): finding re-opened"
+             for w in report.expired_waivers]
+    notes += [f"- {_cell(unused_text(w))}" for w in report.unused_waivers]
+    if notes:
+        out += ["**Waiver file notes**", ""] + notes + [""]
+    return "\n".join(out).rstrip("\n") + "\n"

@@ -1,0 +1,56 @@
+"""Terminal report: grouped by design and stage, one ``file:line: severity: ID/slug: message`` line a finding."""
+
+from __future__ import annotations
+
+from afecheck.report._common import by_stage, expired_text, rule_label, unused_text, waiver_text, where
+from afecheck.report.cautions import cautions
+from afecheck.report.data import Entry, Report, summary_line
+
+_COLOURS = {"error": "\x1b[1;31m", "warning": "\x1b[33m", "info": "\x1b[36m", "head": "\x1b[1m", "dim": "\x1b[2m"}
+_RESET = "\x1b[0m"
+
+
+def _paint(text: str, style: str, color: bool) -> str:
+    return f"{_COLOURS[style]}{text}{_RESET}" if color else text
+
+
+def _entry_lines(entry: Entry, color: bool) -> list[str]:
+    f = entry.finding
+    sev = _paint(f.severity.label, f.severity.label, color)
+    tag = "" if entry.status == "open" else " " + _paint(f"[{entry.status}]", "dim", color)
+    lines = [f"{where(entry)}: {sev}: {rule_label(entry)}: {f.message}{tag}"]
+    lines.append(f"    fix: {f.fix or 'see the rule documentation (afecheck explain ' + f.rule + ')'}")
+    if f.assumed:
+        lines.append(f"    assumed: {', '.join(f.assumed)}")
+    if entry.waiver is not None:
+        lines.append(f"    waived: {waiver_text(entry.waiver)}")
+    if entry.expired_waiver is not None:
+        lines.append(f"    note: {expired_text(entry.expired_waiver)}")
+    return lines
+
+
+def render_text(report: Report, color: bool = False) -> str:
+    """The report as terminal text; ``color`` adds ANSI colours (the caller decides: TTY and no NO_COLOR)."""
+    out: list[str] = []
+    hazards = report.hazards()
+    if hazards:
+        out.append(_paint(f"CAUTION (declared hazards: {', '.join(hazards)}):", "error", color))
+        out.extend(f"  - {line}" for line in cautions(hazards))
+        out.append("")
+    for design in report.designs:
+        out.append(_paint(f"== {design.file} ({design.name}) ==", "head", color))
+        if design.hazards:
+            out.append(f"hazards: {', '.join(design.hazards)}: see the cautions above")
+        if not design.entries:
+            out.append("no findings")
+        for stage, group in by_stage(design):
+            out.append(_paint(f"-- stage {stage} --" if stage else "-- design-wide --", "head", color))
+            for entry in group:
+                out.extend(_entry_lines(entry, color))
+        out.append("")
+    for w in report.expired_waivers:
+        out.append(f"{w.file}:{w.line or 0}: note: waiver {w.fingerprint} expired on {w.expires}")
+    for w in report.unused_waivers:
+        out.append(f"{unused_text(w)}")
+    out.append("afecheck: " + summary_line(report))
+    return "\n".join(out) + "\n"
