@@ -33,6 +33,12 @@ class RuleMeta:
     family: str
     params: tuple[Param, ...] = ()
     fix: str = ""
+    needs: tuple[str, ...] = ("analysis",)
+
+    @property
+    def folder(self) -> str:
+        """Name of the rule's documentation folder in the catalogue: ``<id>-<slug>``."""
+        return f"{self.id}-{self.slug}"
 
     def param(self, name: str) -> Param:
         for p in self.params:

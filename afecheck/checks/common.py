@@ -1,0 +1,204 @@
+"""Shared helpers for rule modules: grading against thresholds, number formatting, finding construction,
+and small design queries (what sits on a net) that several rules need.
+
+``ctx`` convention for every finding: ``value`` and ``limit`` in ``unit`` (SI), ``margin`` = how far the value
+is inside its limit in the same unit (negative = broken), ``limit_source`` = where the limit comes from.
+"""
+
+from __future__ import annotations
+
+import math
+from collections.abc import Iterable
+from typing import TYPE_CHECKING, Any
+
+from afecheck.engine.finding import Confidence, Finding, Severity
+from afecheck.model.units import format_si
+
+if TYPE_CHECKING:
+    from afecheck.analysis.results import StageResult
+    from afecheck.engine.context import Context
+    from afecheck.model.loaded import LoadedDesign
+
+CONFIG = "rule parameter"
+
+
+def fmt(value: float, unit: str = "", digits: int = 3) -> str:
+    """A number with an SI prefix and ``digits`` significant figures: ``4.10 MHz``."""
+    return format_si(float(value), unit, digits)
+
+
+def pct(fraction: float, digits: int = 3) -> str:
+    """A fraction as a percentage with ``digits`` significant figures: ``33.3 %``."""
+    value = 100.0 * fraction
+    if value == 0 or not math.isfinite(value):
+        return f"{value:g} %"
+    decimals = max(digits - 1 - int(math.floor(math.log10(abs(value)))), 0)
+    return f"{value:.{decimals}f} %"
+
+
+def deg(value: float) -> str:
+    """An angle in degrees with one decimal: ``38.2°``."""
+    return f"{value:.1f}°"
+
+
+def db(ratio: float) -> float:
+    """A magnitude ratio in decibels (20·log10)."""
+    return 20.0 * math.log10(ratio) if ratio > 0 else -math.inf
+
+
+def grade_above(value: float, warn: float, err: float) -> Severity | None:
+    """Severity when larger is worse: error above ``err``, warning above ``warn``."""
+    if value > err:
+        return Severity.ERROR
+    if value > warn:
+        return Severity.WARNING
+    return None
+
+
+def grade_below(value: float, warn: float, err: float) -> Severity | None:
+    """Severity when smaller is worse: error below ``err``, warning below ``warn``."""
+    if value < err:
+        return Severity.ERROR
+    if value < warn:
+        return Severity.WARNING
+    return None
+
+
+def finding(
+    ctx: Context,
+    severity: Severity,
+    *,
+    value: float,
+    limit: float,
+    unit: str,
+    margin: float,
+    limit_source: str,
+    message: str,
+    fix: str,
+    refs: tuple[str, ...] = (),
+    nets: tuple[str, ...] = (),
+    pins: tuple[str, ...] = (),
+    assumed: Iterable[str] = (),
+    estimated: bool = False,
+    extra: dict[str, Any] | None = None,
+) -> Finding:
+    """Build a finding for the context's rule; estimated results are capped at warning."""
+    meta = ctx.rule
+    assert meta is not None, "finding() needs a rule-bound context"
+    assumed = tuple(sorted(set(assumed)))
+    confidence: Confidence = "estimated" if (estimated or assumed) else "computed"
+    if confidence == "estimated" and severity > Severity.WARNING:
+        severity = Severity.WARNING
+    numbers: dict[str, Any] = {
+        "value": float(value), "limit": float(limit), "unit": unit, "margin": float(margin),
+        "limit_source": limit_source,
+    }
+    for key, item in (extra or {}).items():
+        numbers[key] = float(item) if isinstance(item, (int, float)) and not isinstance(item, bool) else item
+    text = f"{message}. Fix: {fix}" if fix else message
+    return Finding(
+        rule=meta.id, slug=meta.slug, severity=severity, message=text,
+        location=ctx.loaded.locate(refs=refs, nets=nets, pins=pins), ctx=numbers, fix=fix,
+        confidence=confidence, assumed=assumed, design=ctx.loaded.design.name,
+    )
+
+
+def not_evaluated(ctx: Context, what: str, reason: str, refs: tuple[str, ...] = (),
+                  nets: tuple[str, ...] = ()) -> Finding:
+    """An info finding saying the rule could not judge ``what`` and why: never a silent pass."""
+    meta = ctx.rule
+    assert meta is not None, "not_evaluated() needs a rule-bound context"
+    return Finding(
+        rule=meta.id, slug=meta.slug, severity=Severity.INFO,
+        message=f"{what} not evaluated: {reason}", location=ctx.loaded.locate(refs=refs, nets=nets),
+        ctx={"reason": reason}, confidence="not-evaluated", design=ctx.loaded.design.name,
+    )
+
+
+def part_value(ctx: Context, opamp: str, name: str) -> tuple[float | None, tuple[str, ...]]:
+    """(value, assumed names) of op-amp ``opamp``'s parameter ``name``; value None if the part has none."""
+    try:
+        model = ctx.loaded.part(opamp)
+    except KeyError:
+        return None, ()
+    if getattr(model, name, None) is None and name not in _DEFAULTED:
+        return None, ()
+    value, assumed = model.get(name)
+    return value, ((f"{opamp}.{name}",) if assumed else ())
+
+
+_DEFAULTED = frozenset({
+    "open_loop_gain", "input_resistance_diff", "input_resistance_cm", "input_capacitance_diff",
+    "input_capacitance_cm", "output_resistance", "bias_current", "offset_current", "offset_voltage", "cmrr",
+    "input_cm_low", "input_cm_high", "output_drop_low", "output_drop_high", "output_sat_resistance",
+    "output_current_limit", "transition_below_vplus", "transition_width", "transition_offset_step",
+    "min_stable_gain", "second_pole",
+})
+
+
+def stage_reason(stage: StageResult, default: str) -> str:
+    """The analysis's own reason a stage number is missing, else ``default``."""
+    return "; ".join(stage.not_evaluated) if stage.not_evaluated else default
+
+
+# --- small design queries -------------------------------------------------------------------------------
+
+
+def ac_ground_nets(loaded: LoadedDesign) -> frozenset[str]:
+    """Nets held at a fixed voltage: ground, rails, and either end of a vsource tied to one of them."""
+    d = loaded.design
+    fixed = {d.ground, *d.rails}
+    changed = True
+    while changed:
+        changed = False
+        for comp in d.components.values():
+            if comp.kind == "vsource":
+                a, b = comp.pins.get("p"), comp.pins.get("n")
+                if (a in fixed) != (b in fixed) and a and b:
+                    fixed.update((a, b))
+                    changed = True
+    return frozenset(fixed)
+
+
+def attached(loaded: LoadedDesign, net: str, kind: str | None = None) -> list[tuple[str, str]]:
+    """(refdes, other net) for every two-pin component of ``kind`` with a pin on ``net``."""
+    out: list[tuple[str, str]] = []
+    for ref, comp in loaded.design.components.items():
+        if kind is not None and comp.kind != kind:
+            continue
+        if comp.kind not in ("resistor", "capacitor", "ntc"):
+            continue
+        a, b = comp.pins.get("1"), comp.pins.get("2")
+        if a == net and b is not None:
+            out.append((ref, b))
+        elif b == net and a is not None:
+            out.append((ref, a))
+    return out
+
+
+def parallel(*values: float) -> float:
+    """Parallel combination of resistances (0 Ω dominates; no values -> infinity)."""
+    if any(v == 0 for v in values):
+        return 0.0
+    g = sum(1.0 / v for v in values if math.isfinite(v))
+    return 1.0 / g if g > 0 else math.inf
+
+
+def resistance_at(loaded: LoadedDesign, net: str) -> float:
+    """Resistance seen from ``net`` through the resistors on it, every far end taken as AC ground.
+
+    At an op-amp's inverting input with feedback this is Rf || Rg (the far ends are the low-impedance
+    output and the reference).
+    """
+    comps = loaded.design.components
+    return parallel(*(comps[ref].value for ref, _ in attached(loaded, net, "resistor")))  # type: ignore[union-attr]
+
+
+def design_band(loaded: LoadedDesign) -> tuple[float, float] | None:
+    """(lowest, highest) frequency over every declared signal band, or None if no band is declared."""
+    d = loaded.design
+    bands = [s.band for s in d.signals.values() if s.band]
+    bands += [c.band for c in d.components.values() if c.kind == "signal_source" and c.band]  # type: ignore[union-attr]
+    if not bands:
+        return None
+    return min(b[0] for b in bands), max(b[1] for b in bands)

@@ -1,0 +1,41 @@
+"""AFE405: output within 100 mV of its swing limit at full signal (not beyond: that is AFE302)."""
+
+from __future__ import annotations
+
+from collections.abc import Iterator
+
+from afecheck.checks.common import finding as make_finding
+from afecheck.checks.common import fmt
+from afecheck.checks.headroom.limits import swing
+from afecheck.engine.context import Context
+from afecheck.engine.finding import Finding, Severity
+from afecheck.engine.rule import Param, RuleMeta
+
+META = RuleMeta(
+    id="AFE405", slug="output-near-swing-limit", severity=Severity.WARNING, family="distortion",
+    summary="output at full signal within 100 mV of its swing limit, where output-stage linearity falls",
+    params=(Param("band", 0.1, "V", "headroom to the swing limit below which a warning is raised"),),
+    fix="lower the gain or output offset a little, lighten the load, or choose a part with more output swing",
+)
+
+
+def check(ctx: Context) -> Iterator[Finding]:
+    """Warn when the full-signal output extreme is inside the swing limit by less than the band."""
+    band = ctx.param("band")
+    for stage in ctx.stages:
+        s = swing(ctx, stage)
+        if s is None:
+            continue
+        for name, value, limit, margin in (
+            ("highest", s.high_required, s.high_limit, s.high_limit - s.high_required),
+            ("lowest", s.low_required, s.low_limit, s.low_required - s.low_limit),
+        ):
+            if not 0 <= margin < band:
+                continue
+            text = (f"{stage.opamp} output reaches {fmt(value, 'V')} on {stage.out}, only {fmt(margin, 'V')} inside "
+                    f"its {name} swing limit {fmt(limit, 'V')} at this load (band {fmt(band, 'V')})")
+            yield make_finding(
+                ctx, Severity.WARNING, value=value, limit=limit, unit="V", margin=margin,
+                limit_source=f"part {stage.part} output swing model; band rule parameter (RULES-REFERENCE R4e)",
+                message=text, fix=META.fix, refs=(stage.opamp,), nets=(stage.out,), pins=("out",), assumed=s.assumed,
+            )

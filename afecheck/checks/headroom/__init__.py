@@ -1,0 +1,1 @@
+"""Headroom rules."""

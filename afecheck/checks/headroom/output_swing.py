@@ -1,0 +1,43 @@
+"""AFE302: required output voltage beyond the op-amp's swing limit at its actual load."""
+
+from __future__ import annotations
+
+from collections.abc import Iterator
+
+from afecheck.checks.common import finding as make_finding
+from afecheck.checks.common import fmt, not_evaluated, stage_reason
+from afecheck.checks.headroom.limits import swing
+from afecheck.engine.context import Context
+from afecheck.engine.finding import Finding, Severity
+from afecheck.engine.rule import RuleMeta
+
+META = RuleMeta(
+    id="AFE302", slug="output-beyond-swing-limit", severity=Severity.ERROR, family="headroom",
+    summary="required output voltage beyond the op-amp's swing limit at its load (it clips)",
+    fix="lower the gain or the input range, move the output reference, lighten the load, or choose a "
+        "rail-to-rail-output part",
+)
+
+
+def check(ctx: Context) -> Iterator[Finding]:
+    """Error when the highest or lowest required output passes the swing limit (warning band: AFE405)."""
+    for stage in ctx.stages:
+        s = swing(ctx, stage)
+        if s is None:
+            if stage.vout_min is None or stage.vout_max is None:
+                yield not_evaluated(ctx, f"{stage.opamp} output range", stage_reason(stage, "no output range"),
+                                    refs=(stage.opamp,), nets=(stage.out,))
+            continue
+        for name, value, limit, margin in (
+            ("highest", s.high_required, s.high_limit, s.high_limit - s.high_required),
+            ("lowest", s.low_required, s.low_limit, s.low_required - s.low_limit),
+        ):
+            if margin >= 0:
+                continue
+            text = (f"{stage.opamp} must reach {fmt(value, 'V')} on {stage.out} but its {name} output at this load "
+                    f"is {fmt(limit, 'V')} ({fmt(-margin, 'V')} short): the signal clips")
+            yield make_finding(
+                ctx, Severity.ERROR, value=value, limit=limit, unit="V", margin=margin,
+                limit_source=f"part {stage.part} output swing model (RULES-REFERENCE R3)", message=text, fix=META.fix,
+                refs=(stage.opamp,), nets=(stage.out,), pins=("out",), assumed=s.assumed,
+            )

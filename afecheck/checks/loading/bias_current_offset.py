@@ -1,0 +1,79 @@
+"""AFE103: input bias current through the source resistance of a non-inverting input offsets the output."""
+
+from __future__ import annotations
+
+from collections.abc import Iterator
+
+from afecheck.checks.common import attached, fmt, grade_above, part_value, pct, resistance_at
+from afecheck.checks.common import finding as make_finding
+from afecheck.checks.loading.sources import plus_source_resistance
+from afecheck.engine.context import Context
+from afecheck.engine.finding import Finding, Severity
+from afecheck.engine.rule import Param, RuleMeta
+
+META = RuleMeta(
+    id="AFE103", slug="bias-current-offsets-output", severity=Severity.ERROR, family="loading",
+    summary="input bias current through the source resistance offsets a non-inverting stage's output",
+    params=(
+        Param("budget_warn", 0.25, "1", "share of the declared offset budget above which a warning is raised"),
+        Param("budget_error", 1.0, "1", "share of the declared offset budget above which an error is raised"),
+        Param("warn_fraction", 1e-3, "1", "offset / output span above which a warning is raised (no budget)"),
+        Param("error_fraction", 1e-2, "1", "offset / output span above which an error is raised (no budget)"),
+    ),
+    fix="choose a low-bias-current (CMOS or JFET input) part, lower the source resistance, or (plain bipolar inputs "
+        "only) match the in- resistance Rf||Rg to the source resistance",
+)
+
+
+def bias_offset(ng: float, ib: float, ios: float, r_plus: float, r_minus: float) -> float:
+    """Worst-case output offset from bias currents: NG·(|Ib|·|R− − R+| + |Ios|/2·(R− + R+)) (RULES-REFERENCE R5b)."""
+    return ng * (abs(ib) * abs(r_minus - r_plus) + abs(ios) / 2.0 * (r_minus + r_plus))
+
+
+def check(ctx: Context) -> Iterator[Finding]:
+    """Output offset NG·Ib·Rs (with the in- side's cancelling term) against the offset budget or output span."""
+    for stage in ctx.stages:
+        if stage.topology not in ("follower", "non-inverting") or stage.noise_gain_dc is None:
+            continue
+        for inp in stage.inputs:
+            if inp.pin != "in+":
+                continue
+            r_plus = plus_source_resistance(ctx.loaded, inp)
+            if r_plus <= 0:
+                continue
+            ib, a1 = part_value(ctx, stage.opamp, "bias_current")
+            ios, a2 = part_value(ctx, stage.opamp, "offset_current")
+            if ib is None or ios is None:
+                continue
+            has_rg = bool(attached(ctx.loaded, stage.in_minus, "resistor"))
+            r_minus = resistance_at(ctx.loaded, stage.in_minus) if has_rg else 0.0
+            offset = bias_offset(stage.noise_gain_dc, ib, ios, r_plus, r_minus)
+            budget = ctx.loaded.design.budgets.get(stage.out)
+            if budget is not None and budget.offset:
+                share = offset / budget.offset
+                severity = grade_above(share, ctx.param("budget_warn"), ctx.param("budget_error"))
+                limit_share = ctx.param("budget_error" if severity == Severity.ERROR else "budget_warn")
+                limit = limit_share * budget.offset
+                against = f"{pct(limit_share)} of the {fmt(budget.offset, 'V')} offset budget"
+                source = f"budgets.{stage.out}.offset × rule parameter"
+            else:
+                span = (stage.vout_max or 0.0) - (stage.vout_min or 0.0) + 2.0 * stage.vout_ac_peak
+                if span <= 0:
+                    continue
+                share = offset / span
+                severity = grade_above(share, ctx.param("warn_fraction"), ctx.param("error_fraction"))
+                limit_share = ctx.param("error_fraction" if severity == Severity.ERROR else "warn_fraction")
+                limit, against = limit_share * span, f"{pct(limit_share)} of the {fmt(span, 'V')} output span"
+                source = "rule parameter (RULES-REFERENCE R1/R5b, common practice)"
+            if severity is None:
+                continue
+            text = (f"{stage.opamp}: bias current {fmt(ib, 'A')} through {fmt(r_plus, 'Ω')} at in+ "
+                    f"(in- side {fmt(r_minus, 'Ω')}) with noise gain {stage.noise_gain_dc:.3g} offsets {stage.out} by "
+                    f"up to {fmt(offset, 'V')} (limit {fmt(limit, 'V')}, {against})")
+            yield make_finding(
+                ctx, severity, value=offset, limit=limit, unit="V", margin=limit - offset, limit_source=source,
+                message=text, fix=META.fix, refs=(*inp.via[:1], stage.opamp), nets=(inp.source.net, stage.out),
+                assumed=a1 + a2,
+                extra={"bias_current": ib, "offset_current": ios, "r_plus": r_plus, "r_minus": r_minus,
+                       "noise_gain": stage.noise_gain_dc},
+            )
