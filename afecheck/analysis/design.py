@@ -1,0 +1,21 @@
+"""Analyse a whole design: build the circuit graph, find the stages, solve them in signal order."""
+
+from __future__ import annotations
+
+from afecheck.analysis.results import DesignAnalysis
+from afecheck.analysis.signals import propagate
+from afecheck.graph.build import build_circuit
+from afecheck.graph.stages import find_stages
+from afecheck.model.loaded import LoadedDesign
+
+
+def analyse_design(loaded: LoadedDesign) -> DesignAnalysis:
+    """Every op-amp stage's StageResult (in file order), the signal on every net, and what was not evaluated."""
+    circuit = build_circuit(loaded)
+    plan = find_stages(circuit)
+    results, nets, problems = propagate(circuit, plan)
+    for r in results.values():
+        if r.not_evaluated:
+            problems.append(((r.opamp,), "; ".join(r.not_evaluated)))
+    stages = tuple(results[r] for r in circuit.opamps if r in results)
+    return DesignAnalysis(stages=stages, nets=dict(sorted(nets.items())), not_evaluated=tuple(problems))

@@ -1,0 +1,461 @@
+"""Solve one stage (or one group of op-amps tied in a loop) locally and fill its StageResult.
+
+The local circuit is the op-amps with their macromodels, the stage's passives, a Thevenin source on every
+input (declared signal, signal source, rail, divider, upstream stage output with its closed-loop output
+resistance) and the loads on its nets; other op-amps' outputs it reaches hold their nets, other op-amps'
+``in-`` nets it reaches are virtual grounds. Cost grows with the stage, not the design.
+
+Every input is a unit column of one DC solve (superposition): its gain, the voltage it leaves at its own net
+(so ideal gain = gain / that voltage, loading error = 1 − that voltage, input resistance = voltage / current
+drawn), and the range of every node as the sum over inputs of gain × source range. A thermistor divider is
+solved at each point of its temperature grid, because its Thevenin resistance moves with temperature.
+"""
+
+from __future__ import annotations
+
+import math
+from collections.abc import Mapping
+from dataclasses import dataclass
+
+import numpy as np
+
+from afecheck.analysis.loop import loop_gain
+from afecheck.analysis.mna import assemble, check_connectivity
+from afecheck.analysis.netlist import (
+    GROUND,
+    Capacitor,
+    Element,
+    Netlist,
+    NetlistOptions,
+    Resistor,
+    VoltageSource,
+    netlist_from_design,
+)
+from afecheck.analysis.results import NetSignal, SourceEquivalent, StageInput, StageResult
+from afecheck.analysis.sources import Divider, boundary_source, find_dividers
+from afecheck.errors import InputError, SingularCircuitError
+from afecheck.graph.build import Circuit
+from afecheck.graph.stages import Stage, StagePlan
+
+HF_FACTOR = 10.0
+
+
+@dataclass(frozen=True)
+class _Input:
+    """One input of the local circuit: its equivalent, the branch that drives it, and its temperature grid."""
+
+    source: SourceEquivalent
+    branch: str
+    series: str | None
+    rth: tuple[float, ...]
+    vmin: tuple[float, ...]
+    vmax: tuple[float, ...]
+    pin: str
+
+
+@dataclass(frozen=True)
+class UnitResult:
+    """The results of one solve unit: a StageResult per op-amp and the signal on each net it solved."""
+
+    stages: tuple[StageResult, ...]
+    nets: tuple[NetSignal, ...]
+
+
+def _node(circuit: Circuit, net: str) -> str:
+    return GROUND if net == circuit.ground else net
+
+
+def _empty_result(stage: Stage, circuit: Circuit, reasons: tuple[str, ...]) -> StageResult:
+    part = circuit.loaded.design.components[stage.opamp].part  # type: ignore[union-attr]
+    vp, vm, _ = _rails(circuit, stage)
+    return StageResult(
+        opamp=stage.opamp, part=part, topology=stage.topology, refs=stage.refs, in_plus=stage.in_plus,
+        in_minus=stage.in_minus, out=stage.out, group=stage.group, inputs=(), noise_gain_dc=None,
+        noise_gain_at_crossover=None, noise_gain_hf=None, output_resistance=None, vcm_min=None, vcm_max=None,
+        vout_min=None, vout_max=None, vout_ac_peak=0.0, f_max=0.0, load_resistance=None, load_capacitance=0.0,
+        iout_peak=None, feedback="none", loop_gain_dc=None, crossover_hz=None, phase_margin_deg=None,
+        gain_margin_db=None, loop_gain_at_fmax=None, required_slew_rate=0.0, rail_plus=vp, rail_minus=vm,
+        not_evaluated=reasons,
+    )
+
+
+def _rails(circuit: Circuit, stage: Stage) -> tuple[float, float, list[str]]:
+    notes = []
+    values = []
+    for pin, net in (("v+", stage.supply_plus), ("v-", stage.supply_minus)):
+        v = circuit.fixed.get(net) if net is not None else None
+        if v is None:
+            notes.append(f"supply pin {pin} is not on a rail of known voltage")
+            v = 0.0
+        values.append(float(v))
+    return values[0], values[1], notes
+
+
+def _collect_inputs(
+    circuit: Circuit, stages: list[Stage], dividers: Mapping[str, Divider], done: Mapping[str, StageResult],
+) -> tuple[list[_Input], list[Element], list[str]]:
+    """Inputs of the unit, extra elements that realise them, and the notes on anything left unknown."""
+    unit = {s.opamp for s in stages}
+    legs = {r for dv in dividers.values() for r in dv.legs}
+    side_refs = set().union(*(s.plus_region.refs | s.minus_region.refs for s in stages))
+    inputs: list[_Input] = []
+    extra: list[Element] = []
+    notes: list[str] = []
+    seen: set[str] = set()
+    pin_of: dict[str, str] = {}
+    for s in stages:
+        for net in s.plus_region.boundary | s.plus_region.nets | {s.in_plus}:
+            pin_of.setdefault(net, "in+")
+        for net in s.minus_region.boundary | s.minus_region.nets | {s.in_minus}:
+            pin_of.setdefault(net, "in-")
+    boundary = sorted(set().union(*(s.plus_region.boundary | s.minus_region.boundary for s in stages)))
+    for net in sorted(dividers):
+        dv = dividers[net]
+        inner = f"{net}#thev.s"
+        k = dv.nominal_index
+        extra += [VoltageSource(f"{net}#thev", inner, GROUND, dc=0.0),
+                  Resistor(f"{net}#thev.rs", inner, _node(circuit, net), dv.rth[k])]
+        inputs.append(_Input(dv.equivalent(), f"{net}#thev", f"{net}#thev.rs", dv.rth, dv.vth_min, dv.vth_max,
+                             pin_of.get(net, "in+")))
+        seen.add(net)
+    for net in boundary:
+        if net in seen or net == circuit.ground or circuit.opamp_outputs.get(net) in unit:
+            continue
+        touching = {r for r, _ in circuit.net_pins.get(net, ()) if r in side_refs and r not in legs}
+        if net in circuit.fixed and not touching and not any(net in (s.in_plus, s.in_minus) for s in stages):
+            continue
+        owner = circuit.opamp_outputs.get(net)
+        src = boundary_source(circuit, net, done.get(owner) if owner else None)
+        if src is None:
+            notes.append(f"net {net} has no known voltage")
+            continue
+        if src.kind == "unknown":
+            notes.append(f"upstream stage {owner} was not analysed before this one (loop between stages)")
+        pin = pin_of.get(net, "in+")
+        if src.kind == "signal":
+            series = f"{net}#signal.rs" if src.r_max > 0 else None
+            branch = f"{net}#signal"
+        elif src.kind == "signal-source":
+            series = f"{src.refs[0]}#rs" if src.r_max > 0 else None
+            branch = src.refs[0]
+        elif src.kind in ("rail", "vsource"):
+            branch, series = (f"{net}#rail", None) if src.kind == "rail" else (f"{net}#fixed", None)
+            if src.kind == "vsource":
+                extra.append(VoltageSource(branch, _node(circuit, net), GROUND, dc=0.0))
+        else:
+            branch = f"{net}#stage"
+            series = f"{net}#stage.rs" if src.r_max > 0 else None
+            if series:
+                extra += [VoltageSource(branch, f"{net}#stage.s", GROUND, dc=0.0),
+                          Resistor(series, f"{net}#stage.s", _node(circuit, net), src.r_max)]
+            else:
+                extra.append(VoltageSource(branch, _node(circuit, net), GROUND, dc=0.0))
+        inputs.append(_Input(src, branch, series, (src.r_max,), (src.v_min,), (src.v_max,), pin))
+        seen.add(net)
+    return inputs, extra, notes
+
+
+def _holding_elements(circuit: Circuit, stages: list[Stage], nets: set[str], seen_inputs: set[str],
+                      done: Mapping[str, StageResult]) -> list[Element]:
+    """Sources for other op-amps' outputs and virtual grounds the output walk stopped at; input loads of others."""
+    unit = {s.opamp for s in stages}
+    extra: list[Element] = []
+    out_boundary = set().union(*(s.output_region.boundary for s in stages)) - seen_inputs
+    for net in sorted(out_boundary):
+        if net in circuit.fixed or net in circuit.signal_nets:
+            if (net in circuit.fixed and net != circuit.ground and net not in circuit.loaded.design.rails
+                    and circuit.fixed[net] is not None):
+                extra.append(VoltageSource(f"{net}#fixed", _node(circuit, net), GROUND, dc=float(circuit.fixed[net])))
+            continue
+        owner = circuit.opamp_outputs.get(net)
+        if owner is not None and owner not in unit:
+            res = done.get(owner)
+            v = 0.0 if res is None or res.vout_min is None else 0.5 * (res.vout_min + res.vout_max)
+            extra.append(VoltageSource(f"{net}#held", _node(circuit, net), GROUND, dc=v))
+            continue
+        for ref in circuit.opamps:
+            if ref not in unit and circuit.pins[ref].get("in-") == net:
+                vp = circuit.fixed.get(circuit.pins[ref].get("in+", ""))
+                extra.append(VoltageSource(f"{net}#vg", _node(circuit, net), GROUND, dc=float(vp or 0.0)))
+                break
+    for net in sorted(nets - set(circuit.fixed)):
+        for ref, pin in circuit.net_pins.get(net, ()):
+            if circuit.kinds[ref] == "opamp" and ref not in unit and pin in ("in+", "in-"):
+                model = circuit.loaded.parts.get(circuit.loaded.design.components[ref].part)  # type: ignore[union-attr]
+                rcm = model.value("input_resistance_cm") if model is not None else 1e12
+                extra.append(Resistor(f"{ref}#load{pin}", _node(circuit, net), GROUND, rcm))
+                if model is not None and model.value("input_capacitance_cm") > 0:
+                    extra.append(Capacitor(f"{ref}#loadc{pin}", _node(circuit, net), GROUND,
+                                           model.value("input_capacitance_cm")))
+    return extra
+
+
+def analyse_unit(circuit: Circuit, plan: StagePlan, unit: tuple[str, ...],
+                 done: Mapping[str, StageResult]) -> UnitResult:
+    """Solve the op-amps of ``unit`` together and return their StageResults and net signals."""
+    stages = [plan.stages[r] for r in unit]
+    for s in stages:
+        if not s.out or not s.in_plus or not s.in_minus:
+            return UnitResult(tuple(_empty_result(x, circuit, ("an op-amp input or output pin is unconnected",))
+                                    for x in stages), ())
+    passives = frozenset().union(*(frozenset(s.refs) for s in stages))
+    input_nets = set().union(*(s.plus_region.nets | s.minus_region.nets for s in stages))
+    input_nets -= {s.in_minus for s in stages} | {s.out for s in stages}
+    dividers = find_dividers(circuit, input_nets, passives)
+    legs = {r for dv in dividers.values() for r in dv.legs}
+    nets = set().union(*(set(s.nets) for s in stages))
+    inputs, extra, notes = _collect_inputs(circuit, stages, dividers, done)
+    extra += _holding_elements(circuit, stages, nets, {i.source.net for i in inputs}, done)
+    d = circuit.loaded.design
+    sig_sources = [r for r, k in circuit.kinds.items()
+                   if k == "signal_source" and d.components[r].pins.get("p") in nets]
+    comps = list(unit) + sorted(passives - legs) + sig_sources
+    zero = {n: 0.0 for n in d.signals} | {r: 0.0 for r in sig_sources}
+    try:
+        netlist = netlist_from_design(circuit.loaded, comps, NetlistOptions(signal_dc=zero)).with_elements(*extra)
+    except InputError as exc:
+        return UnitResult(tuple(_empty_result(s, circuit, tuple(p.message for p in exc.problems)) for s in stages), ())
+    names = {e.name for e in netlist.elements}
+    inputs = [i for i in inputs if i.branch in names]
+    try:
+        return _solve_unit(circuit, stages, netlist, inputs, notes)
+    except SingularCircuitError as exc:
+        reason = f"singular circuit: {exc}"
+        return UnitResult(tuple(_empty_result(s, circuit, (reason, *notes)) for s in stages), ())
+
+
+def _solve_unit(circuit: Circuit, stages: list[Stage], netlist: Netlist, inputs: list[_Input],
+                notes: list[str]) -> UnitResult:
+    check_connectivity(netlist, dc=True)
+    system = assemble(netlist)
+    n = system.size
+    g = system.g
+    b_const = system.b_dc.copy()
+    cols = np.zeros((n, len(inputs)))
+    for j, inp in enumerate(inputs):
+        k = system.branch_index(inp.branch)
+        b_const[k] = 0.0
+        cols[k, j] = 1.0
+    try:
+        x = np.linalg.solve(g, np.column_stack([b_const, cols]))
+    except np.linalg.LinAlgError:
+        raise SingularCircuitError("the DC nodal matrix is singular") from None
+    x_const, x_unit = x[:, 0], x[:, 1:]
+
+    lo = x_const.copy()
+    hi = x_const.copy()
+    per_input: list[tuple[np.ndarray, np.ndarray, np.ndarray]] = []
+    for j, inp in enumerate(inputs):
+        xs = _grid_solutions(system, g, inp, x_unit[:, j])
+        vth_lo = np.asarray(inp.vmin)[:, None]
+        vth_hi = np.asarray(inp.vmax)[:, None]
+        contrib = np.concatenate([xs * vth_lo, xs * vth_hi])
+        lo += contrib.min(axis=0)
+        hi += contrib.max(axis=0)
+        per_input.append((xs, vth_lo, vth_hi))
+
+    ac_amp, fmax = _ac_amplitudes(system, inputs, n)
+    idx = system.node_index
+    results = []
+    for s in stages:
+        results.append(_stage_result(circuit, s, netlist, system, inputs, x_unit, per_input, lo, hi, ac_amp,
+                                     fmax, notes))
+    fixed = set(circuit.fixed)
+    net_signals = []
+    for net in sorted(set().union(*(set(s.nets) for s in stages)) - fixed):
+        node = _node(circuit, net)
+        if node not in system.index:
+            continue
+        i = idx(node)
+        net_signals.append(NetSignal(net=net, dc_min=float(lo[i]), dc_max=float(hi[i]),
+                                     ac_amplitude=float(ac_amp[i]), f_max=float(fmax[i])))
+    return UnitResult(tuple(results), tuple(net_signals))
+
+
+def _grid_solutions(system, g: np.ndarray, inp: _Input, base: np.ndarray) -> np.ndarray:
+    """Unit-source solutions at each grid point of the input's Thevenin resistance, shape (points, n)."""
+    if len(inp.rth) == 1 or inp.series is None:
+        return base[None, :]
+    el = system.netlist.element(inp.series)
+    a, b = system.node_index(el.a), system.node_index(el.b)
+    k = system.branch_index(inp.branch)
+    nominal = el.value
+    mats = np.repeat(g[None, :, :], len(inp.rth), axis=0)
+    for p, r in enumerate(inp.rth):
+        dg = 1.0 / r - 1.0 / nominal
+        for i, jj, v in ((a, a, dg), (b, b, dg), (a, b, -dg), (b, a, -dg)):
+            if i >= 0 and jj >= 0:
+                mats[p, i, jj] += v
+    rhs = np.zeros((len(inp.rth), system.size, 1))
+    rhs[:, k, 0] = 1.0
+    return np.linalg.solve(mats, rhs)[..., 0]
+
+
+def _ac_amplitudes(system, inputs: list[_Input], n: int) -> tuple[np.ndarray, np.ndarray]:
+    """AC amplitude (sum over inputs of amplitude × largest |H| over the input's band) and highest frequency."""
+    amp = np.zeros(n)
+    fmax = np.zeros(n)
+    active = [(j, i) for j, i in enumerate(inputs) if i.source.ac_amplitude > 0]
+    if not active:
+        return amp, fmax
+    freqs, owners = [], []
+    for j, inp in active:
+        band = _band(inp)
+        for f in band:
+            freqs.append(f)
+            owners.append(j)
+    f = np.asarray(freqs)
+    y = _admittance(system, f)
+    rhs = np.zeros((f.size, n, 1), dtype=complex)
+    for row, j in enumerate(owners):
+        rhs[row, system.branch_index(inputs[j].branch), 0] = 1.0
+    xs = np.abs(np.linalg.solve(y, rhs)[..., 0])
+    for j, inp in active:
+        rows = [r for r, o in enumerate(owners) if o == j]
+        h = xs[rows].max(axis=0)
+        amp += inp.source.ac_amplitude * h
+        fmax = np.where(h > 1e-12, np.maximum(fmax, inp.source.f_max), fmax)
+    return amp, fmax
+
+
+def _admittance(system, f: np.ndarray) -> np.ndarray:
+    """(G + jωC) at every frequency with each op-amp core's frequency-dependent gain, shape (n_freq, n, n)."""
+    y = system.g[None, :, :] + (2j * math.pi * f)[:, None, None] * system.c[None, :, :]
+    for k, cp, cn, core in system.cores:
+        delta = core.gain(f) - core.a0
+        if cp >= 0:
+            y[:, k, cp] -= delta
+        if cn >= 0:
+            y[:, k, cn] += delta
+    return y
+
+
+def _band(inp: _Input) -> list[float]:
+    fhi = inp.source.f_max
+    if fhi <= 0:
+        return [0.0]
+    flo = fhi / 100.0
+    return [flo, math.sqrt(flo * fhi), fhi]
+
+
+def _stage_result(circuit: Circuit, s: Stage, netlist: Netlist, system, inputs: list[_Input], x_unit: np.ndarray,
+                  per_input, lo: np.ndarray, hi: np.ndarray, ac_amp: np.ndarray, fmax: np.ndarray,
+                  notes: list[str]) -> StageResult:
+    idx = system.node_index
+    out = idx(_node(circuit, s.out))
+    inp_i = idx(_node(circuit, s.in_plus))
+    op = netlist.opamps[s.opamp]
+    reasons = list(notes)
+    vp, vm, rail_notes = _rails(circuit, s)
+    reasons += rail_notes
+    buf = system.branch_index(op.loop_element)
+
+    stage_inputs = []
+    best = None
+    for j, inp in enumerate(inputs):
+        xs, _vl, _vh = per_input[j]
+        src_node = _node(circuit, inp.source.net)
+        a = idx(src_node)
+        vatt = xs[:, a] if a >= 0 else np.ones(len(xs))
+        k = system.branch_index(inp.branch)
+        err = 1.0 - vatt
+        g_nom = float(x_unit[out, j]) if out >= 0 else 0.0
+        v_nom = float(x_unit[a, j]) if a >= 0 else 1.0
+        ideal = g_nom / v_nom if v_nom != 0 else g_nom
+        i_nom = float(-x_unit[k, j])
+        rin = abs(v_nom / i_nom) if i_nom != 0 else math.inf
+        via = tuple(sorted(r for r, _ in circuit.net_pins.get(inp.source.net, ()) if r in s.refs
+                           and r not in inp.source.refs))
+        stage_inputs.append(StageInput(
+            net=inp.source.net, pin=inp.pin, source=inp.source, via=via, gain=g_nom, ideal_gain=float(ideal),
+            input_resistance=float(rin), loading_error_min=float(err.min()), loading_error_max=float(err.max()),
+        ))
+        span = abs(g_nom) * max(abs(inp.source.v_max - inp.source.v_min), inp.source.ac_amplitude, 1e-30)
+        if inp.source.kind not in ("rail", "vsource") and (best is None or span > best[0]):
+            best = (span, j)
+
+    iout_lo, iout_hi = -hi[buf], -lo[buf]
+    vout_min, vout_max = float(lo[out]), float(hi[out])
+    vac = float(ac_amp[out])
+    f_max = float(fmax[out])
+    load_r = None
+    if best is not None:
+        j = best[1]
+        i_unit = -x_unit[buf, j]
+        if abs(i_unit) > 0:
+            load_r = float(abs(x_unit[out, j] / i_unit))
+    load_c = _load_capacitance(circuit, s)
+    iout_peak = float(max(abs(iout_lo), abs(iout_hi)))
+    if vac > 0:
+        iout_peak += vac / load_r if load_r else 0.0
+        iout_peak += 2 * math.pi * f_max * load_c * vac
+
+    fb: str = "none"
+    t_dc = fc = pm = gm = t_fmax = ng_dc = ng_fc = ng_hf = None
+    try:
+        lg = loop_gain(netlist, s.opamp)
+        fb = lg.sign
+        t_dc = lg.t_dc
+        if fb == "none":
+            reasons.append("no feedback: the loop gain at DC is negligible")
+        else:
+            fc, pm, gm = lg.crossover_hz, lg.phase_margin_deg, lg.gain_margin_db
+            ng_dc = lg.noise_gain_dc
+            ng_dc = abs(ng_dc) if ng_dc is not None else None
+            ng_fc = lg.noise_gain_at(fc) if fc else None
+            ng_hf = lg.noise_gain_at(HF_FACTOR * max(op.open_loop_gain * op.pole1_hz, op.pole2_hz))
+            if f_max > 0:
+                t_fmax = lg.magnitude_at(f_max)
+            if fc is None:
+                reasons.append("no crossover: |T| never falls through 1 on the grid")
+    except SingularCircuitError as exc:
+        reasons.append(f"loop gain: singular circuit: {exc}")
+
+    rout = None
+    if out >= 0 and fb == "negative":
+        rhs = np.zeros(system.size)
+        rhs[out] = 1.0
+        zero_g = system.g
+        try:
+            rout = float(abs(np.linalg.solve(zero_g, rhs)[out]))
+        except np.linalg.LinAlgError:
+            reasons.append("closed-loop output resistance: singular circuit")
+
+    vpk = vac if vac > 0 else 0.5 * (vout_max - vout_min)
+    part = circuit.loaded.design.components[s.opamp].part  # type: ignore[union-attr]
+    return StageResult(
+        opamp=s.opamp, part=part, topology=s.topology, refs=s.refs, in_plus=s.in_plus, in_minus=s.in_minus,
+        out=s.out, group=s.group, inputs=tuple(stage_inputs),
+        noise_gain_dc=_f(ng_dc), noise_gain_at_crossover=_f(ng_fc), noise_gain_hf=_f(ng_hf),
+        output_resistance=rout, vcm_min=float(lo[inp_i]) if inp_i >= 0 else 0.0,
+        vcm_max=float(hi[inp_i]) if inp_i >= 0 else 0.0, vout_min=vout_min, vout_max=vout_max,
+        vout_ac_peak=vac, f_max=f_max, load_resistance=load_r, load_capacitance=load_c, iout_peak=iout_peak,
+        feedback=fb, loop_gain_dc=_f(t_dc), crossover_hz=_f(fc), phase_margin_deg=_f(pm), gain_margin_db=_f(gm),
+        loop_gain_at_fmax=_f(t_fmax), required_slew_rate=float(2 * math.pi * f_max * vpk),
+        rail_plus=vp, rail_minus=vm, assumed=tuple(op.assumed), estimated="second_pole" in op.assumed,
+        not_evaluated=tuple(reasons),
+    )
+
+
+def _f(v: float | None) -> float | None:
+    return None if v is None or not math.isfinite(v) else float(v)
+
+
+def _load_capacitance(circuit: Circuit, s: Stage) -> float:
+    """Capacitance from the output net to fixed nets, plus the declared load capacitance and other op-amp inputs."""
+    total = 0.0
+    d = circuit.loaded.design
+    for ref, _pin in circuit.net_pins.get(s.out, ()):
+        kind = circuit.kinds[ref]
+        if kind == "capacitor":
+            far = circuit.other_pin_net(ref, s.out)
+            if far is not None and far in circuit.fixed:
+                total += float(d.components[ref].value)
+        elif kind == "opamp" and ref != s.opamp:
+            model = circuit.loaded.parts.get(d.components[ref].part)
+            if model is not None:
+                total += model.value("input_capacitance_cm")
+    load = d.loads.get(s.out)
+    if load is not None and load.capacitance:
+        total += float(load.capacitance)
+    return float(total)
