@@ -1,12 +1,21 @@
-"""The library entry points: load -> build -> analyse -> rules -> report data. No printing here."""
+"""The library entry points: load -> build -> analyse -> rules -> policy -> report data. No printing here."""
 
 from __future__ import annotations
 
+import datetime as dt
+import re
+from collections.abc import Sequence
 from dataclasses import dataclass
 from pathlib import Path
+from typing import Any
 
 from afecheck.engine.finding import Finding, Severity
+from afecheck.engine.rule import RuleMeta
+from afecheck.errors import InputError, Problem
 from afecheck.model.loaded import LoadedDesign
+from afecheck.report.data import DesignResult, Entry, Report, RuleInfo, WaiverNote, parse_fail_level
+
+_FAIL_ORDER = ("info", "warning", "error", "never")
 
 
 @dataclass(frozen=True)
@@ -23,7 +32,7 @@ class DesignReport:
 
 
 def check_design(loaded: LoadedDesign, **options: object) -> DesignReport:
-    """Run the rules on a loaded design."""
+    """Run the rules on a loaded design (options go to the rule runner: select, params, severity_overrides)."""
     from afecheck.engine.runner import run_rules
 
     findings = tuple(sorted(run_rules(loaded, **options), key=Finding.sort_key))
@@ -38,3 +47,159 @@ def check_file(
     from afecheck.model.load import load_design
 
     return check_design(load_design(path, intent=intent, libraries=libraries), **options)
+
+
+def _natural(text: str) -> tuple:
+    return tuple(int(t) if t.isdigit() else t for t in re.split(r"(\d+)", text))
+
+
+def _section(markdown: str, title: str) -> str:
+    """The first paragraph under ``## title`` in a rule.md (empty if absent)."""
+    m = re.search(rf"^##\s+{re.escape(title)}\s*$(.*?)(?=^##\s|\Z)", markdown, re.M | re.S | re.I)
+    if not m:
+        return ""
+    paragraphs = [p.strip() for p in m.group(1).strip().split("\n\n") if p.strip()]
+    return " ".join(paragraphs[0].split()) if paragraphs else ""
+
+
+def rule_catalogue(metas: Sequence[RuleMeta]) -> tuple[RuleInfo, ...]:
+    """RuleInfo for each rule: metadata plus the text of ``rules/<id>-<slug>/rule.md`` when it ships."""
+    from importlib import resources
+
+    root = resources.files("afecheck._catalogue")
+    out = []
+    for m in sorted(metas, key=lambda m: m.id):
+        doc = root.joinpath(f"{m.id}-{m.slug}", "rule.md")
+        text = doc.read_text(encoding="utf-8") if doc.is_file() else ""
+        description = _section(text, "What it checks") or m.summary
+        out.append(RuleInfo(id=m.id, slug=m.slug, severity=m.severity, summary=m.summary, family=m.family,
+                            description=description, help=text.strip() or description, fix=m.fix))
+    return tuple(out)
+
+
+def stage_finder(loaded: LoadedDesign):
+    """A function Finding -> op-amp refdes of its stage ("" for design-wide), from the op-amps' pin nets."""
+    d = loaded.design
+    skip = {d.ground, *d.rails}
+    opamps = sorted((r for r, c in d.components.items() if c.kind == "opamp"), key=_natural)
+    inputs = {u: {n for p, n in d.components[u].pins.items() if p in ("in+", "in-")} - skip for u in opamps}
+    outputs = {u: {n for p, n in d.components[u].pins.items() if p == "out"} - skip for u in opamps}
+
+    def stage_of(f: Finding) -> str:
+        refs = f.location.refs
+        for r in refs:
+            if r in inputs:
+                return r
+        nets = set(f.location.nets)
+        for r in refs:
+            comp = d.components.get(r)
+            if comp is not None:
+                nets |= set(comp.pins.values())
+        for table in (inputs, outputs):
+            for u in opamps:
+                if table[u] & nets:
+                    return u
+        return ""
+
+    return stage_of, tuple(opamps)
+
+
+def _registry(registry: Any):
+    if registry is not None:
+        return registry
+    from afecheck.engine.registry import default_registry
+
+    return default_registry()
+
+
+def review_files(
+    paths: Sequence[str | Path],
+    *,
+    intent: str | Path | None = None,
+    libraries: tuple[str | Path, ...] = (),
+    config: str | Path | None = None,
+    discover: bool = True,
+    ruleset: str | None = None,
+    fail_on: str | None = None,
+    waiver_files: Sequence[str | Path] = (),
+    baseline: str | Path | None = None,
+    today: dt.date | None = None,
+    registry: Any = None,
+) -> Report:
+    """Check every design under its policy (``config``, else a discovered ``.afecheck.yaml`` when ``discover``),
+    apply waivers and the baseline, and return the report data. Bad input of any file raises one InputError."""
+    from afecheck import __version__
+    from afecheck.engine.runner import run_rules
+    from afecheck.model.load import load_design
+    from afecheck.policy.baseline import load_baseline
+    from afecheck.policy.config import discover_config, resolve_policy
+    from afecheck.policy.gate import classify, promote
+    from afecheck.policy.rulesets import Catalogue
+    from afecheck.policy.waivers import load_waivers
+
+    reg = _registry(registry)
+    catalogue = Catalogue(reg.metas())
+    problems: list[Problem] = []
+    policies: dict[str | None, Any] = {}
+    waiver_cache: dict[str, tuple[WaiverNote, ...]] = {}
+
+    def waivers_of(files: Sequence[str | Path]) -> tuple[WaiverNote, ...]:
+        out: list[WaiverNote] = []
+        for f in files:
+            key = str(f)
+            if key not in waiver_cache:
+                waiver_cache[key] = load_waivers(f, catalogue)
+            out.extend(waiver_cache[key])
+        return tuple(out)
+
+    recorded = load_baseline(baseline) if baseline is not None else None
+    cli_waivers = waivers_of(waiver_files)
+    designs: list[DesignResult] = []
+    used: set[str] = set()
+    expired: dict[str, WaiverNote] = {}
+    levels: set[str] = set()
+    for path in paths:
+        try:
+            cfg = Path(config) if config is not None else (discover_config(path) if discover else None)
+            key = None if cfg is None else str(cfg)
+            if key not in policies:
+                policies[key] = resolve_policy(catalogue, cfg, ruleset)
+            policy = policies[key]
+            levels.add(policy.fail_on)
+            loaded = load_design(path, intent=intent, libraries=libraries)
+            findings = promote(run_rules(loaded, registry=reg, **policy.run_options(catalogue)), policy.promote)
+            waivers = cli_waivers + waivers_of(policy.waiver_files)
+        except InputError as exc:
+            problems.extend(exc.problems)
+            continue
+        name = loaded.design.name
+        mine = None if recorded is None else [b for b in recorded if b.design == name]
+        stage_of, opamps = stage_finder(loaded)
+        review = classify(findings, waivers, mine, today, stage_of)
+        used |= review.used
+        for w in waivers:
+            if w.fingerprint in review.expired:
+                expired.setdefault(w.fingerprint, w)
+        designs.append(DesignResult(
+            file=loaded.file, name=name, hazards=tuple(loaded.design.hazards), entries=review.entries,
+            stages=opamps, ruleset=policy.ruleset, config=policy.config,
+            rules_run=tuple(m.id for m in catalogue.metas if m.id not in policy.disabled),
+        ))
+    if problems:
+        raise InputError(problems)
+    level = fail_on or min(levels or {"error"}, key=_FAIL_ORDER.index)
+    all_waivers = {w.fingerprint: w for ws in waiver_cache.values() for w in ws}
+    unused = tuple(sorted((w for fp, w in all_waivers.items() if fp not in used),
+                          key=lambda w: (w.file, w.line or 0)))
+    return Report(
+        designs=tuple(designs),
+        rules=rule_catalogue(catalogue.metas),
+        fail_on=parse_fail_level(level),
+        tool_version=__version__,
+        baseline=None if baseline is None else str(baseline),
+        unused_waivers=unused,
+        expired_waivers=tuple(sorted(expired.values(), key=lambda w: (w.file, w.line or 0))),
+    )
+
+
+__all__ = ["DesignReport", "Entry", "Report", "check_design", "check_file", "review_files", "rule_catalogue"]

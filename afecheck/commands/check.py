@@ -1,31 +1,149 @@
-"""``afecheck check FILE...``: review designs and print findings."""
+"""``afecheck check FILE...``: review designs, write reports in one or more formats, and gate on the fail level.
+
+Formats pair with outputs in order: ``--format sarif --output a.sarif --format text`` writes SARIF to a.sarif and
+text to the terminal. A ``--format`` without an ``--output`` goes to standard output (at most one may).
+"""
 
 from __future__ import annotations
 
 import argparse
-from typing import TextIO
+import datetime as dt
+import os
+from pathlib import Path
+from typing import Any, TextIO
+
+from afecheck.report import FORMATS
 
 HELP = "review design files and report findings"
 
 
-def add_arguments(p: argparse.ArgumentParser) -> None:
+def _date(text: str) -> dt.date:
+    try:
+        return dt.date.fromisoformat(text)
+    except ValueError:
+        raise argparse.ArgumentTypeError(f"read {text!r}; expected a date such as 2027-06-30") from None
+
+
+def add_policy_arguments(p: argparse.ArgumentParser) -> None:
+    """FILE..., --intent, --parts, --config/--no-config, --ruleset, --waivers, --today."""
     p.add_argument("files", nargs="+", metavar="FILE", help="design files (YAML or JSON)")
     p.add_argument("--intent", help="design-intent file (signals, loads, budgets keyed by net)")
     p.add_argument("--parts", action="append", default=[], metavar="LIB", help="extra part library file")
-    p.add_argument("--fail-on", default="error", choices=["error", "warning", "info", "never"])
+    cfg = p.add_mutually_exclusive_group()
+    cfg.add_argument("--config", metavar="FILE",
+                     help="project config (default: the nearest .afecheck.yaml beside the design or above it)")
+    cfg.add_argument("--no-config", action="store_true", help="ignore any .afecheck.yaml; use the rule set alone")
+    p.add_argument("--ruleset", metavar="NAME|FILE", help="rule set to use instead of the config's (default, precision,"
+                   " or a rule-set file)")
+    p.add_argument("--waivers", action="append", default=[], metavar="FILE",
+                   help="waiver file (repeatable; adds to the config's waivers)")
+    p.add_argument("--today", type=_date, metavar="DATE",
+                   help="date used to judge waiver expiry (default: today, UTC); makes runs reproducible")
+
+
+def review_options(args: argparse.Namespace) -> dict[str, Any]:
+    """Keyword arguments for :func:`afecheck.api.review_files` from the shared options."""
+    return {
+        "intent": args.intent,
+        "libraries": tuple(args.parts),
+        "config": args.config,
+        "discover": not args.no_config,
+        "ruleset": args.ruleset,
+        "waiver_files": tuple(args.waivers),
+        "today": args.today or dt.datetime.now(dt.UTC).date(),
+    }
+
+
+def input_paths(args: argparse.Namespace) -> list[Path]:
+    """Every file the command reads, so that no output ever overwrites one."""
+    named = [*args.files, args.intent, *args.parts, args.config, *args.waivers, getattr(args, "baseline", None)]
+    return [Path(n) for n in named if n]
+
+
+class _FormatAction(argparse.Action):
+    """``--format FMT`` starts a new report; ``--output PATH`` sends the latest one to a file."""
+
+    def __call__(self, parser: argparse.ArgumentParser, namespace: argparse.Namespace, values: Any,
+                 option_string: str | None = None) -> None:
+        reports = list(getattr(namespace, "reports", None) or [])
+        if self.dest == "format":
+            reports.append([values, None])
+        else:
+            if not reports:
+                reports.append(["text", None])
+            if reports[-1][1] is not None:
+                parser.error(f"{option_string} {values}: each --output follows its own --format")
+            reports[-1][1] = values
+        namespace.reports = reports
+
+
+def add_arguments(p: argparse.ArgumentParser) -> None:
+    add_policy_arguments(p)
+    p.add_argument("--fail-on", choices=["error", "warning", "info", "never"],
+                   help="lowest severity that fails the run with exit 1 (default: config, rule set, else error)")
+    p.add_argument("-f", "--format", dest="format", action=_FormatAction, choices=FORMATS,
+                   help="report format (repeatable): " + ", ".join(FORMATS) + "; default text")
+    p.add_argument("-o", "--output", dest="output", action=_FormatAction, metavar="PATH",
+                   help="write the preceding --format to PATH (atomically) instead of standard output")
+    p.add_argument("--baseline", metavar="FILE",
+                   help="baseline from `afecheck baseline`: only findings not in it fail the gate")
+    p.add_argument("--color", choices=["auto", "always", "never"], default="auto",
+                   help="colour the text report (auto: only on a terminal; never when NO_COLOR is set)")
+    p.set_defaults(reports=None)
+
+
+def use_color(choice: str, stream: TextIO) -> bool:
+    """Colour only when asked or on a TTY, and never when NO_COLOR is set to anything non-empty."""
+    if os.environ.get("NO_COLOR"):
+        return False
+    if choice != "auto":
+        return choice == "always"
+    isatty = getattr(stream, "isatty", None)
+    return bool(isatty and isatty())
+
+
+def _plan(args: argparse.Namespace, stderr: TextIO) -> list[list[str | None]] | None:
+    from afecheck.io import same_file
+
+    reports = args.reports or [["text", None]]
+    to_stdout = [r for r in reports if r[1] is None]
+    if len(to_stdout) > 1:
+        print("afecheck: error: only one --format may go to standard output; give the others an --output",
+              file=stderr)
+        return None
+    targets = [str(r[1]) for r in reports if r[1] is not None]
+    if len(set(targets)) != len(targets):
+        print("afecheck: error: two reports would go to the same --output file", file=stderr)
+        return None
+    for target in targets:
+        for source in input_paths(args):
+            if source.exists() and same_file(source, target):
+                print(f"afecheck: error: --output {target} is an input file; afecheck never writes to its inputs",
+                      file=stderr)
+                return None
+    return reports
 
 
 def run(args: argparse.Namespace, stdout: TextIO, stderr: TextIO) -> int:
-    from afecheck.api import check_file
-    from afecheck.engine.finding import Severity
+    from afecheck.api import review_files
+    from afecheck.io import write_text_atomic
+    from afecheck.policy.gate import EXIT_INPUT, exit_code
+    from afecheck.report import render
 
-    worst = 0
-    for path in args.files:
-        report = check_file(path, intent=args.intent, libraries=tuple(args.parts))
-        for f in report.findings:
-            print(f"{f.location.file}:{f.location.line or 0}: {f.severity.label}: {f.rule}/{f.slug}: {f.message}",
-                  file=stdout)
-            worst = max(worst, int(f.severity))
-    if args.fail_on == "never":
-        return 0
-    return 1 if worst and worst >= int(Severity.parse(args.fail_on)) else 0
+    plan = _plan(args, stderr)
+    if plan is None:
+        return EXIT_INPUT
+    report = review_files(args.files, fail_on=args.fail_on, baseline=args.baseline, **review_options(args))
+    rendered = [(fmt, path, render(report, str(fmt), color=path is None and use_color(args.color, stdout)))
+                for fmt, path in plan]
+    for _fmt, path, text in rendered:
+        if path is not None:
+            try:
+                write_text_atomic(path, text)
+            except OSError as exc:
+                print(f"afecheck: error: cannot write {path}: {exc.strerror or exc}", file=stderr)
+                return EXIT_INPUT
+    for _fmt, path, text in rendered:
+        if path is None:
+            stdout.write(text)
+    return exit_code(report)

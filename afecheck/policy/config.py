@@ -47,6 +47,7 @@ class Policy:
     disabled: frozenset[str] = frozenset()
     severity: Mapping[str, Severity] = field(default_factory=dict)
     params: Mapping[str, Mapping[str, float]] = field(default_factory=dict)
+    promote: Mapping[Severity, Severity] = field(default_factory=dict)
     waiver_files: tuple[str, ...] = ()
     config: str | None = None
 
@@ -133,12 +134,11 @@ def _policy(catalogue: Catalogue, rs: RuleSet, settings: Mapping[str, RuleSettin
     params: dict[str, dict[str, float]] = {}
     for meta in catalogue.metas:
         s = settings.get(meta.id, RuleSetting())
-        wanted = s.severity if s.severity is not None else promote.get(meta.severity, meta.severity)
-        if wanted != meta.severity:
-            severity[meta.id] = wanted
+        if s.severity is not None and s.severity != meta.severity:
+            severity[meta.id] = s.severity
         if s.enabled is False:
             disabled.add(meta.id)
         if s.params:
             params[meta.id] = dict(s.params)
     return Policy(ruleset=rs.name, fail_on=fail_on, disabled=frozenset(disabled), severity=severity, params=params,
-                  waiver_files=waivers, config=config)
+                  promote=dict(promote), waiver_files=waivers, config=config)

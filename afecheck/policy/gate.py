@@ -4,10 +4,10 @@ from __future__ import annotations
 
 import datetime as dt
 from collections import Counter
-from collections.abc import Callable, Sequence
-from dataclasses import dataclass
+from collections.abc import Callable, Mapping, Sequence
+from dataclasses import dataclass, replace
 
-from afecheck.engine.finding import Finding
+from afecheck.engine.finding import Finding, Severity
 from afecheck.policy.waivers import is_expired
 from afecheck.report.data import Entry, Report, WaiverNote
 
@@ -66,6 +66,18 @@ def classify(
                 entries.append(Entry(b, "fixed", stage_of(b)))
     entries.sort(key=lambda e: (e.finding.sort_key(), e.status))
     return Review(tuple(entries), frozenset(used), frozenset(expired))
+
+
+def promote(findings: Sequence[Finding], levels: Mapping[Severity, Severity]) -> tuple[Finding, ...]:
+    """Raise each computed finding's severity per ``levels`` (e.g. warning -> error). Estimates and
+    not-evaluated findings keep theirs: a guess from assumed defaults never blocks on its own."""
+    out = []
+    for f in findings:
+        target = levels.get(f.severity)
+        if target is not None and f.confidence == "computed" and target != f.severity:
+            f = replace(f, severity=target)
+        out.append(f)
+    return tuple(out)
 
 
 def exit_code(report: Report) -> int:

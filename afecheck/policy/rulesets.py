@@ -79,6 +79,10 @@ def parse_param_value(value: object, unit: str) -> float:
             accepted = ", ".join(repr(s) for s in _SUFFIXES[unit] if s)
             raise UnitError(f"read {value!r}; expected a number with unit {accepted}")
         return float(m.group(1)) * _SUFFIXES[unit][m.group(2)]
+    if unit in ("1", "") and isinstance(value, str):
+        m = _NUMBER.match(value)
+        if m and m.group(2) in ("%", "ppm"):
+            return float(m.group(1)) * _SUFFIXES["%"][m.group(2)]
     return parse_quantity(value, unit if unit in UNITS else "1")
 
 
@@ -158,7 +162,7 @@ def _parse_setting(raw: object, meta: RuleMeta, problems: Problems, path: tuple)
 
 
 def parse_promote(data: object, problems: Problems, path: tuple = ("promote",)) -> dict[Severity, Severity]:
-    """``promote: {warning: error}``: every rule whose default is the key reports at the value."""
+    """``promote: {warning: error}``: every evaluated finding reported at the key's level is raised to the value."""
     out: dict[Severity, Severity] = {}
     if data is None:
         return out

@@ -4,7 +4,17 @@ from __future__ import annotations
 
 from collections.abc import Iterator
 
+from afecheck.engine.finding import Finding
 from afecheck.report.data import DesignResult, Entry, WaiverNote
+
+
+def message(f: Finding) -> str:
+    """The finding's message without a trailing "Fix: ..." (reporters show the fix on its own)."""
+    tail = f"Fix: {f.fix}"
+    text = f.message
+    if f.fix and text.endswith(tail):
+        text = text[: -len(tail)].rstrip(" .;") or text
+    return text
 
 
 def where(entry: Entry) -> str:

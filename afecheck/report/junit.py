@@ -4,14 +4,14 @@ from __future__ import annotations
 
 import xml.etree.ElementTree as ET
 
-from afecheck.report._common import rule_label, where
+from afecheck.report._common import message, rule_label, where
 from afecheck.report.cautions import cautions
 from afecheck.report.data import DesignResult, Entry, Report
 
 
 def _finding_text(entry: Entry) -> str:
     f = entry.finding
-    lines = [f"{where(entry)}: {f.severity.label}: {rule_label(entry)}: {f.message} [{entry.status}]"]
+    lines = [f"{where(entry)}: {f.severity.label}: {rule_label(entry)}: {message(f)} [{entry.status}]"]
     if f.fix:
         lines.append(f"fix: {f.fix}")
     if entry.waiver is not None:
@@ -42,7 +42,7 @@ def _suite(design: DesignResult, report: Report) -> tuple[ET.Element, int, int]:
             if report.gating(e):
                 failures += 1
                 failure = ET.SubElement(case, "failure", {"type": e.finding.severity.label,
-                                                          "message": e.finding.message})
+                                                          "message": message(e.finding)})
                 failure.text = _finding_text(e)
             else:
                 quiet.append(_finding_text(e))

@@ -2,7 +2,7 @@
 
 from __future__ import annotations
 
-from afecheck.report._common import rule_label, unused_text, where
+from afecheck.report._common import message, rule_label, unused_text, where
 from afecheck.report.cautions import cautions
 from afecheck.report.data import Entry, Report, summary_line
 
@@ -19,7 +19,7 @@ def _table(entries: list[Entry], with_note: bool = False) -> list[str]:
     rows = [head, rule]
     for e in entries:
         f = e.finding
-        row = (f"| {_ICON[f.severity.label]} | `{_cell(rule_label(e))}` | `{_cell(where(e))}` | {_cell(f.message)} "
+        row = (f"| {_ICON[f.severity.label]} | `{_cell(rule_label(e))}` | `{_cell(where(e))}` | {_cell(message(f))} "
                f"| {_cell(f.fix)} |")
         if with_note:
             note = e.status

@@ -8,6 +8,7 @@ from typing import Any
 from urllib.parse import quote
 
 from afecheck.engine.finding import Severity
+from afecheck.report._common import message
 from afecheck.report.cautions import cautions
 from afecheck.report.data import Entry, Report, RuleInfo, WaiverNote
 from afecheck.report.json_report import jsonable
@@ -78,7 +79,7 @@ def _waiver_props(w: WaiverNote) -> dict[str, Any]:
 
 def _result(entry: Entry, rule_index: dict[str, int], artifact_index: dict[str, int], report: Report) -> dict[str, Any]:
     f = entry.finding
-    text = f.message + (f" Fix: {f.fix}" if f.fix else "")
+    text = message(f) + (f". Fix: {f.fix}" if f.fix else "")
     r: dict[str, Any] = {
         "ruleId": f.rule,
         "ruleIndex": rule_index[f.rule],

@@ -2,7 +2,7 @@
 
 from __future__ import annotations
 
-from afecheck.report._common import by_stage, expired_text, rule_label, unused_text, waiver_text, where
+from afecheck.report._common import by_stage, expired_text, message, rule_label, unused_text, waiver_text, where
 from afecheck.report.cautions import cautions
 from afecheck.report.data import Entry, Report, summary_line
 
@@ -18,7 +18,7 @@ def _entry_lines(entry: Entry, color: bool) -> list[str]:
     f = entry.finding
     sev = _paint(f.severity.label, f.severity.label, color)
     tag = "" if entry.status == "open" else " " + _paint(f"[{entry.status}]", "dim", color)
-    lines = [f"{where(entry)}: {sev}: {rule_label(entry)}: {f.message}{tag}"]
+    lines = [f"{where(entry)}: {sev}: {rule_label(entry)}: {message(f)}{tag}"]
     lines.append(f"    fix: {f.fix or 'see the rule documentation (afecheck explain ' + f.rule + ')'}")
     if f.assumed:
         lines.append(f"    assumed: {', '.join(f.assumed)}")

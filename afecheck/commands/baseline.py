@@ -1,0 +1,39 @@
+"""``afecheck baseline FILE... --output B``: record today's findings so a later gate fails only on new ones."""
+
+from __future__ import annotations
+
+import argparse
+from typing import TextIO
+
+from afecheck.commands.check import add_policy_arguments, input_paths, review_options
+
+HELP = "record the current findings of designs as a baseline file"
+
+
+def add_arguments(p: argparse.ArgumentParser) -> None:
+    add_policy_arguments(p)
+    p.add_argument("-o", "--output", required=True, metavar="FILE", help="baseline file to write (JSON, atomically)")
+
+
+def run(args: argparse.Namespace, stdout: TextIO, stderr: TextIO) -> int:
+    from afecheck.api import review_files
+    from afecheck.io import same_file, write_text_atomic
+    from afecheck.policy.baseline import render_baseline
+    from afecheck.policy.gate import EXIT_CLEAN, EXIT_INPUT
+
+    for source in input_paths(args):
+        if source.exists() and same_file(source, args.output):
+            print(f"afecheck: error: --output {args.output} is an input file; afecheck never writes to its inputs",
+                  file=stderr)
+            return EXIT_INPUT
+    report = review_files(args.files, **review_options(args))
+    recorded = [e.finding for e in report.entries() if e.status == "open"]
+    try:
+        write_text_atomic(args.output, render_baseline(recorded))
+    except OSError as exc:
+        print(f"afecheck: error: cannot write {args.output}: {exc.strerror or exc}", file=stderr)
+        return EXIT_INPUT
+    waived = sum(1 for e in report.entries() if e.status == "waived")
+    print(f"afecheck: recorded {len(recorded)} findings from {len(report.designs)} designs in {args.output}"
+          + (f" ({waived} waived findings left out)" if waived else ""), file=stdout)
+    return EXIT_CLEAN
