@@ -1,26 +1,234 @@
-"""Load a design file (YAML or JSON) into a LoadedDesign. Placeholder: replaced by the line-tracking loader."""
+"""Load a design file (YAML or JSON) into a LoadedDesign: read, validate, merge intent and parts, check structure.
+
+Every problem is reported as ``file:line:column: path: message`` in one InputError, so a user fixes
+all of them in one round. The input files are only read, never written.
+"""
 
 from __future__ import annotations
 
+import difflib
+import re
+from collections.abc import Callable
 from pathlib import Path
 
-import yaml
-from pydantic import ValidationError
-
 from afecheck.errors import InputError, Problem
-from afecheck.model.loaded import LoadedDesign
-from afecheck.model.schema import Design
-from afecheck.parts.library import builtin_library
+from afecheck.model.loaded import LoadedDesign, PathKey, path_text
+from afecheck.model.reader import Document, read_file
+from afecheck.model.schema import PIN_NAMES, Design, Intent
+from afecheck.model.validate import validate
+from afecheck.parts.library import PartEntry, PartSet, builtin_entries, combine, read_library
+
+INTENT_SECTIONS = ("signals", "loads", "budgets")
+_WINDOWS_DRIVE = re.compile(r"^[A-Za-z]:")
 
 
-def load_design(path: str | Path, intent: str | Path | None = None, libraries: tuple[str | Path, ...] = ()) -> LoadedDesign:
-    """Read, validate and merge a design file and its optional intent file."""
+def load_design(
+    path: str | Path, intent: str | Path | None = None, libraries: tuple[str | Path, ...] = ()
+) -> LoadedDesign:
+    """Read, validate and merge a design file, its intent file(s) and part libraries; raise InputError."""
     path = Path(path)
+    doc = read_file(path, str(path))
+    if not isinstance(doc.data, dict):
+        raise InputError([doc.problem((), "the top level must be a mapping that starts with 'afecheck: 1'")])
+    design = validate(doc, Design)
+    problems: list[Problem] = []
+    folder = path.parent
+
+    intent_paths: list[Path] = []
+    if design.intent is not None:
+        inside = _inside(folder, design.intent, doc, ("intent",), problems)
+        if inside is not None:
+            intent_paths.append(inside)
+    if intent is not None and not any(_same(Path(intent), p) for p in intent_paths):
+        intent_paths.append(Path(intent))
+    intents = [_collect(problems, _read_intent, p) for p in intent_paths]
+
+    groups: list[list[PartEntry]] = [builtin_entries()]
+    lib_paths: list[Path] = []
+    for i, text in enumerate(design.part_libraries):
+        inside = _inside(folder, text, doc, ("part_libraries", i), problems)
+        if inside is not None:
+            lib_paths.append(inside)
+    lib_paths += [Path(p) for p in libraries]
+    unique: list[Path] = []
+    for p in lib_paths:
+        if not any(_same(p, q) for q in unique):
+            unique.append(p)
+    for p in unique:
+        groups.append(_collect(problems, read_library, p, str(p)) or [])
+    if problems:
+        raise InputError(problems)
+
+    inline = [PartEntry(name, model, doc.file, *doc.keys.get(("parts", name), (None, None)))
+              for name, model in design.parts.items()]
+    parts = combine(groups, inline)
+    positions = _positions(doc)
+    design = _merge_intent(design, doc, [i for i in intents if i is not None], positions, problems)
+    if problems:
+        raise InputError(problems)
+
+    def locate(key: PathKey, message: str) -> Problem:
+        file, line, column = positions.get(key) or _nearest(positions, key, doc.file)
+        return Problem(file, line, column, path_text(key), message)
+
+    problems = structure_problems(design, parts, locate)
+    if problems:
+        raise InputError(sorted(problems, key=lambda p: (p.file, p.line or 0, p.column or 0, p.path)))
+    return LoadedDesign(
+        design=design,
+        file=doc.file,
+        parts=parts.models,
+        positions=positions,
+        part_origins=parts.origins,
+        intent_files=tuple(str(p) for p in intent_paths),
+    )
+
+
+def _collect(problems: list[Problem], fn: Callable, *args: object) -> object:
+    """``fn(*args)``, or None with its InputError's problems added to ``problems``."""
     try:
-        data = yaml.safe_load(path.read_text(encoding="utf-8"))
-        design = Design.model_validate(data)
-    except (OSError, yaml.YAMLError, ValidationError) as exc:
-        raise InputError([Problem(str(path), None, None, "", str(exc))]) from None
-    parts = builtin_library()
-    parts.update(design.parts)
-    return LoadedDesign(design=design, file=str(path), parts=parts)
+        return fn(*args)
+    except InputError as exc:
+        problems.extend(exc.problems)
+        return None
+
+
+def _same(a: Path, b: Path) -> bool:
+    try:
+        return a.resolve() == b.resolve()
+    except OSError:
+        return False
+
+
+def _inside(folder: Path, text: str, doc: Document, key: PathKey, problems: list[Problem]) -> Path | None:
+    """``folder/text`` if it stays inside the design file's folder; else a problem at ``key``."""
+    if Path(text).is_absolute() or text.startswith(("/", "\\")) or _WINDOWS_DRIVE.match(text):
+        problems.append(doc.problem(key, f"absolute path {text!r} refused: give a path relative to the design "
+                                         "file's folder"))
+        return None
+    target = folder / text
+    try:
+        escaped = not target.resolve().is_relative_to(folder.resolve())
+    except (OSError, RuntimeError):
+        escaped = True
+    if escaped:
+        problems.append(doc.problem(key, f"path {text!r} leads outside the design file's folder; referenced files "
+                                         "must lie in that folder or below it"))
+        return None
+    return target
+
+
+def _read_intent(path: Path) -> tuple[Document, Intent]:
+    doc = read_file(path, str(path))
+    if not isinstance(doc.data, dict):
+        raise InputError([doc.problem((), "the top level must be a mapping that starts with 'afecheck-intent: 1'")])
+    return doc, validate(doc, Intent)
+
+
+def _positions(doc: Document) -> dict[PathKey, tuple[str, int, int]]:
+    """Every key path of ``doc`` -> (file, line, column); list items by the position of the item."""
+    positions = {p: (doc.file, line, column) for p, (line, column) in doc.values.items() if p}
+    positions.update({p: (doc.file, line, column) for p, (line, column) in doc.keys.items()})
+    return positions
+
+
+def _nearest(positions: dict[PathKey, tuple[str, int, int]], key: PathKey, file: str) -> tuple[str, int | None,
+                                                                                                 int | None]:
+    while key:
+        key = key[:-1]
+        if key in positions:
+            return positions[key]
+    return (file, None, None)
+
+
+def _merge_intent(
+    design: Design,
+    doc: Document,
+    intents: list[tuple[Document, Intent]],
+    positions: dict[PathKey, tuple[str, int, int]],
+    problems: list[Problem],
+) -> Design:
+    """The design with each intent file's signals, loads and budgets added; a net declared twice is a problem."""
+    if not intents:
+        return design
+    merged = {section: dict(getattr(design, section)) for section in INTENT_SECTIONS}
+    for idoc, intent in intents:
+        by_entry: dict[PathKey, dict[PathKey, tuple[str, int, int]]] = {}
+        for table in (idoc.values, idoc.keys):
+            for p, (line, column) in table.items():
+                if len(p) >= 2:
+                    by_entry.setdefault(p[:2], {})[p] = (idoc.file, line, column)
+        for section in INTENT_SECTIONS:
+            for net, entry in getattr(intent, section).items():
+                if net in merged[section]:
+                    file, line, _ = positions.get((section, net), (doc.file, None, None))
+                    where = f"{file}:{line}" if line is not None else file
+                    problems.append(idoc.problem(
+                        (section, net), f"{section} for net {net!r} are declared here and at {where}; keep one"))
+                    continue
+                merged[section][net] = entry
+                positions.update(by_entry.get((section, net), {}))
+    return design.model_copy(update=merged)
+
+
+def structure_problems(design: Design, parts: PartSet, locate: Callable[[PathKey, str], Problem]) -> list[Problem]:
+    """What validation per field cannot see: pins, connections, part models, rails and intent nets."""
+    problems: list[Problem] = []
+    connections: dict[str, list[tuple[str, str]]] = {}
+    for ref, comp in design.components.items():
+        allowed = PIN_NAMES[comp.kind]
+        for pin, net in comp.pins.items():
+            if pin not in allowed:
+                problems.append(locate(("components", ref, "pins", pin),
+                                       f"a {comp.kind} has no pin {pin!r}; its pins are {', '.join(allowed)}"))
+            else:
+                connections.setdefault(net, []).append((ref, pin))
+        missing = [p for p in allowed if p not in comp.pins]
+        if missing:
+            advice = (" (an unused op-amp section is wired as a follower with in+ at a mid-supply node)"
+                      if comp.kind == "opamp" else "")
+            problems.append(locate(("components", ref, "pins"),
+                                   f"pin {', '.join(missing)} of {ref} is not connected; every {comp.kind} pin must "
+                                   f"name a net{advice}"))
+        if len(allowed) == 2 and not missing:
+            a, b = (comp.pins[p] for p in allowed)
+            if a == b:
+                problems.append(locate(("components", ref, "pins"),
+                                       f"both pins of {ref} are on net {a!r}: the {comp.kind} is shorted"))
+        if comp.kind == "opamp":
+            if "v+" in comp.pins and comp.pins.get("v+") == comp.pins.get("v-"):
+                problems.append(locate(("components", ref, "pins"),
+                                       f"v+ and v- of {ref} are both on net {comp.pins['v+']!r}: no supply"))
+            if comp.part not in parts.entries:
+                close = difflib.get_close_matches(comp.part, list(parts.entries), n=3, cutoff=0.6)
+                hint = f"; did you mean {', '.join(repr(c) for c in close)}?" if close else (
+                    "; define it under parts:, in a part_libraries: file, or with --parts")
+                problems.append(locate(("components", ref, "part"), f"unknown part model {comp.part!r}{hint}"))
+
+    external = {design.ground} | set(design.rails) | set(design.signals) | set(design.loads)
+    external |= {load.reference for load in design.loads.values() if load.reference is not None}
+    for net, pins in connections.items():
+        if len(pins) == 1 and net not in external:
+            ref, pin = pins[0]
+            problems.append(locate(("components", ref, "pins", pin),
+                                   f"net {net!r} connects only to {ref} pin {pin}: nothing else drives or reads it "
+                                   "(declare it under signals or loads if it leaves the board)"))
+
+    for name, rail in design.rails.items():
+        if name == design.ground:
+            if rail.voltage not in (None, 0.0):
+                problems.append(locate(("rails", name, "voltage"), f"{name!r} is the ground net, which is 0 V"))
+        elif rail.voltage is None:
+            problems.append(locate(("rails", name), f"rail {name!r} has no voltage"))
+
+    used = set(connections) | {design.ground} | set(design.rails)
+    for section in INTENT_SECTIONS:
+        for net in getattr(design, section):
+            if net not in connections:
+                what = {"signals": "a signal", "loads": "a load", "budgets": "a budget"}[section]
+                problems.append(locate((section, net), f"{what} is declared on net {net!r}, which no component uses"))
+    for net, load in design.loads.items():
+        if load.reference is not None and load.reference not in used:
+            problems.append(locate(("loads", net, "reference"),
+                                   f"reference net {load.reference!r} is not a rail, the ground or a component net"))
+    return problems

@@ -2,8 +2,8 @@
 
 from __future__ import annotations
 
+from collections.abc import Mapping
 from dataclasses import dataclass, field
-from typing import Mapping
 
 from afecheck.engine.finding import Location
 from afecheck.model.schema import Design
@@ -25,6 +25,10 @@ class LoadedDesign:
     file: str
     parts: Mapping[str, OpAmpModel]
     positions: Mapping[PathKey, tuple[str, int, int]] = field(default_factory=dict)
+    part_origins: Mapping[str, str] = field(default_factory=dict)
+    """Where each part model was defined: ``file:line`` or ``built-in (file)``."""
+    intent_files: tuple[str, ...] = ()
+    """Intent files merged into ``design`` (their keys' positions point into them)."""
 
     def position(self, *path: str | int) -> tuple[str, int | None, int | None]:
         """(file, line, column) of the deepest known key along ``path``; the design file if unknown."""

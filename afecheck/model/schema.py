@@ -9,9 +9,9 @@ from __future__ import annotations
 
 from typing import Annotated, Literal, Union
 
-from pydantic import BaseModel, BeforeValidator, ConfigDict, Field, field_validator
+from pydantic import BaseModel, BeforeValidator, ConfigDict, Field, WithJsonSchema, field_validator, model_validator
 
-from afecheck.model.units import parse_quantity, parse_temperature_c, parse_tolerance
+from afecheck.model.units import parse_quantity, parse_temperature_c, parse_tolerance, split_tolerance_code
 from afecheck.parts.model import OpAmpModel
 
 FORMAT_VERSION = 1
@@ -22,12 +22,14 @@ def _q(unit: str) -> BeforeValidator:
 
 
 def _quantity_schema(unit: str) -> dict:
-    return {"anyOf": [{"type": "number"}, {"type": "string"}], "description": f"quantity in {unit}"}
+    what = "a plain number" if unit == "1" else f"a quantity in {unit}"
+    return {"anyOf": [{"type": "number"}, {"type": "string", "minLength": 1, "maxLength": 100}],
+            "description": f"{what}: a number, or a string with SI prefix and unit (see docs/FORMAT.md)"}
 
 
 def Q(unit: str):  # noqa: N802 - reads like a unit annotation at the use site
     """Annotated float read from a number or a string in the given unit."""
-    return Annotated[float, _q(unit), Field(json_schema_extra=_quantity_schema(unit))]
+    return Annotated[float, _q(unit), WithJsonSchema(_quantity_schema(unit))]
 
 
 Ohm = Q("ohm")
@@ -36,10 +38,12 @@ Volt = Q("V")
 Ampere = Q("A")
 Hertz = Q("Hz")
 Ratio = Q("1")
-Tolerance = Annotated[float, BeforeValidator(parse_tolerance),
-                      Field(json_schema_extra={"anyOf": [{"type": "number"}, {"type": "string"}]})]
-Celsius = Annotated[float, BeforeValidator(parse_temperature_c),
-                    Field(json_schema_extra={"anyOf": [{"type": "number"}, {"type": "string"}]})]
+Tolerance = Annotated[float, BeforeValidator(parse_tolerance), WithJsonSchema(
+    {"anyOf": [{"type": "number", "minimum": 0, "exclusiveMaximum": 1}, {"type": "string", "minLength": 1}],
+     "description": "a tolerance: 1%, 50 ppm, a fraction, or an IEC 60062 letter (B C D F G J K M)"})]
+Celsius = Annotated[float, BeforeValidator(parse_temperature_c), WithJsonSchema(
+    {"anyOf": [{"type": "number"}, {"type": "string", "minLength": 1}],
+     "description": "a temperature in °C (25, '25 °C') or kelvin ('298.15 K')"})]
 NetName = Annotated[str, Field(min_length=1, max_length=200)]
 
 
@@ -67,15 +71,42 @@ class _Component(_Strict):
     description: str | None = None
 
 
+def _split_code_tolerance(data: object, unit: str) -> object:
+    """Move an IEC 60062 tolerance letter from the value code (``4K7J``) into ``tolerance``; refuse a clash."""
+    if not isinstance(data, dict) or not isinstance(data.get("value"), str):
+        return data
+    split = split_tolerance_code(data["value"], unit)
+    if split is None:
+        return data
+    code, tolerance = split
+    given = data.get("tolerance")
+    if given is not None and parse_tolerance(given) != tolerance:
+        raise ValueError(
+            f"value {data['value']!r} carries a ±{tolerance * 100:g} % tolerance letter but tolerance is {given!r}; "
+            "keep one of them"
+        )
+    return {**data, "value": code, "tolerance": tolerance}
+
+
 class Resistor(_Component):
     kind: Literal["resistor"]
     value: Ohm = Field(gt=0)
+
+    @model_validator(mode="before")
+    @classmethod
+    def _code_tolerance(cls, data: object) -> object:
+        return _split_code_tolerance(data, "ohm")
 
 
 class Capacitor(_Component):
     kind: Literal["capacitor"]
     value: Farad = Field(gt=0)
     dielectric: str | None = None
+
+    @model_validator(mode="before")
+    @classmethod
+    def _code_tolerance(cls, data: object) -> object:
+        return _split_code_tolerance(data, "F")
 
     @field_validator("dielectric")
     @classmethod
@@ -178,7 +209,7 @@ Hazard = Literal["mains", "high-voltage", "patient-connected", "hazardous-area"]
 class Intent(_Strict):
     """Design intent that may live in its own file keyed by net name."""
 
-    afecheck_intent: Literal[1] | None = Field(default=None, alias="afecheck-intent")
+    afecheck_intent: Literal[1] = Field(alias="afecheck-intent", description="intent file format version")
     signals: dict[NetName, Signal] = {}
     loads: dict[NetName, Load] = {}
     budgets: dict[NetName, Budget] = {}

@@ -3,20 +3,25 @@
 Every quantity in a design file passes through :func:`parse_quantity`, which knows the unit the
 field expects, so ``10k`` on a resistor is 10 000 Ω and ``10m`` on a resistor is refused as
 ambiguous (milli or a miswritten mega?) unless the unit is spelt out (``10 mΩ``, ``10 Mohm``).
+Numbers are scaled in decimal, so ``4n7`` is exactly the float nearest 4.7e-9.
 """
 
 from __future__ import annotations
 
 import math
 import re
+from decimal import Decimal, InvalidOperation
 
 __all__ = [
     "UnitError",
     "parse_quantity",
     "parse_tolerance",
     "parse_temperature_c",
+    "split_tolerance_code",
     "format_si",
     "UNITS",
+    "PREFIXES",
+    "TOLERANCE_LETTERS",
 ]
 
 
@@ -24,25 +29,29 @@ class UnitError(ValueError):
     """A value string that cannot be read as the expected quantity; the message says what is accepted."""
 
 
-PREFIXES: dict[str, float] = {
-    "f": 1e-15,
-    "p": 1e-12,
-    "n": 1e-9,
-    "u": 1e-6,
-    "µ": 1e-6,
-    "μ": 1e-6,
-    "m": 1e-3,
-    "": 1.0,
-    "k": 1e3,
-    "K": 1e3,
-    "M": 1e6,
-    "G": 1e9,
-    "T": 1e12,
+# SI prefix -> power of ten. "K" (kilo) is accepted on resistances only; "meg" is the SPICE spelling of mega.
+PREFIXES: dict[str, int] = {
+    "f": -15,
+    "p": -12,
+    "n": -9,
+    "u": -6,
+    "µ": -6,
+    "μ": -6,
+    "m": -3,
+    "": 0,
+    "k": 3,
+    "K": 3,
+    "meg": 6,
+    "Meg": 6,
+    "MEG": 6,
+    "M": 6,
+    "G": 9,
+    "T": 12,
 }
 
 # unit key -> (spellings accepted after the prefix, human name)
 UNITS: dict[str, tuple[tuple[str, ...], str]] = {
-    "ohm": (("Ω", "ω", "ohm", "ohms", "Ohm", "Ohms", "R"), "ohms"),
+    "ohm": (("\u03a9", "\u2126", "ohm", "ohms", "Ohm", "Ohms", "R"), "ohms"),
     "F": (("F",), "farads"),
     "V": (("V",), "volts"),
     "A": (("A",), "amperes"),
@@ -51,99 +60,164 @@ UNITS: dict[str, tuple[tuple[str, ...], str]] = {
     "W": (("W",), "watts"),
     "K": (("K",), "kelvin"),
     "V/s": (("V/s",), "volts per second"),
-    "V/K": (("V/K",), "volts per kelvin"),
-    "V/rtHz": (("V/rtHz", "V/√Hz", "V/sqrtHz"), "volts per root hertz"),
-    "A/rtHz": (("A/rtHz", "A/√Hz", "A/sqrtHz"), "amperes per root hertz"),
+    "V/K": (("V/K", "V/°C"), "volts per kelvin"),
+    "V/rtHz": (("V/rtHz", "V/√Hz", "V/sqrtHz", "V/sqrt(Hz)"), "volts per root hertz"),
+    "A/rtHz": (("A/rtHz", "A/√Hz", "A/sqrtHz", "A/sqrt(Hz)"), "amperes per root hertz"),
     "W/K": (("W/K",), "watts per kelvin"),
-    "1": ((), "a plain number"),
+    "1": (("V/V",), "a plain number (or dB for gains)"),
 }
 
-# IEC 60062 letter-and-digit (RKM) multipliers per unit: the letter stands where the decimal point goes.
-_RKM_LETTERS: dict[str, dict[str, float]] = {
-    "ohm": {"L": 1e-3, "R": 1.0, "r": 1.0, "k": 1e3, "K": 1e3, "M": 1e6, "G": 1e9, "T": 1e12},
-    "F": {"p": 1e-12, "n": 1e-9, "u": 1e-6, "µ": 1e-6, "μ": 1e-6, "m": 1e-3, "F": 1.0},
+# IEC 60062 letter-and-digit (RKM) code: the letter stands where the decimal point goes and gives the multiplier.
+_RKM_LETTERS: dict[str, dict[str, int]] = {
+    "ohm": {"L": -3, "R": 0, "r": 0, "k": 3, "K": 3, "M": 6, "G": 9, "T": 12},
+    "F": {"p": -12, "n": -9, "u": -6, "µ": -6, "μ": -6, "m": -3, "F": 0},
 }
-_RKM_RE = re.compile(r"^(\d*)([A-Za-zµμ])(\d+)$")
+_RKM_RE = re.compile(r"^(\d*)([A-Za-zµμ])(\d*)$")
 _NUMBER_RE = re.compile(r"^([+-]?(?:\d+\.?\d*|\.\d+)(?:[eE][+-]?\d+)?)\s*(.*)$")
-_PER_US = {"V/us": 1e6, "V/µs": 1e6, "V/μs": 1e6, "V/ms": 1e3}
-_TOL_LETTERS = {"B": 0.001, "C": 0.0025, "D": 0.005, "F": 0.01, "G": 0.02, "J": 0.05, "K": 0.10, "M": 0.20}
+_PER_TIME = {"V/us": 6, "V/µs": 6, "V/μs": 6, "V/ms": 3, "V/ns": 9}
+
+# IEC 60062 tolerance letters (symmetric ones only) as fractions.
+TOLERANCE_LETTERS: dict[str, float] = {
+    "B": 0.001,
+    "C": 0.0025,
+    "D": 0.005,
+    "F": 0.01,
+    "G": 0.02,
+    "J": 0.05,
+    "K": 0.10,
+    "M": 0.20,
+}
+_TOLERANCE_HELP = "a tolerance such as 1%, ±0.1 %, 50 ppm, a fraction such as 0.01, or a letter B C D F G J K M"
 
 
 def _accepted(unit: str) -> str:
     spellings, name = UNITS[unit]
     shown = ", ".join(spellings[:3]) if spellings else "no unit"
-    rkm = " or an IEC 60062 code such as 4k7, 2R2, R47" if unit == "ohm" else ""
-    rkm = " or an IEC 60062 code such as 4n7, 1u0, 10p" if unit == "F" else rkm
-    return f"a number with an optional SI prefix (p n u µ m k M G) and unit ({shown}) in {name}{rkm}"
+    extra = ""
+    if unit == "ohm":
+        extra = " or an IEC 60062 code such as 4k7, 2R2, R47, 470R"
+    elif unit == "F":
+        extra = " or an IEC 60062 code such as 4n7, 1u0, 10p"
+    elif unit == "1":
+        extra = " or a gain in dB such as '100 dB'"
+    elif unit == "V/s":
+        extra = " or per microsecond such as '0.5 V/us'"
+    return f"a number with an optional SI prefix (p n u µ m k M G) and unit ({shown}) in {name}{extra}"
 
 
-def _check_finite(value: float, text: str, unit: str) -> float:
+def _scaled(number: str, exponent: int, text: str, unit: str) -> float:
+    """``number`` × 10**``exponent`` computed in decimal, as the nearest float; refuse inf and nan."""
+    try:
+        value = float(Decimal(number).scaleb(exponent))
+    except (InvalidOperation, ValueError):
+        raise UnitError(f"read {text!r}; expected {_accepted(unit)}") from None
     if not math.isfinite(value):
-        raise UnitError(f"read {text!r} as {value}, which is not a finite number; expected {_accepted(unit)}")
+        raise UnitError(f"read {text!r}, which is not a finite number; expected {_accepted(unit)}")
     return value
 
 
 def _strip_unit(rest: str, unit: str) -> tuple[str, bool]:
     """Split ``rest`` into (prefix, had_unit) by removing a trailing unit spelling."""
     for spelling in sorted(UNITS[unit][0], key=len, reverse=True):
-        if rest.endswith(spelling) and not (unit == "ohm" and spelling == "R" and rest != "R"):
+        if rest.endswith(spelling):
+            if unit == "ohm" and spelling == "R" and rest != "R":
+                continue
             return rest[: -len(spelling)].strip(), True
     return rest.strip(), False
 
 
 def _parse_rkm(text: str, unit: str) -> float | None:
+    """Read an IEC 60062 code (``4k7``, ``R47``, ``4n7``, ``1µ0``); None if ``text`` is not one."""
     letters = _RKM_LETTERS.get(unit)
     if not letters:
         return None
     body = text
     if unit == "ohm":
-        for spelling in ("Ω", "ohms", "ohm"):
+        for spelling in ("\u03a9", "\u2126", "ohms", "ohm"):
             if body.endswith(spelling):
                 body = body[: -len(spelling)].strip()
                 break
-    elif body.endswith("F") and len(body) > 1 and body[-2] in letters:
+    elif len(body) > 2 and body.endswith("F") and body[-2].isdigit() and not body[:-1].isdigit():
         body = body[:-1]
     m = _RKM_RE.match(body)
-    if not m or m.group(2) not in letters:
+    if not m:
         return None
     whole, letter, frac = m.groups()
-    if unit == "F" and letter == "F":
-        mult = 1.0
-    else:
-        mult = letters[letter]
-    return float(f"{whole or '0'}.{frac}") * mult
+    if not frac:
+        return None
+    if unit == "ohm" and letter == "m":
+        raise UnitError(
+            f"read {text!r}: 'm' inside a resistance code is ambiguous (milli or a miswritten mega); "
+            "write 'L' for milliohms (4L7), 'M' for megohms (4M7) or spell out the unit (4.7 mΩ)"
+        )
+    if letter not in letters:
+        return None
+    return _scaled(f"{whole or '0'}.{frac}", letters[letter], text, unit)
+
+
+def split_tolerance_code(text: str, unit: str) -> tuple[str, float] | None:
+    """Split an IEC 60062 code with a trailing tolerance letter (``4K7J``) into (``4K7``, 0.05); else None.
+
+    The letter counts as a tolerance only after a complete code that already holds its multiplier
+    letter, so ``47K`` stays 47 kΩ while ``47KJ`` is 47 kΩ ±5 %. On capacitors a trailing ``F`` is
+    the farad symbol (``10nF``), never the ±1 % letter.
+    """
+    letters = _RKM_LETTERS.get(unit)
+    text = text.strip()
+    if not letters or len(text) < 3 or text[-1] not in TOLERANCE_LETTERS:
+        return None
+    if unit == "F" and text[-1] == "F":
+        return None
+    code = text[:-1]
+    m = _RKM_RE.match(code)
+    if not m or m.group(2) not in letters or not (m.group(1) or m.group(3)):
+        return None
+    return code, TOLERANCE_LETTERS[text[-1]]
 
 
 def parse_quantity(value: object, unit: str) -> float:
-    """Read ``value`` (number or string) as a quantity in ``unit``; return SI float or raise UnitError."""
+    """Read ``value`` (number or string) as a quantity in ``unit``; return an SI float or raise UnitError."""
     if unit not in UNITS:
         raise ValueError(f"unknown unit key {unit!r}")
     if isinstance(value, bool) or value is None:
         raise UnitError(f"read {value!r}; expected {_accepted(unit)}")
-    if isinstance(value, (int, float)):
-        return _check_finite(float(value), repr(value), unit)
+    if isinstance(value, int):
+        return _scaled(str(value), 0, repr(value), unit)
+    if isinstance(value, float):
+        if not math.isfinite(value):
+            raise UnitError(f"read {value!r}, which is not a finite number; expected {_accepted(unit)}")
+        return value
     if not isinstance(value, str):
         raise UnitError(f"read a {type(value).__name__}; expected {_accepted(unit)}")
     text = value.strip()
     if not text:
         raise UnitError(f"read an empty string; expected {_accepted(unit)}")
+    if len(text) > 100:
+        raise UnitError(f"read a {len(text)}-character string; expected {_accepted(unit)}")
     if unit == "1" and text.lower().endswith("db"):
         db = parse_quantity(text[:-2].strip(), "1")
-        return _check_finite(10 ** (db / 20.0), text, unit)
+        gain = 10 ** (db / 20.0) if db < 6000 else math.inf
+        if not math.isfinite(gain):
+            raise UnitError(f"read {text!r}: too large a gain; expected {_accepted(unit)}")
+        return gain
     if unit == "V/s":
-        for suffix, mult in _PER_US.items():
+        for suffix, exponent in _PER_TIME.items():
             if text.endswith(suffix):
-                return _check_finite(parse_quantity(text[: -len(suffix)].strip(), "1") * mult, text, unit)
+                m = _NUMBER_RE.match(text[: -len(suffix)].strip())
+                if not m or m.group(2):
+                    raise UnitError(f"read {text!r}; expected {_accepted(unit)}")
+                return _scaled(m.group(1), exponent, text, unit)
     rkm = _parse_rkm(text, unit)
     if rkm is not None:
         return rkm
     m = _NUMBER_RE.match(text)
     if not m:
         raise UnitError(f"read {text!r}; expected {_accepted(unit)}")
-    number = float(m.group(1))
     rest = m.group(2).strip()
     prefix, had_unit = _strip_unit(rest, unit)
     if prefix not in PREFIXES:
+        if split_tolerance_code(text, unit) is not None:
+            raise UnitError(f"read {text!r}: a tolerance letter after a code is accepted only in a component's value")
         raise UnitError(f"read {text!r}: {prefix!r} is not an SI prefix or a unit here; expected {_accepted(unit)}")
     if unit == "ohm" and prefix == "m" and not had_unit:
         raise UnitError(
@@ -152,31 +226,36 @@ def parse_quantity(value: object, unit: str) -> float:
         )
     if prefix == "K" and unit != "ohm":
         raise UnitError(f"read {text!r}: 'K' is kelvin or a tolerance letter, not a prefix here; use lowercase 'k'")
-    return _check_finite(number * PREFIXES[prefix], text, unit)
+    return _scaled(m.group(1), PREFIXES[prefix], text, unit)
 
 
 def parse_tolerance(value: object) -> float:
-    """Read a tolerance (``1%``, ``50 ppm``, ``0.01``, IEC 60062 letter ``F``) as a fraction."""
+    """Read a tolerance (``1%``, ``±0.1 %``, ``50 ppm``, ``0.01``, IEC 60062 letter ``F``) as a fraction."""
     if isinstance(value, bool) or value is None:
-        raise UnitError(f"read {value!r}; expected a tolerance such as 1%, 0.1 %, 50 ppm or a letter B C D F G J K M")
+        raise UnitError(f"read {value!r}; expected {_TOLERANCE_HELP}")
     if isinstance(value, (int, float)):
         frac = float(value)
     elif isinstance(value, str):
         text = value.strip()
-        if text in _TOL_LETTERS:
-            return _TOL_LETTERS[text]
+        if text in TOLERANCE_LETTERS:
+            return TOLERANCE_LETTERS[text]
+        for sign in ("±", "+/-", "+-"):
+            if text.startswith(sign):
+                text = text[len(sign):].strip()
+                break
         m = _NUMBER_RE.match(text)
-        if not m:
-            raise UnitError(f"read {text!r}; expected a tolerance such as 1%, 0.1 %, 50 ppm or a letter B C D F G J K M")
-        rest = m.group(2).strip().lstrip("±")
-        scale = {"%": 1e-2, "ppm": 1e-6, "": 1.0}.get(rest)
-        if scale is None:
-            raise UnitError(f"read {text!r}: {rest!r} is not % or ppm")
-        frac = float(m.group(1)) * scale
+        if not m or m.group(1).startswith(("+", "-")):
+            raise UnitError(f"read {value!r}; expected {_TOLERANCE_HELP}")
+        rest = m.group(2).strip()
+        exponent = {"%": -2, "ppm": -6, "": 0}.get(rest)
+        if exponent is None:
+            raise UnitError(f"read {value!r}: {rest!r} is not % or ppm; expected {_TOLERANCE_HELP}")
+        frac = _scaled(m.group(1), exponent, text, "1")
     else:
-        raise UnitError(f"read a {type(value).__name__}; expected a tolerance such as 1% or 50 ppm")
+        raise UnitError(f"read a {type(value).__name__}; expected {_TOLERANCE_HELP}")
     if not math.isfinite(frac) or frac < 0 or frac >= 1:
-        raise UnitError(f"read {value!r}: a tolerance must lie between 0 and 100 %")
+        raise UnitError(f"read {value!r}: a tolerance must lie from 0 up to (not including) 100 % (a bare number "
+                        "is a fraction: write 1% rather than 1)")
     return frac
 
 
@@ -188,9 +267,9 @@ def parse_temperature_c(value: object) -> float:
         text = value.strip()
         m = _NUMBER_RE.match(text)
         rest = m.group(2).strip() if m else None
-        if m is None or rest not in ("", "C", "°C", "degC", "K"):
+        if m is None or rest not in ("", "C", "°C", "℃", "degC", "K"):
             raise UnitError(f"read {text!r}; expected a temperature such as 25, 25 °C or 298.15 K")
-        t = float(m.group(1)) - (273.15 if rest == "K" else 0.0)
+        t = _scaled(m.group(1), 0, text, "1") - (273.15 if rest == "K" else 0.0)
     else:
         raise UnitError(f"read {value!r}; expected a temperature such as 25 °C")
     if not math.isfinite(t) or t < -273.15:
@@ -207,9 +286,7 @@ def format_si(value: float, unit: str = "", digits: int = 4) -> str:
     if value == 0 or not math.isfinite(value):
         return f"{value:g} {unit}".strip()
     mag = abs(value)
-    for scale, prefix in _FORMAT_PREFIXES:
-        if mag >= scale * 0.9999995:
-            break
+    scale, prefix = next((sp for sp in _FORMAT_PREFIXES if mag >= sp[0] * 0.9999995), _FORMAT_PREFIXES[-1])
     scaled = value / scale
     decimals = max(digits - 1 - int(math.floor(math.log10(abs(scaled)))), 0)
     return f"{scaled:.{decimals}f} {prefix}{unit}".rstrip()

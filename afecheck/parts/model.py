@@ -10,7 +10,7 @@ from __future__ import annotations
 import math
 from typing import Annotated, Literal
 
-from pydantic import BaseModel, BeforeValidator, ConfigDict, Field
+from pydantic import BaseModel, BeforeValidator, ConfigDict, Field, WithJsonSchema
 
 from afecheck.model.units import parse_quantity
 
@@ -19,7 +19,8 @@ def _q(unit: str):
     return Annotated[
         float,
         BeforeValidator(lambda v: parse_quantity(v, unit)),
-        Field(json_schema_extra={"anyOf": [{"type": "number"}, {"type": "string"}]}),
+        WithJsonSchema({"anyOf": [{"type": "number"}, {"type": "string", "minLength": 1, "maxLength": 100}],
+                        "description": f"in {unit}: a number, or a string with SI prefix and unit"}),
     ]
 
 
@@ -84,8 +85,8 @@ class OpAmpModel(BaseModel):
     cmrr: _q("1") | None = Field(default=None, gt=0, description="V/V or '90 dB'")
     input_cm_low: _q("V") | None = Field(default=None, description="lowest input CM above V- (negative: beyond)")
     input_cm_high: _q("V") | None = Field(default=None, description="highest input CM below V+ (negative: beyond)")
-    output_drop_low: _q("V") | None = Field(default=None, ge=0, description="output swing limit above V- at light load")
-    output_drop_high: _q("V") | None = Field(default=None, ge=0, description="output swing limit below V+ at light load")
+    output_drop_low: _q("V") | None = Field(default=None, ge=0, description="output swing limit above V-, light load")
+    output_drop_high: _q("V") | None = Field(default=None, ge=0, description="output swing limit below V+, light load")
     output_sat_resistance: _q("ohm") | None = Field(default=None, ge=0, description="swing drop per ampere of load")
     output_current_limit: _q("A") | None = Field(default=None, gt=0)
     supply_min: _q("V") | None = Field(default=None, gt=0)

@@ -1,0 +1,486 @@
+"""Read a YAML or JSON file into plain Python data plus the line and column of every key and value.
+
+Safe by construction: only the plain YAML types (mapping, sequence, string, number, boolean, null)
+are built, so object tags are refused rather than executed; duplicate keys are errors (YAML and
+JSON alike); and hostile input is stopped early by the limits below, which docs/FORMAT.md states.
+Every problem is an :class:`~afecheck.errors.InputError` carrying ``file:line:column``.
+"""
+
+from __future__ import annotations
+
+import bisect
+import json
+import re
+from dataclasses import dataclass
+from pathlib import Path
+from typing import Any
+
+import yaml
+
+from afecheck.errors import InputError, Problem
+
+PathKey = tuple[str | int, ...]
+Position = tuple[int, int]
+
+MAX_FILE_BYTES = 20 * 1024 * 1024
+"""Largest input file read (20 MiB); a schematic export is far smaller."""
+MAX_ALIASES = 100
+"""Most YAML alias uses (``*name``) in one file."""
+MAX_ALIAS_NODES = 10_000
+"""Most values that alias uses may add in total once expanded (defeats "billion laughs")."""
+MAX_DEPTH = 64
+"""Deepest nesting of mappings and sequences."""
+
+_YAML = "tag:yaml.org,2002:"
+_SCALAR_TAGS = {f"{_YAML}{t}" for t in ("str", "int", "float", "bool", "null")}
+_RESOLVER = yaml.resolver.Resolver()
+_CONSTRUCTOR = yaml.constructor.SafeConstructor()
+_BUILD = {
+    f"{_YAML}int": _CONSTRUCTOR.construct_yaml_int,
+    f"{_YAML}float": _CONSTRUCTOR.construct_yaml_float,
+    f"{_YAML}bool": _CONSTRUCTOR.construct_yaml_bool,
+    f"{_YAML}null": _CONSTRUCTOR.construct_yaml_null,
+}
+try:
+    from yaml import CParser as _Parser
+except ImportError:  # PyYAML built without libyaml: the pure-Python parser gives the same events
+
+    class _Parser(yaml.reader.Reader, yaml.scanner.Scanner, yaml.parser.Parser):  # type: ignore[no-redef]
+        def __init__(self, stream: str):
+            yaml.reader.Reader.__init__(self, stream)
+            yaml.scanner.Scanner.__init__(self)
+            yaml.parser.Parser.__init__(self)
+# YAML 1.1 reads yes/no/on/off as booleans, 1:30 as base 60 and 010 as octal; a net called ON must stay a
+# name, so plain scalars keep a non-string meaning only in the spellings YAML 1.2 also gives them.
+_YAML12 = {
+    f"{_YAML}bool": re.compile(r"^(?:true|True|TRUE|false|False|FALSE)$"),
+    f"{_YAML}int": re.compile(r"^[-+]?(?:[0-9][0-9_]*|0x[0-9a-fA-F_]+|0o[0-7_]+)$"),
+    f"{_YAML}float": re.compile(r"^[-+]?(?:[0-9][0-9_]*)?\.?[0-9_]*(?:[eE][-+]?[0-9]+)?$|^[-+]?\.(?:inf|Inf|INF)$|"
+                                r"^\.(?:nan|NaN|NAN)$"),
+}
+_OCTAL_LOOKING = re.compile(r"^[-+]?0[0-9_]+$")
+_DECIMAL = "decimal"
+
+
+def _short(tag: str) -> str:
+    """A tag as written in YAML shorthand (``!!python/object``)."""
+    return "!!" + tag[len(_YAML):] if tag.startswith(_YAML) else tag
+
+
+def _tag_refused(tag: str) -> str:
+    return f"tag {_short(tag)!r} is not allowed: only plain values, mappings and lists are read"
+
+
+def _plain_tag(value: str, implicit: tuple[bool, bool]) -> str:
+    """Tag of an untagged scalar: the YAML resolver's answer, narrowed to what YAML 1.2 also reads."""
+    tag = _RESOLVER.resolve(yaml.ScalarNode, value, implicit)
+    if tag in _YAML12 and not _YAML12[tag].match(value):
+        return f"{_YAML}str"
+    if tag == f"{_YAML}int" and _OCTAL_LOOKING.match(value):
+        return _DECIMAL
+    return tag
+
+
+@dataclass(frozen=True)
+class Document:
+    """Data read from one file with the 1-based (line, column) of each key and each value by key path."""
+
+    file: str
+    data: Any
+    keys: dict[PathKey, Position]
+    values: dict[PathKey, Position]
+
+    def where(self, path: PathKey) -> Position | None:
+        """Position of the deepest known part of ``path``: a container's key line, else the value itself."""
+        key = tuple(path)
+        while True:
+            if key in self.keys:
+                return self.keys[key]
+            if key in self.values:
+                return self.values[key]
+            if not key:
+                return None
+            key = key[:-1]
+
+    def problem(self, path: PathKey, message: str) -> Problem:
+        """A Problem at ``path`` in this file."""
+        pos = self.where(path)
+        line, column = pos if pos else (None, None)
+        return Problem(self.file, line, column, ".".join(str(p) for p in path), message)
+
+
+def read_file(path: Path, display: str | None = None) -> Document:
+    """Read ``path`` as JSON (``.json``) or YAML (anything else) within the limits; raise InputError."""
+    name = display or str(path)
+    try:
+        size = path.stat().st_size
+        if not path.is_file():
+            raise InputError([Problem(name, None, None, "", "not a regular file")])
+        if size > MAX_FILE_BYTES:
+            raise InputError([Problem(name, None, None, "", f"file is {size} bytes; the limit is {MAX_FILE_BYTES}")])
+        raw = path.read_bytes()
+    except FileNotFoundError:
+        raise InputError([Problem(name, None, None, "", "no such file")]) from None
+    except OSError as exc:
+        raise InputError([Problem(name, None, None, "", f"cannot read the file: {exc.strerror or exc}")]) from None
+    return read_bytes(raw, name, as_json=path.suffix.lower() == ".json")
+
+
+def read_bytes(raw: bytes, file: str, as_json: bool = False) -> Document:
+    """Decode and parse ``raw`` (UTF-8 text) as JSON or YAML; raise InputError with positions."""
+    if len(raw) > MAX_FILE_BYTES:
+        raise InputError([Problem(file, None, None, "", f"input is {len(raw)} bytes; the limit is {MAX_FILE_BYTES}")])
+    if b"\x00" in raw:
+        line = raw[: raw.index(b"\x00")].count(b"\n") + 1
+        raise InputError([Problem(file, line, None, "", "binary content (NUL byte): expected a UTF-8 text file")])
+    try:
+        text = raw.decode("utf-8")
+    except UnicodeDecodeError as exc:
+        line = raw[: exc.start].count(b"\n") + 1
+        raise InputError(
+            [Problem(file, line, None, "", f"not UTF-8 text (byte 0x{raw[exc.start]:02x} at offset {exc.start})")]
+        ) from None
+    text = text.removeprefix("\ufeff")
+    if not text.strip() or (not as_json and _only_comments(text)):
+        raise InputError([Problem(file, None, None, "", "empty file: expected a mapping with the format version")])
+    return _read_json(text, file) if as_json else _read_yaml(text, file)
+
+
+def _only_comments(text: str) -> bool:
+    return all(not line.strip() or line.lstrip().startswith("#") or line.strip() in ("---", "...")
+               for line in text.splitlines())
+
+
+class _FatalError(Exception):
+    """Reading cannot go on; carries the problem that stopped it."""
+
+    def __init__(self, problem: Problem):
+        super().__init__(str(problem))
+        self.problem = problem
+
+
+def _mark(file: str, mark: Any, message: str, path: PathKey = ()) -> Problem:
+    line = mark.line + 1 if mark is not None else None
+    column = mark.column + 1 if mark is not None else None
+    return Problem(file, line, column, ".".join(str(p) for p in path), message)
+
+
+class _Frame:
+    """A mapping or sequence being built."""
+
+    __slots__ = ("value", "path", "key", "anchor", "seen", "size")
+
+    def __init__(self, value: dict | list, path: PathKey, anchor: str | None):
+        self.value = value
+        self.path = path
+        self.key: Any = _NO_KEY
+        self.anchor = anchor
+        self.seen: dict[str, int] = {}
+        self.size = 1
+
+
+class _Marker:
+    """A sentinel that prints as its name inside key paths."""
+
+    def __init__(self, name: str):
+        self.name = name
+
+    def __repr__(self) -> str:
+        return self.name
+
+    __str__ = __repr__
+
+
+_NO_KEY = _Marker("(no key)")
+_DUPLICATE = _Marker("(duplicate)")
+
+
+class _YamlBuilder:
+    """Builds plain data from parser events without recursion, enforcing the limits and refusing tags."""
+
+    def __init__(self, file: str):
+        self.file = file
+        self.keys: dict[PathKey, Position] = {}
+        self.values: dict[PathKey, Position] = {}
+        self.problems: list[Problem] = []
+        self.anchors: dict[str, tuple[Any, int, PathKey]] = {}
+        self.aliases = 0
+        self.alias_nodes = 0
+        self.stack: list[_Frame] = []
+        self.root: Any = None
+        self.documents = 0
+
+    def feed(self, event: yaml.Event) -> None:
+        if isinstance(event, yaml.DocumentStartEvent):
+            self.documents += 1
+            if self.documents > 1:
+                raise _FatalError(_mark(self.file, event.start_mark, "more than one YAML document; expected one"))
+        elif isinstance(event, yaml.ScalarEvent):
+            self._scalar(event)
+        elif isinstance(event, yaml.AliasEvent):
+            self._alias(event)
+        elif isinstance(event, (yaml.MappingStartEvent, yaml.SequenceStartEvent)):
+            self._start(event)
+        elif isinstance(event, (yaml.MappingEndEvent, yaml.SequenceEndEvent)):
+            self._end()
+
+    def _path_for_child(self, mark: Any) -> PathKey | None:
+        """Path of the node starting now, or None when it is a mapping key."""
+        if not self.stack:
+            return ()
+        frame = self.stack[-1]
+        if isinstance(frame.value, list):
+            return frame.path + (len(frame.value),)
+        if frame.key is _NO_KEY:
+            return None
+        return frame.path + (frame.key,)
+
+    def _attach(self, value: Any, path: PathKey, mark: Any, size: int) -> None:
+        self.values[path] = (mark.line + 1, mark.column + 1)
+        if not self.stack:
+            self.root = value
+            return
+        frame = self.stack[-1]
+        frame.size += size
+        if isinstance(frame.value, list):
+            frame.value.append(value)
+            return
+        key = frame.key
+        frame.key = _NO_KEY
+        if key is _DUPLICATE:
+            return
+        frame.value[key] = value
+
+    def _take_key(self, value: Any, mark: Any) -> None:
+        frame = self.stack[-1]
+        try:
+            hash(value)
+        except TypeError:
+            raise _FatalError(
+                _mark(self.file, mark, "a mapping key must be a plain string or number", frame.path)) from None
+        text = str(value)
+        path = frame.path + (value,)
+        if text in frame.seen:
+            self.problems.append(_mark(
+                self.file, mark, f"duplicate key {text!r} (first at line {frame.seen[text]}); each name once",
+                path))
+            frame.key = _DUPLICATE
+            return
+        frame.seen[text] = mark.line + 1
+        frame.key = value
+        self.keys[path] = (mark.line + 1, mark.column + 1)
+
+    def _scalar(self, event: yaml.ScalarEvent) -> None:
+        tag = event.tag
+        if tag is None:
+            tag = _plain_tag(event.value, event.implicit)
+        elif tag == "!":
+            tag = f"{_YAML}str"
+        elif tag not in _SCALAR_TAGS:
+            self.problems.append(_mark(self.file, event.start_mark, _tag_refused(tag),
+                                       self._path_for_child(event.start_mark) or ()))
+            tag = f"{_YAML}null"
+        if tag == f"{_YAML}merge":
+            self.problems.append(_mark(self.file, event.start_mark,
+                                       "merge keys ('<<') are not supported; write the keys out"))
+        value: Any = event.value
+        if tag == _DECIMAL:
+            value = int(event.value.replace("_", ""), 10)
+        elif tag in _BUILD:
+            try:
+                value = _BUILD[tag](yaml.ScalarNode(tag, event.value))
+            except (ValueError, yaml.YAMLError):
+                self.problems.append(_mark(self.file, event.start_mark, f"cannot read {event.value!r} as {tag[18:]}"))
+                value = None
+        if isinstance(value, float) and value != value:
+            value = event.value
+        self._node(value, event.anchor, event.start_mark, 1)
+
+    def _node(self, value: Any, anchor: str | None, mark: Any, size: int) -> None:
+        path = self._path_for_child(mark)
+        if path is None:
+            self._take_key(value, mark)
+            return
+        if anchor is not None:
+            self.anchors[anchor] = (value, size, path)
+        self._attach(value, path, mark, size)
+
+    def _alias(self, event: yaml.AliasEvent) -> None:
+        self.aliases += 1
+        if self.aliases > MAX_ALIASES:
+            raise _FatalError(_mark(self.file, event.start_mark, f"more than {MAX_ALIASES} alias uses (*name)"))
+        if event.anchor not in self.anchors:
+            raise _FatalError(_mark(self.file, event.start_mark,
+                              f"alias *{event.anchor} refers to no complete anchor &{event.anchor} before it"))
+        value, size, source = self.anchors[event.anchor]
+        self.alias_nodes += size
+        if self.alias_nodes > MAX_ALIAS_NODES:
+            raise _FatalError(_mark(self.file, event.start_mark,
+                              f"aliases expand to more than {MAX_ALIAS_NODES} values; write the data out"))
+        path = self._path_for_child(event.start_mark)
+        if path is None:
+            self._take_key(value, event.start_mark)
+            return
+        if isinstance(value, (dict, list)):
+            n = len(source)
+            for table in (self.keys, self.values):
+                copied = {path + p[n:]: pos for p, pos in table.items() if p[:n] == source and len(p) > n}
+                table.update(copied)
+        self._attach(value, path, event.start_mark, size)
+
+    def _start(self, event: yaml.CollectionStartEvent) -> None:
+        is_map = isinstance(event, yaml.MappingStartEvent)
+        allowed = (None, "!", f"{_YAML}map" if is_map else f"{_YAML}seq")
+        path = self._path_for_child(event.start_mark)
+        if path is None:
+            raise _FatalError(_mark(self.file, event.start_mark, "a mapping key must be a plain string or number",
+                              self.stack[-1].path))
+        if event.tag not in allowed:
+            self.problems.append(_mark(self.file, event.start_mark, _tag_refused(event.tag), path))
+        if len(self.stack) >= MAX_DEPTH:
+            raise _FatalError(_mark(self.file, event.start_mark, f"nesting deeper than {MAX_DEPTH} levels"))
+        value: dict | list = {} if is_map else []
+        self.values[path] = (event.start_mark.line + 1, event.start_mark.column + 1)
+        self.stack.append(_Frame(value, path, event.anchor))
+
+    def _end(self) -> None:
+        frame = self.stack.pop()
+        if frame.anchor is not None:
+            self.anchors[frame.anchor] = (frame.value, frame.size, frame.path)
+        if not self.stack:
+            self.root = frame.value
+            return
+        parent = self.stack[-1]
+        parent.size += frame.size
+        if isinstance(parent.value, list):
+            parent.value.append(frame.value)
+        else:
+            key = parent.key
+            parent.key = _NO_KEY
+            if key is not _DUPLICATE:
+                parent.value[key] = frame.value
+
+
+def _read_yaml(text: str, file: str) -> Document:
+    builder = _YamlBuilder(file)
+    parser = _Parser(text)
+    try:
+        while parser.check_event():
+            builder.feed(parser.get_event())
+    except _FatalError as stop:
+        raise InputError(builder.problems + [stop.problem]) from None
+    except yaml.MarkedYAMLError as exc:
+        mark = exc.problem_mark or exc.context_mark
+        message = " ".join(m for m in (exc.context, exc.problem) if m)
+        raise InputError(builder.problems + [_mark(file, mark, f"not valid YAML: {message}")]) from None
+    except yaml.YAMLError as exc:
+        raise InputError(builder.problems + [Problem(file, None, None, "", f"not valid YAML: {exc}")]) from None
+    finally:
+        dispose = getattr(parser, "dispose", None)
+        if dispose is not None:
+            dispose()
+    if builder.problems:
+        raise InputError(builder.problems)
+    return Document(file, builder.root, builder.keys, builder.values)
+
+
+_JSON_NUMBER = re.compile(r"-?(?:0|[1-9]\d*)(?:\.\d+)?(?:[eE][-+]?\d+)?")
+_JSON_WS = re.compile(r"[ \t\n\r]*")
+
+
+def _refuse_constant(name: str) -> None:
+    raise ValueError(f"{name} is not a JSON number")
+
+
+def _read_json(text: str, file: str) -> Document:
+    """Parse strictly (no NaN/Infinity), then walk the text once more to record positions and duplicates."""
+    try:
+        data = json.loads(text, parse_constant=_refuse_constant)
+    except json.JSONDecodeError as exc:
+        raise InputError([Problem(file, exc.lineno, exc.colno, "", f"not valid JSON: {exc.msg}")]) from None
+    except RecursionError:
+        raise InputError([Problem(file, None, None, "", f"nesting deeper than {MAX_DEPTH} levels")]) from None
+    except ValueError as exc:
+        raise InputError([Problem(file, None, None, "", f"not valid JSON: {exc}")]) from None
+    keys, values, problems = _json_positions(text, file)
+    if problems:
+        raise InputError(problems)
+    return Document(file, data, keys, values)
+
+
+def _json_positions(text: str, file: str) -> tuple[dict[PathKey, Position], dict[PathKey, Position], list[Problem]]:
+    """Positions of keys and values in valid JSON ``text``; duplicate keys and over-deep nesting as problems."""
+    starts = [0] + [i + 1 for i, ch in enumerate(text) if ch == "\n"]
+
+    def pos(i: int) -> Position:
+        line = bisect.bisect_right(starts, i)
+        return line, i - starts[line - 1] + 1
+
+    keys: dict[PathKey, Position] = {}
+    values: dict[PathKey, Position] = {}
+    problems: list[Problem] = []
+    # stack of [kind, path, count or seen-dict]
+    stack: list[list[Any]] = []
+    i = _JSON_WS.match(text, 0).end()
+    path: PathKey = ()
+    while True:
+        values[path] = pos(i)
+        ch = text[i]
+        if ch in "{[":
+            if len(stack) >= MAX_DEPTH:
+                line, column = pos(i)
+                problems.append(Problem(file, line, column, "", f"nesting deeper than {MAX_DEPTH} levels"))
+                return keys, values, problems
+            stack.append(["{" if ch == "{" else "[", path, {} if ch == "{" else 0])
+            i = _JSON_WS.match(text, i + 1).end()
+            if text[i] in "}]":
+                i += 1
+                stack.pop()
+            else:
+                path = _json_next(text, i, stack, keys, problems, file, pos)
+                i = _JSON_WS.match(text, _json_after_key(text, i, stack)).end()
+                continue
+        elif ch == '"':
+            _, i = json.decoder.scanstring(text, i + 1)
+        elif ch in "tfn":
+            i += 4 if text.startswith(("true", "null"), i) else 5
+        else:
+            i = _JSON_NUMBER.match(text, i).end()
+        while stack:
+            i = _JSON_WS.match(text, i).end()
+            if text[i] == ",":
+                i = _JSON_WS.match(text, i + 1).end()
+                path = _json_next(text, i, stack, keys, problems, file, pos)
+                i = _JSON_WS.match(text, _json_after_key(text, i, stack)).end()
+                break
+            i += 1
+            stack.pop()
+        else:
+            return keys, values, problems
+
+
+def _json_next(text: str, i: int, stack: list[list[Any]], keys: dict, problems: list[Problem], file: str,
+               pos: Any) -> PathKey:
+    """Path of the next member of the innermost container (recording its key) starting at ``i``."""
+    kind, base, state = stack[-1]
+    if kind == "[":
+        stack[-1][2] = state + 1
+        return base + (state,)
+    key, _ = json.decoder.scanstring(text, i + 1)
+    line, column = pos(i)
+    if key in state:
+        problems.append(Problem(file, line, column, ".".join(map(str, base + (key,))),
+                                f"duplicate key {key!r} (first at line {state[key]}); each name once"))
+    else:
+        state[key] = line
+        keys[base + (key,)] = (line, column)
+    return base + (key,)
+
+
+def _json_after_key(text: str, i: int, stack: list[list[Any]]) -> int:
+    """Index of the value of the member starting at ``i`` (past ``"key":`` in an object)."""
+    if stack[-1][0] == "[":
+        return i
+    _, end = json.decoder.scanstring(text, i + 1)
+    end = _JSON_WS.match(text, end).end()
+    return end + 1

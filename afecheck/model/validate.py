@@ -1,0 +1,114 @@
+"""Validate read data against a pydantic model and turn every validation error into a positioned Problem."""
+
+from __future__ import annotations
+
+import difflib
+from functools import cache
+from typing import Any, TypeVar
+
+from pydantic import BaseModel, ValidationError
+
+from afecheck.errors import InputError, Problem
+from afecheck.model.reader import Document, PathKey
+
+M = TypeVar("M", bound=BaseModel)
+_MISSING = object()
+
+
+def validate(doc: Document, model: type[M]) -> M:
+    """``model`` validated from ``doc.data``; every error at once as an InputError with file:line:column."""
+    try:
+        return model.model_validate(doc.data)
+    except ValidationError as exc:
+        raise InputError(validation_problems(doc, exc, model)) from None
+
+
+def validation_problems(doc: Document, exc: ValidationError, model: type[BaseModel]) -> list[Problem]:
+    """One Problem per pydantic error, placed at the key (or value) its ``loc`` points to in ``doc``."""
+    problems = []
+    for error in exc.errors(include_url=False):
+        path, value = data_path(doc.data, error["loc"])
+        kind = error["type"]
+        if kind in ("union_tag_invalid", "union_tag_not_found") and isinstance(value, dict):
+            if "kind" in value:
+                path = path + ("kind",)
+        message = _message(error, model)
+        leaf = not isinstance(value, (dict, list)) and value is not _MISSING
+        pos = doc.values.get(path) if leaf and path in doc.values else doc.where(path)
+        line, column = pos if pos else (None, None)
+        problems.append(Problem(doc.file, line, column, ".".join(str(p) for p in path), message))
+    return sorted(problems, key=lambda p: (p.line or 0, p.column or 0, p.path))
+
+
+def data_path(data: Any, loc: tuple[str | int, ...]) -> tuple[PathKey, Any]:
+    """Map a pydantic ``loc`` onto the keys really present in ``data``; skip union tags and missing keys."""
+    path: list[str | int] = []
+    current = data
+    for item in loc:
+        if isinstance(current, dict):
+            key = item if item in current else next((k for k in current if str(k) == str(item)), _MISSING)
+            if key is _MISSING:
+                continue
+            path.append(key)
+            current = current[key]
+        elif isinstance(current, list) and isinstance(item, int) and 0 <= item < len(current):
+            path.append(item)
+            current = current[item]
+    return tuple(path), current
+
+
+def _message(error: dict[str, Any], model: type[BaseModel]) -> str:
+    kind = error["type"]
+    loc = error["loc"]
+    ctx = error.get("ctx") or {}
+    name = str(loc[-1]) if loc else ""
+    if kind == "missing":
+        return f"required key {name!r} is missing"
+    if kind == "extra_forbidden":
+        close = difflib.get_close_matches(name, _field_names(model), n=1, cutoff=0.75)
+        hint = f"; did you mean {close[0]!r}?" if close else ""
+        return f"unknown key {name!r}{hint}"
+    if kind == "union_tag_invalid":
+        return f"unknown kind {ctx.get('tag')!r}; expected one of {ctx.get('expected_tags')}"
+    if kind == "union_tag_not_found":
+        return f"'{ctx.get('discriminator', 'kind').strip(chr(39))}' is missing; it says what the entry is"
+    message = error["msg"]
+    for prefix in ("Value error, ", "Assertion failed, "):
+        message = message.removeprefix(prefix)
+    if kind in ("value_error", "assertion_error"):
+        return message
+    value = error.get("input")
+    if isinstance(value, (str, int, float, bool)) or value is None:
+        return f"{message} (read {value!r})"
+    return message
+
+
+@cache
+def _field_names(model: type[BaseModel]) -> tuple[str, ...]:
+    """Every field name and alias reachable from ``model``: the spellings an unknown key may be a typo of."""
+    names: set[str] = set()
+    todo: list[type[BaseModel]] = [model]
+    seen: set[type[BaseModel]] = set()
+    while todo:
+        current = todo.pop()
+        if current in seen:
+            continue
+        seen.add(current)
+        for field_name, info in current.model_fields.items():
+            names.add(info.alias or field_name)
+            todo.extend(_models_in(info.annotation))
+    return tuple(sorted(names))
+
+
+def _models_in(annotation: Any) -> list[type[BaseModel]]:
+    found: list[type[BaseModel]] = []
+    stack = [annotation]
+    while stack:
+        current = stack.pop()
+        if isinstance(current, type) and issubclass(current, BaseModel):
+            found.append(current)
+        stack.extend(getattr(current, "__args__", ()) or ())
+        origin = getattr(current, "__origin__", None)
+        if origin is not None and origin is not current:
+            stack.append(origin)
+    return found
