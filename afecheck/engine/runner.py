@@ -20,13 +20,15 @@ def run_rules(loaded: LoadedDesign, **options: Any) -> tuple[Finding, ...]:
     """Run every selected rule on ``loaded``; return findings sorted for stable output.
 
     Options: ``select`` (ids or slugs, None = all), ``params`` (rule id or slug -> {name: SI value}),
-    ``severity_overrides`` (rule id or slug -> Severity or its name), ``registry`` (for tests).
+    ``severity_overrides`` (rule id or slug -> Severity or its name), ``registry`` (rules to draw from),
+    ``analysis`` (a DesignAnalysis already computed for ``loaded``, reused instead of analysing again).
     Unknown ids, slugs or parameter names raise :class:`InputError`.
     """
     registry: Registry = options.pop("registry", None) or default_registry()
     select = options.pop("select", None)
     params = options.pop("params", None) or {}
     overrides = options.pop("severity_overrides", None) or {}
+    analysis = options.pop("analysis", None)
     problems: list[Problem] = []
     rules = _selected(registry, select, problems)
     bound = _bound_params(registry, params, problems)
@@ -34,6 +36,8 @@ def run_rules(loaded: LoadedDesign, **options: Any) -> tuple[Finding, ...]:
     if problems:
         raise InputError(problems)
     base = Context(loaded)
+    if analysis is not None:
+        base.memo("analysis", lambda: analysis)
     found: list[Finding] = []
     for rule in rules:
         for f in _run_one(rule, base.for_rule(rule.meta, bound.get(rule.meta.id, {}))):
