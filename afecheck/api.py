@@ -139,6 +139,7 @@ def review_files(
 
     reg = _registry(registry)
     catalogue = Catalogue(reg.metas())
+    runnable = [r.meta.id for r in reg.rules]
     problems: list[Problem] = []
     policies: dict[str | None, Any] = {}
     waiver_cache: dict[str, tuple[WaiverNote, ...]] = {}
@@ -167,7 +168,7 @@ def review_files(
             policy = policies[key]
             levels.add(policy.fail_on)
             loaded = load_design(path, intent=intent, libraries=libraries)
-            findings = promote(run_rules(loaded, registry=reg, **policy.run_options(catalogue)), policy.promote)
+            findings = promote(run_rules(loaded, registry=reg, **policy.run_options(runnable)), policy.promote)
             waivers = cli_waivers + waivers_of(policy.waiver_files)
         except InputError as exc:
             problems.extend(exc.problems)

@@ -13,7 +13,7 @@ set, turns rules off, overrides severities and thresholds, names waiver files an
 
 from __future__ import annotations
 
-from collections.abc import Mapping
+from collections.abc import Mapping, Sequence
 from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
@@ -51,10 +51,11 @@ class Policy:
     waiver_files: tuple[str, ...] = ()
     config: str | None = None
 
-    def run_options(self, catalogue: Catalogue) -> dict[str, Any]:
-        """Keyword options for the rule runner: ``select``, ``params``, ``severity_overrides``."""
+    def run_options(self, rule_ids: Sequence[str]) -> dict[str, Any]:
+        """Keyword options for the rule runner (``select``, ``params``, ``severity_overrides``), given the ids of
+        the rules the runner can run; ``select`` is None (all) when no rule is turned off."""
         return {
-            "select": [m.id for m in catalogue.metas if m.id not in self.disabled],
+            "select": [r for r in rule_ids if r not in self.disabled] if self.disabled else None,
             "params": {k: dict(v) for k, v in self.params.items()},
             "severity_overrides": dict(self.severity),
         }
