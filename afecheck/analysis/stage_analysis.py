@@ -173,8 +173,8 @@ def _holding_elements(circuit: Circuit, stages: list[Stage], nets: set[str], see
             v = 0.0 if res is None or res.vout_min is None else 0.5 * (res.vout_min + res.vout_max)
             extra.append(VoltageSource(f"{net}#held", _node(circuit, net), GROUND, dc=v))
             continue
-        for ref in circuit.opamps:
-            if ref not in unit and circuit.pins[ref].get("in-") == net:
+        for ref, pin in circuit.net_pins.get(net, ()):
+            if pin == "in-" and circuit.kinds[ref] == "opamp" and ref not in unit:
                 vp = circuit.fixed.get(circuit.pins[ref].get("in+", ""))
                 extra.append(VoltageSource(f"{net}#vg", _node(circuit, net), GROUND, dc=float(vp or 0.0)))
                 break
@@ -207,8 +207,8 @@ def analyse_unit(circuit: Circuit, plan: StagePlan, unit: tuple[str, ...],
     inputs, extra, notes = _collect_inputs(circuit, stages, dividers, done)
     extra += _holding_elements(circuit, stages, nets, {i.source.net for i in inputs}, done)
     d = circuit.loaded.design
-    sig_sources = [r for r, k in circuit.kinds.items()
-                   if k == "signal_source" and d.components[r].pins.get("p") in nets]
+    sig_sources = sorted(circuit.signal_nets[n] for n in nets
+                         if n in circuit.signal_nets and circuit.signal_nets[n] in circuit.kinds)
     comps = list(unit) + sorted(passives - legs) + sig_sources
     zero = {n: 0.0 for n in d.signals} | {r: 0.0 for r in sig_sources}
     try:
@@ -254,12 +254,12 @@ def _solve_unit(circuit: Circuit, stages: list[Stage], netlist: Netlist, inputs:
         hi += contrib.max(axis=0)
         per_input.append((xs, vth_lo, vth_hi))
 
-    ac_amp, fmax = _ac_amplitudes(system, inputs, n)
+    ac_amp, fmax, ac_mid = _ac_amplitudes(system, inputs, n)
     idx = system.node_index
     results = []
     for s in stages:
-        results.append(_stage_result(circuit, s, netlist, system, inputs, x_unit, per_input, lo, hi, ac_amp,
-                                     fmax, notes))
+        results.append(_stage_result(circuit, s, netlist, system, inputs, x_unit, per_input, lo, hi,
+                                     (ac_amp, fmax, ac_mid), notes))
     fixed = set(circuit.fixed)
     net_signals = []
     for net in sorted(set().union(*(set(s.nets) for s in stages)) - fixed):
@@ -291,13 +291,15 @@ def _grid_solutions(system, g: np.ndarray, inp: _Input, base: np.ndarray) -> np.
     return np.linalg.solve(mats, rhs)[..., 0]
 
 
-def _ac_amplitudes(system, inputs: list[_Input], n: int) -> tuple[np.ndarray, np.ndarray]:
-    """AC amplitude (sum over inputs of amplitude × largest |H| over the input's band) and highest frequency."""
+def _ac_amplitudes(system, inputs: list[_Input], n: int) -> tuple[np.ndarray, np.ndarray, dict[int, np.ndarray]]:
+    """AC amplitude (sum over inputs of amplitude × largest |H| over the input's band), highest frequency, and
+    each AC input's complex unit solution in the middle of its band."""
     amp = np.zeros(n)
     fmax = np.zeros(n)
+    mid: dict[int, np.ndarray] = {}
     active = [(j, i) for j, i in enumerate(inputs) if i.source.ac_amplitude > 0]
     if not active:
-        return amp, fmax
+        return amp, fmax, mid
     freqs, owners = [], []
     for j, inp in active:
         band = _band(inp)
@@ -309,13 +311,15 @@ def _ac_amplitudes(system, inputs: list[_Input], n: int) -> tuple[np.ndarray, np
     rhs = np.zeros((f.size, n, 1), dtype=complex)
     for row, j in enumerate(owners):
         rhs[row, system.branch_index(inputs[j].branch), 0] = 1.0
-    xs = np.abs(np.linalg.solve(y, rhs)[..., 0])
+    solved = np.linalg.solve(y, rhs)[..., 0]
+    xs = np.abs(solved)
     for j, inp in active:
         rows = [r for r, o in enumerate(owners) if o == j]
+        mid[j] = solved[rows[len(rows) // 2]]
         h = xs[rows].max(axis=0)
         amp += inp.source.ac_amplitude * h
         fmax = np.where(h > 1e-12, np.maximum(fmax, inp.source.f_max), fmax)
-    return amp, fmax
+    return amp, fmax, mid
 
 
 def _admittance(system, f: np.ndarray) -> np.ndarray:
@@ -339,8 +343,8 @@ def _band(inp: _Input) -> list[float]:
 
 
 def _stage_result(circuit: Circuit, s: Stage, netlist: Netlist, system, inputs: list[_Input], x_unit: np.ndarray,
-                  per_input, lo: np.ndarray, hi: np.ndarray, ac_amp: np.ndarray, fmax: np.ndarray,
-                  notes: list[str]) -> StageResult:
+                  per_input, lo: np.ndarray, hi: np.ndarray, ac, notes: list[str]) -> StageResult:
+    ac_amp, fmax, ac_mid = ac
     idx = system.node_index
     out = idx(_node(circuit, s.out))
     inp_i = idx(_node(circuit, s.in_plus))
@@ -367,23 +371,24 @@ def _stage_result(circuit: Circuit, s: Stage, netlist: Netlist, system, inputs: 
         via = tuple(sorted(r for r, _ in circuit.net_pins.get(inp.source.net, ()) if r in s.refs
                            and r not in inp.source.refs))
         stage_inputs.append(StageInput(
-            net=inp.source.net, pin=inp.pin, source=inp.source, via=via, gain=g_nom, ideal_gain=float(ideal),
+            net=inp.source.net, pin=inp.pin, source=inp.source, via=via, gain=g_nom + 0.0,
+            ideal_gain=float(ideal) + 0.0,
             input_resistance=float(rin), loading_error_min=float(err.min()), loading_error_max=float(err.max()),
         ))
-        span = abs(g_nom) * max(abs(inp.source.v_max - inp.source.v_min), inp.source.ac_amplitude, 1e-30)
-        if inp.source.kind not in ("rail", "vsource") and (best is None or span > best[0]):
-            best = (span, j)
+        if inp.source.kind not in ("rail", "vsource") and (best is None or abs(g_nom) > best[0]):
+            best = (abs(g_nom), j)
 
     iout_lo, iout_hi = -hi[buf], -lo[buf]
     vout_min, vout_max = float(lo[out]), float(hi[out])
     vac = float(ac_amp[out])
     f_max = float(fmax[out])
     load_r = None
-    if best is not None:
-        j = best[1]
-        i_unit = -x_unit[buf, j]
-        if abs(i_unit) > 0:
-            load_r = float(abs(x_unit[out, j] / i_unit))
+    if best is not None and best[0] > 1e-9 and abs(x_unit[buf, best[1]]) > 0:
+        load_r = float(abs(x_unit[out, best[1]] / x_unit[buf, best[1]]))
+    elif ac_mid:
+        j = max(ac_mid, key=lambda k: abs(ac_mid[k][out]))
+        if abs(ac_mid[j][buf]) > 0:
+            load_r = float(abs(ac_mid[j][out] / ac_mid[j][buf]))
     load_c = _load_capacitance(circuit, s)
     iout_peak = float(max(abs(iout_lo), abs(iout_hi)))
     if vac > 0:

@@ -170,6 +170,10 @@ def find_stages(circuit: Circuit) -> StagePlan:
             loops.append(members)
         for m in members:
             group_of[m] = members if len(members) <= MAX_GROUP else (m,)
+    minus_nets: dict[str, list[str]] = {}
+    for o in opamps:
+        if "in-" in circuit.pins[o]:
+            minus_nets.setdefault(circuit.pins[o]["in-"], []).append(o)
     stages: dict[str, Stage] = {}
     for r in opamps:
         pins = circuit.pins[r]
@@ -177,11 +181,14 @@ def find_stages(circuit: Circuit) -> StagePlan:
         group = group_of[r]
         plus, minus = regions[r]
         topology, feedback = classify(circuit, r, plus, minus, group)
-        virtual_grounds = {circuit.pins[o].get("in-") for o in opamps if o not in group}
         base_stop = stage_stop(circuit, out or "")
 
-        def stop(net: str, base=base_stop, vg=virtual_grounds, own=pins) -> bool:
-            return base(net) or (net in vg and net not in (own.get("in+"), own.get("in-")))
+        def stop(net: str, base=base_stop, group=group, own=pins) -> bool:
+            if base(net):
+                return True
+            owners = minus_nets.get(net)
+            return bool(owners) and net not in (own.get("in+"), own.get("in-")) and any(
+                o not in group for o in owners)
 
         if out is None or out in circuit.fixed:
             out_region = _EMPTY
