@@ -80,7 +80,8 @@ def test_minimum_stable_gain_blames_the_feedback_capacitor() -> None:
     # [NUM] R2(c): Rf 10 kΩ, Rg 1 kΩ, Cg 5 pF, Cf 33 pF -> NG(∞) = 1 + Cg/Cf = 1.152 [FR]
     loaded = design(part={"min_stable_gain": 5.0, "gbw": 50e6, "second_pole": 10e6})
     ng_inf = 1 + 5 / 33
-    [f] = run(min_stable_gain, loaded, [stage(noise_gain_dc=11.0, noise_gain_at_crossover=ng_inf, noise_gain_hf=ng_inf)])
+    s = stage(noise_gain_dc=11.0, noise_gain_at_crossover=ng_inf, noise_gain_hf=ng_inf)
+    [f] = run(min_stable_gain, loaded, [s])
     assert "feedback capacitor" in f.message and "1.15" in f.message and f.ctx["limit"] == 5.0
 
 
