@@ -6,8 +6,9 @@ and the reason is in ``not_evaluated``.
 
 from __future__ import annotations
 
+from collections.abc import Mapping
 from dataclasses import dataclass, field
-from typing import Literal, Mapping
+from typing import Literal
 
 Topology = Literal[
     "follower", "non-inverting", "inverting", "summing", "difference", "transimpedance", "integrator",

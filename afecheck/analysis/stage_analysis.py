@@ -108,7 +108,9 @@ def _collect_inputs(
             pin_of.setdefault(net, "in+")
         for net in s.minus_region.boundary | s.minus_region.nets | {s.in_minus}:
             pin_of.setdefault(net, "in-")
-    boundary = sorted(set().union(*(s.plus_region.boundary | s.minus_region.boundary for s in stages)))
+    boundary = set().union(*(s.plus_region.boundary | s.minus_region.boundary for s in stages))
+    boundary |= {n for s in stages for n in (s.in_plus, s.in_minus) if n in circuit.signal_nets}
+    boundary = sorted(boundary)
     for net in sorted(dividers):
         dv = dividers[net]
         inner = f"{net}#thev.s"
@@ -402,7 +404,7 @@ def _stage_result(circuit: Circuit, s: Stage, netlist: Netlist, system, inputs: 
         fb = lg.sign
         t_dc = lg.t_dc
         if fb == "none":
-            reasons.append("no feedback: the loop gain at DC is negligible")
+            reasons.append("no DC feedback: the loop gain at DC is negligible (output range not evaluated)")
         else:
             fc, pm, gm = lg.crossover_hz, lg.phase_margin_deg, lg.gain_margin_db
             ng_dc = lg.noise_gain_dc
@@ -427,13 +429,17 @@ def _stage_result(circuit: Circuit, s: Stage, netlist: Netlist, system, inputs: 
             reasons.append("closed-loop output resistance: singular circuit")
 
     vpk = vac if vac > 0 else 0.5 * (vout_max - vout_min)
+    open_loop = fb != "negative"
+    if open_loop:
+        vpk = vac
     part = circuit.loaded.design.components[s.opamp].part  # type: ignore[union-attr]
     return StageResult(
         opamp=s.opamp, part=part, topology=s.topology, refs=s.refs, in_plus=s.in_plus, in_minus=s.in_minus,
         out=s.out, group=s.group, inputs=tuple(stage_inputs),
         noise_gain_dc=_f(ng_dc), noise_gain_at_crossover=_f(ng_fc), noise_gain_hf=_f(ng_hf),
         output_resistance=rout, vcm_min=float(lo[inp_i]) if inp_i >= 0 else 0.0,
-        vcm_max=float(hi[inp_i]) if inp_i >= 0 else 0.0, vout_min=vout_min, vout_max=vout_max,
+        vcm_max=float(hi[inp_i]) if inp_i >= 0 else 0.0, vout_min=None if open_loop else vout_min,
+        vout_max=None if open_loop else vout_max,
         vout_ac_peak=vac, f_max=f_max, load_resistance=load_r, load_capacitance=load_c, iout_peak=iout_peak,
         feedback=fb, loop_gain_dc=_f(t_dc), crossover_hz=_f(fc), phase_margin_deg=_f(pm), gain_margin_db=_f(gm),
         loop_gain_at_fmax=_f(t_fmax), required_slew_rate=float(2 * math.pi * f_max * vpk),
