@@ -24,7 +24,7 @@ def test_phase_margin_thresholds_both_sides(pm: float, expected: Severity | None
 def test_capacitive_load_named_as_the_cause_with_its_pole() -> None:
     # [FR] R2(e): follower, Ro 100 Ω, CL 1 nF -> fpL = 1.592 MHz; PM 15.38° at 3.817 MHz ([NUM] values as input)
     loaded = design(part={"gbw": 10e6, "second_pole": 30e6})
-    s = stage(topology="follower", load_capacitance=1e-9, output_resistance=100.0, phase_margin_deg=15.38,
+    s = stage(topology="follower", load_capacitance=1e-9, output_resistance=1e-3, phase_margin_deg=15.38,
               crossover_hz=3.817e6)
     [f] = run(phase_margin, loaded, [s])
     assert f.severity == Severity.ERROR and f.ctx["cause"] == "load"
@@ -89,7 +89,8 @@ def test_unity_gain_stable_part_is_never_below_its_minimum() -> None:
     assert run(min_stable_gain, design(), [stage(noise_gain_at_crossover=1.0)]) == []
 
 
-@pytest.mark.parametrize(("gm", "expected"), [(6.0, None), (5.9, Severity.WARNING), (None, None)])
+@pytest.mark.parametrize(("gm", "expected"), [(6.0, None), (5.9, Severity.WARNING), (0.0, Severity.WARNING),
+                                               (-0.1, Severity.ERROR), (None, None)])
 def test_gain_margin_both_sides(gm: float | None, expected: Severity | None) -> None:
     found = run(gain_margin, design(), [stage(gain_margin_db=gm)])
     assert [f.severity for f in found] == ([] if expected is None else [expected])

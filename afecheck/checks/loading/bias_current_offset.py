@@ -6,7 +6,7 @@ from collections.abc import Iterator
 
 from afecheck.checks.common import attached, fmt, grade_above, part_value, pct, resistance_at
 from afecheck.checks.common import finding as make_finding
-from afecheck.checks.loading.sources import plus_source_resistance
+from afecheck.checks.loading.sources import ac_coupled, plus_source_resistance
 from afecheck.engine.context import Context
 from afecheck.engine.finding import Finding, Severity
 from afecheck.engine.rule import Param, RuleMeta
@@ -36,7 +36,7 @@ def check(ctx: Context) -> Iterator[Finding]:
         if stage.topology not in ("follower", "non-inverting") or stage.noise_gain_dc is None:
             continue
         for inp in stage.inputs:
-            if inp.pin != "in+":
+            if inp.pin != "in+" or ac_coupled(ctx.loaded, inp):
                 continue
             r_plus = plus_source_resistance(ctx.loaded, inp)
             if r_plus <= 0:

@@ -50,7 +50,7 @@ def check(ctx: Context) -> Iterator[Finding]:
             if r_cm is None or c_cm is None or c_diff is None:
                 continue
             c_in = c_cm + c_diff
-            f = max(inp.source.f_max, stage.f_max)
+            f = inp.source.f_max
             e_dc = divider_error(rs, r_cm, 0.0, 0.0)
             e = divider_error(rs, r_cm, c_in, f)
             severity = grade_above(e, warn, err)

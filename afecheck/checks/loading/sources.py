@@ -20,6 +20,12 @@ def plus_source_resistance(loaded: LoadedDesign, inp: StageInput) -> float:
     return float(inp.source.r_max) + series_resistance(loaded, inp.via)
 
 
+def ac_coupled(loaded: LoadedDesign, inp: StageInput) -> bool:
+    """True when a capacitor sits between the source and the pin, so no DC (bias) current flows from the source."""
+    comps = loaded.design.components
+    return any(r in comps and comps[r].kind == "capacitor" for r in inp.via)
+
+
 def signal_inputs(stage: StageResult, pin: str) -> list[StageInput]:
     """The stage's inputs arriving at ``pin`` (``in+`` or ``in-``)."""
     return [i for i in stage.inputs if i.pin == pin]

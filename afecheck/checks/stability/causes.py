@@ -30,8 +30,7 @@ class Cause:
 
 def load_pole(ctx: Context, stage: StageResult) -> Cause | None:
     """Pole 1/(2π·Ro·CL) from the open-loop output resistance and the capacitive load."""
-    ro, assumed = (stage.output_resistance, ()) if stage.output_resistance is not None else \
-        part_value(ctx, stage.opamp, "output_resistance")
+    ro, assumed = part_value(ctx, stage.opamp, "output_resistance")  # open loop: StageResult's is closed loop
     cl = stage.load_capacitance
     if not ro or cl <= 0:
         return None
@@ -83,8 +82,24 @@ def second_pole(ctx: Context, stage: StageResult) -> Cause:
     return Cause("second-pole", f2 or math.inf, text, fix, (stage.opamp,), assumed)
 
 
+def below_minimum_gain(ctx: Context, stage: StageResult) -> Cause | None:
+    """A decompensated part run below its declared minimum stable noise gain at crossover."""
+    gmin = ctx.loaded.part(stage.opamp).min_stable_gain if stage.opamp in ctx.loaded.design.components else None
+    ng = stage.noise_gain_at_crossover
+    if gmin is None or ng is None or ng >= gmin:
+        return None
+    text = f"noise gain {ng:.3g} at crossover is below the part's minimum stable gain {gmin:.3g}"
+    fix = (f"raise the noise gain above {gmin:.3g} (resistor between {stage.in_plus} and {stage.in_minus}, smaller "
+           "feedback capacitor, more gain) or choose a unity-gain-stable part")
+    return Cause("below-minimum-gain", 0.0, text, fix, (stage.opamp,), ())
+
+
 def main_cause(ctx: Context, stage: StageResult) -> Cause:
-    """The lowest-frequency extra lag: capacitive-load pole or input-capacitance zero, else the second pole."""
+    """Below the minimum stable gain first; else the lowest-frequency extra lag (capacitive-load pole or
+    input-capacitance zero); else the op-amp's second pole."""
+    decomp = below_minimum_gain(ctx, stage)
+    if decomp is not None:
+        return decomp
     found = [c for c in (load_pole(ctx, stage), input_zero(ctx, stage)) if c is not None]
     f2 = second_pole(ctx, stage)
     candidates = [c for c in found if c.frequency < 3.0 * f2.frequency]
