@@ -143,8 +143,8 @@ def test_parameter_values_read_with_units(value, unit, expected):
 
 
 def test_ruleset_extends_and_promotes(tmp_path):
-    base = _write(tmp_path, "base.yaml", "afecheck-ruleset: 1\nrules:\n  TST101: {params: {min_resistance: 2k}}\n"
-                                         "  TST103: off\n")
+    _write(tmp_path, "base.yaml", "afecheck-ruleset: 1\nrules:\n  TST101: {params: {min_resistance: 2k}}\n"
+                          "  TST103: off\n")
     top = _write(tmp_path, "strict.yaml", "afecheck-ruleset: 1\nextends: base.yaml\npromote: {warning: error}\n"
                                           "fail-on: warning\nrules:\n  TST103: on\n")
     rs = load_ruleset(str(top.name), CAT, tmp_path)

@@ -67,7 +67,6 @@ def test_sarif_of_fixtures_and_hand_made_report_validates_against_official_schem
         assert log["version"] == "2.1.0" and len(log["runs"]) == 1
 
 
-@pytest.mark.slow
 @pytest.mark.skipif(not SAMPLES, reason="no sample designs yet")
 def test_sarif_of_every_sample_design_validates():
     # [OASIS SARIF 2.1.0 errata 01] official JSON schema, with the real rule catalogue

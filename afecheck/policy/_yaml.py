@@ -12,21 +12,30 @@ from afecheck.errors import ConfigError, Problem
 Positions = dict[tuple[str | int, ...], tuple[int, int]]
 
 
-def _walk(node: yaml.Node, loader: yaml.SafeLoader, path: tuple, positions: Positions) -> None:
+def _walk(node: yaml.Node, loader: yaml.SafeLoader, path: tuple, positions: Positions,
+          scalars: dict[tuple, str]) -> None:
     if isinstance(node, yaml.MappingNode):
         for knode, vnode in node.value:
             key = loader.construct_object(knode, deep=True)
             sub = (*path, key if isinstance(key, (str, int)) else str(key))
             positions[sub] = (knode.start_mark.line + 1, knode.start_mark.column + 1)
-            _walk(vnode, loader, sub, positions)
+            _walk(vnode, loader, sub, positions, scalars)
     elif isinstance(node, yaml.SequenceNode):
         for i, item in enumerate(node.value):
             positions[(*path, i)] = (item.start_mark.line + 1, item.start_mark.column + 1)
-            _walk(item, loader, (*path, i), positions)
+            _walk(item, loader, (*path, i), positions, scalars)
+    elif isinstance(node, yaml.ScalarNode):
+        scalars[path] = node.value
 
 
 def load_yaml(path: str | Path) -> tuple[Any, Positions]:
     """Parse ``path`` (YAML or JSON); return the data and the (line, column) of each key path. Errors: ConfigError."""
+    data, positions, _ = load_yaml_scalars(path)
+    return data, positions
+
+
+def load_yaml_scalars(path: str | Path) -> tuple[Any, Positions, dict[tuple, str]]:
+    """As :func:`load_yaml`, plus the source text of every scalar (``0123`` stays ``"0123"``, not 83)."""
     p = Path(path)
     try:
         text = p.read_text(encoding="utf-8")
@@ -36,10 +45,11 @@ def load_yaml(path: str | Path) -> tuple[Any, Positions]:
     try:
         node = loader.get_single_node()
         if node is None:
-            return None, {}
+            return None, {}, {}
         data = loader.construct_document(node)
         positions: Positions = {(): (node.start_mark.line + 1, node.start_mark.column + 1)}
-        _walk(node, loader, (), positions)
+        scalars: dict[tuple, str] = {}
+        _walk(node, loader, (), positions, scalars)
     except yaml.MarkedYAMLError as exc:
         mark = exc.problem_mark or exc.context_mark
         line = mark.line + 1 if mark else None
@@ -49,7 +59,7 @@ def load_yaml(path: str | Path) -> tuple[Any, Positions]:
         raise ConfigError([Problem(str(p), None, None, "", f"not valid YAML: {exc}")]) from None
     finally:
         loader.dispose()
-    return data, positions
+    return data, positions, scalars
 
 
 class Problems:

@@ -15,7 +15,7 @@ import datetime as dt
 import re
 from pathlib import Path
 
-from afecheck.policy._yaml import Problems, load_yaml
+from afecheck.policy._yaml import Problems, load_yaml_scalars
 from afecheck.policy.rulesets import Catalogue
 from afecheck.report.data import WaiverNote
 
@@ -39,7 +39,7 @@ def _date(value: object) -> str | None:
 
 def load_waivers(path: str | Path, catalogue: Catalogue | None = None) -> tuple[WaiverNote, ...]:
     """Every waiver in ``path``; all problems (missing fields, bad dates, unknown rules) raised together."""
-    data, positions = load_yaml(path)
+    data, positions, scalars = load_yaml_scalars(path)
     problems = Problems(str(path), positions)
     if not isinstance(data, dict) or data.get(WAIVERS_KEY) != 1:
         problems.add((), f"a waiver file starts with '{WAIVERS_KEY}: 1'")
@@ -62,7 +62,7 @@ def load_waivers(path: str | Path, catalogue: Catalogue | None = None) -> tuple[
             if k not in ENTRY_KEYS:
                 problems.add((*where, k), f"unknown key {k!r}; expected one of {', '.join(sorted(ENTRY_KEYS))}")
                 ok = False
-        fp = str(raw.get("fingerprint", "")).strip()
+        fp = scalars.get((*where, "fingerprint"), str(raw.get("fingerprint", ""))).strip().strip("'\"")
         if not _FINGERPRINT.match(fp):
             problems.add((*where, "fingerprint"), f"read {fp!r}; expected the 16 hex digits shown in the report")
             ok = False
