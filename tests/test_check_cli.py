@@ -165,3 +165,40 @@ def test_colour_on_a_tty_only(work, monkeypatch):
     assert "\x1b[" not in out
     code, _, _ = _run("check", "logger.yaml", "--format", "text", "--output", "t.txt", stdout=_Tty())
     assert "\x1b[" not in (work / "t.txt").read_text(encoding="utf-8")
+
+
+def test_only_designs_skips_other_yaml(work):
+    (work / "ci.yaml").write_text("jobs: {build: {}}\n", encoding="utf-8")
+    (work / "w.yaml").write_text("afecheck-waivers: 1\nwaivers: []\n", encoding="utf-8")
+    code, out, err = _run("check", "--only-designs", "ci.yaml", "w.yaml", "logger.yaml")
+    assert code == 1 and "== logger.yaml" in out and "ci.yaml" not in out, err
+    code, out, err = _run("check", "--only-designs", "ci.yaml")
+    assert code == 0 and "no design files" in err
+
+
+def test_pre_commit_hooks_file_runs_our_command():
+    # pre-commit's hook manifest format: a list of hooks with id, name, entry, language
+    import yaml
+
+    hooks = yaml.safe_load((Path(__file__).parents[1] / ".pre-commit-hooks.yaml").read_text(encoding="utf-8"))
+    assert {h["id"] for h in hooks} >= {"afecheck"}
+    for h in hooks:
+        assert {"id", "name", "entry", "language"} <= set(h)
+        assert h["entry"].startswith("afecheck check --only-designs")
+        assert h["language"] == "python"
+
+
+def test_ci_doc_config_example_is_valid(tmp_path):
+    import re
+
+    from afecheck.engine.registry import default_registry
+    from afecheck.policy.config import resolve_policy
+    from afecheck.policy.rulesets import Catalogue
+
+    doc = (Path(__file__).parents[1] / "docs" / "CI.md").read_text(encoding="utf-8")
+    block = next(b for b in re.findall(r"```yaml\n(.*?)```", doc, re.S) if b.startswith("afecheck-config"))
+    (tmp_path / "afecheck-waivers.yaml").write_text("afecheck-waivers: 1\nwaivers: []\n", encoding="utf-8")
+    cfg = tmp_path / ".afecheck.yaml"
+    cfg.write_text(block, encoding="utf-8")
+    policy = resolve_policy(Catalogue(default_registry().metas()), cfg)
+    assert policy.ruleset == "precision" and policy.disabled

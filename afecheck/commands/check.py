@@ -9,6 +9,7 @@ from __future__ import annotations
 import argparse
 import datetime as dt
 import os
+import re
 from pathlib import Path
 from typing import Any, TextIO
 
@@ -87,6 +88,9 @@ def add_arguments(p: argparse.ArgumentParser) -> None:
                    help="write the preceding --format to PATH (atomically) instead of standard output")
     p.add_argument("--baseline", metavar="FILE",
                    help="baseline from `afecheck baseline`: only findings not in it fail the gate")
+    p.add_argument("--only-designs", action="store_true",
+                   help="skip files that are not afecheck designs (no top-level 'afecheck' key), e.g. in a pre-commit"
+                   " hook that passes every YAML file")
     p.add_argument("--color", choices=["auto", "always", "never"], default="auto",
                    help="colour the text report (auto: only on a terminal; never when NO_COLOR is set)")
     p.set_defaults(reports=None)
@@ -124,6 +128,19 @@ def _plan(args: argparse.Namespace, stderr: TextIO) -> list[list[str | None]] | 
     return reports
 
 
+_DESIGN_KEY = re.compile(r'^(afecheck|\s*"afecheck")\s*:', re.M)
+
+
+def is_design_file(path: str | Path) -> bool:
+    """True when ``path`` has a top-level ``afecheck:`` key (YAML or JSON); unreadable files count as designs
+    so that the loader reports them."""
+    try:
+        text = Path(path).read_text(encoding="utf-8")
+    except (OSError, UnicodeDecodeError):
+        return True
+    return bool(_DESIGN_KEY.search(text)) or text.lstrip().startswith('{"afecheck"')
+
+
 def run(args: argparse.Namespace, stdout: TextIO, stderr: TextIO) -> int:
     from afecheck.api import review_files
     from afecheck.io import write_text_atomic
@@ -133,6 +150,11 @@ def run(args: argparse.Namespace, stdout: TextIO, stderr: TextIO) -> int:
     plan = _plan(args, stderr)
     if plan is None:
         return EXIT_INPUT
+    if args.only_designs:
+        args.files = [f for f in args.files if is_design_file(f)]
+        if not args.files:
+            print("afecheck: no design files among the files given", file=stderr)
+            return 0
     report = review_files(args.files, fail_on=args.fail_on, baseline=args.baseline, **review_options(args))
     rendered = [(fmt, path, render(report, str(fmt), color=path is None and use_color(args.color, stdout)))
                 for fmt, path in plan]

@@ -79,7 +79,7 @@ def _waiver_props(w: WaiverNote) -> dict[str, Any]:
 
 def _result(entry: Entry, rule_index: dict[str, int], artifact_index: dict[str, int], report: Report) -> dict[str, Any]:
     f = entry.finding
-    text = message(f) + (f". Fix: {f.fix}" if f.fix else "")
+    text = message(f).rstrip(".") + f". Fix: {f.fix}" if f.fix else message(f)
     r: dict[str, Any] = {
         "ruleId": f.rule,
         "ruleIndex": rule_index[f.rule],
