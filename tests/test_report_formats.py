@@ -188,3 +188,20 @@ def test_two_runs_give_byte_identical_reports(fmt):
     b = render(_fixture_report(), fmt)
     assert a.encode() == b.encode()
     assert not re.search(r"20\d\d-\d\d-\d\dT\d\d:", a)  # no timestamps
+
+
+def test_markdown_caps_the_table_for_a_comment():
+    from afecheck.report.markdown import MAX_ROWS
+
+    f = Finding("TST101", "resistor-below-minimum", Severity.ERROR, "m", Location(file="x.yaml", line=1))
+    entries = tuple(Entry(f, "open") for _ in range(MAX_ROWS + 7))
+    md = render(Report(designs=(DesignResult("x.yaml", "d", (), entries),)), "markdown")
+    assert md.count("| 🛑 error |") == MAX_ROWS and "and 7 more" in md
+
+
+def test_rule_help_text_comes_from_rule_md_sections():
+    from afecheck.api import _section
+
+    md = "# AFE999 demo\n\n## What it checks\n\nThe phase margin\nof each stage.\n\nMore.\n\n## Why it matters\n\nX\n"
+    assert _section(md, "What it checks") == "The phase margin of each stage."
+    assert _section(md, "Known limitations") == ""

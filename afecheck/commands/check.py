@@ -57,7 +57,11 @@ def review_options(args: argparse.Namespace) -> dict[str, Any]:
 
 def input_paths(args: argparse.Namespace) -> list[Path]:
     """Every file the command reads, so that no output ever overwrites one."""
+    from afecheck.policy.config import discover_config
+
     named = [*args.files, args.intent, *args.parts, args.config, *args.waivers, getattr(args, "baseline", None)]
+    if not args.no_config and args.config is None:
+        named += [discover_config(f) for f in args.files]
     return [Path(n) for n in named if n]
 
 

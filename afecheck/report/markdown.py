@@ -6,6 +6,7 @@ from afecheck.report._common import message, rule_label, unused_text, where
 from afecheck.report.cautions import cautions
 from afecheck.report.data import Entry, Report, summary_line
 
+MAX_ROWS = 50
 _ICON = {"error": "🛑 error", "warning": "⚠️ warning", "info": "ℹ️ info"}
 
 
@@ -45,7 +46,9 @@ def render_markdown(report: Report) -> str:
     entries = report.entries()
     active = [e for e in entries if e.active]
     if active:
-        out += _table(active) + [""]
+        out += _table(active[:MAX_ROWS]) + [""]
+        if len(active) > MAX_ROWS:
+            out += [f"…and {len(active) - MAX_ROWS} more active findings: see the full text, JSON or SARIF report.", ""]
     else:
         out += ["No open findings.", ""]
     for status, title in (("waived", "waived"), ("unchanged", "already in the baseline"), ("fixed", "fixed")):
