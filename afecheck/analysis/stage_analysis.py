@@ -299,7 +299,7 @@ def _ac_amplitudes(system, inputs: list[_Input], n: int) -> tuple[np.ndarray, np
     amp = np.zeros(n)
     fmax = np.zeros(n)
     mid: dict[int, np.ndarray] = {}
-    active = [(j, i) for j, i in enumerate(inputs) if i.source.ac_amplitude > 0]
+    active = [(j, i) for j, i in enumerate(inputs) if i.source.ac_amplitude > 0 or i.source.f_max > 0]
     if not active:
         return amp, fmax, mid
     freqs, owners = [], []
@@ -317,7 +317,8 @@ def _ac_amplitudes(system, inputs: list[_Input], n: int) -> tuple[np.ndarray, np
     xs = np.abs(solved)
     for j, inp in active:
         rows = [r for r, o in enumerate(owners) if o == j]
-        mid[j] = solved[rows[len(rows) // 2]]
+        if inp.source.ac_amplitude > 0:
+            mid[j] = solved[rows[len(rows) // 2]]
         h = xs[rows].max(axis=0)
         amp += inp.source.ac_amplitude * h
         fmax = np.where(h > 1e-12, np.maximum(fmax, inp.source.f_max), fmax)
