@@ -42,7 +42,7 @@ _BUILD = {
     f"{_YAML}null": _CONSTRUCTOR.construct_yaml_null,
 }
 try:
-    from yaml import CParser as _Parser
+    from yaml._yaml import CParser as _Parser
 except ImportError:  # PyYAML built without libyaml: the pure-Python parser gives the same events
 
     class _Parser(yaml.reader.Reader, yaml.scanner.Scanner, yaml.parser.Parser):  # type: ignore[no-redef]
@@ -117,7 +117,7 @@ def read_file(path: Path, display: str | None = None) -> Document:
         if not path.is_file():
             raise InputError([Problem(name, None, None, "", "not a regular file")])
         if size > MAX_FILE_BYTES:
-            raise InputError([Problem(name, None, None, "", f"file is {size} bytes; the limit is {MAX_FILE_BYTES}")])
+            raise InputError([Problem(name, 1, None, "", f"file is {size} bytes; the limit is {MAX_FILE_BYTES}")])
         raw = path.read_bytes()
     except FileNotFoundError:
         raise InputError([Problem(name, None, None, "", "no such file")]) from None
@@ -129,7 +129,7 @@ def read_file(path: Path, display: str | None = None) -> Document:
 def read_bytes(raw: bytes, file: str, as_json: bool = False) -> Document:
     """Decode and parse ``raw`` (UTF-8 text) as JSON or YAML; raise InputError with positions."""
     if len(raw) > MAX_FILE_BYTES:
-        raise InputError([Problem(file, None, None, "", f"input is {len(raw)} bytes; the limit is {MAX_FILE_BYTES}")])
+        raise InputError([Problem(file, 1, None, "", f"input is {len(raw)} bytes; the limit is {MAX_FILE_BYTES}")])
     if b"\x00" in raw:
         line = raw[: raw.index(b"\x00")].count(b"\n") + 1
         raise InputError([Problem(file, line, None, "", "binary content (NUL byte): expected a UTF-8 text file")])
@@ -142,7 +142,7 @@ def read_bytes(raw: bytes, file: str, as_json: bool = False) -> Document:
         ) from None
     text = text.removeprefix("\ufeff")
     if not text.strip() or (not as_json and _only_comments(text)):
-        raise InputError([Problem(file, None, None, "", "empty file: expected a mapping with the format version")])
+        raise InputError([Problem(file, 1, None, "", "empty file: expected a mapping with the format version")])
     return _read_json(text, file) if as_json else _read_yaml(text, file)
 
 
@@ -363,8 +363,9 @@ class _YamlBuilder:
 
 def _read_yaml(text: str, file: str) -> Document:
     builder = _YamlBuilder(file)
-    parser = _Parser(text)
+    parser = None
     try:
+        parser = _Parser(text)
         while parser.check_event():
             builder.feed(parser.get_event())
     except _FatalError as stop:
@@ -373,10 +374,15 @@ def _read_yaml(text: str, file: str) -> Document:
         mark = exc.problem_mark or exc.context_mark
         message = " ".join(m for m in (exc.context, exc.problem) if m)
         raise InputError(builder.problems + [_mark(file, mark, f"not valid YAML: {message}")]) from None
+    except yaml.reader.ReaderError as exc:
+        line = text.count("\n", 0, exc.position) + 1 if isinstance(exc.position, int) else 1
+        message = f"character #x{exc.character:04x} is not allowed in YAML text" if isinstance(
+            exc.character, int) else str(exc)
+        raise InputError(builder.problems + [Problem(file, line, None, "", message)]) from None
     except yaml.YAMLError as exc:
-        raise InputError(builder.problems + [Problem(file, None, None, "", f"not valid YAML: {exc}")]) from None
+        raise InputError(builder.problems + [Problem(file, 1, None, "", f"not valid YAML: {exc}")]) from None
     finally:
-        dispose = getattr(parser, "dispose", None)
+        dispose = getattr(parser, "dispose", None) if parser is not None else None
         if dispose is not None:
             dispose()
     if builder.problems:
@@ -386,6 +392,7 @@ def _read_yaml(text: str, file: str) -> Document:
 
 _JSON_NUMBER = re.compile(r"-?(?:0|[1-9]\d*)(?:\.\d+)?(?:[eE][-+]?\d+)?")
 _JSON_WS = re.compile(r"[ \t\n\r]*")
+_JSON_CONSTANT = re.compile(r"(?<![\"\w])(?:-?Infinity|NaN)(?![\"\w])")
 
 
 def _refuse_constant(name: str) -> None:
@@ -399,9 +406,12 @@ def _read_json(text: str, file: str) -> Document:
     except json.JSONDecodeError as exc:
         raise InputError([Problem(file, exc.lineno, exc.colno, "", f"not valid JSON: {exc.msg}")]) from None
     except RecursionError:
-        raise InputError([Problem(file, None, None, "", f"nesting deeper than {MAX_DEPTH} levels")]) from None
+        raise InputError([Problem(file, 1, None, "", f"nesting deeper than {MAX_DEPTH} levels")]) from None
     except ValueError as exc:
-        raise InputError([Problem(file, None, None, "", f"not valid JSON: {exc}")]) from None
+        m = _JSON_CONSTANT.search(text)
+        line = text.count("\n", 0, m.start()) + 1 if m else 1
+        column = m.start() - text.rfind("\n", 0, m.start()) if m else None
+        raise InputError([Problem(file, line, column, "", f"not valid JSON: {exc}")]) from None
     keys, values, problems = _json_positions(text, file)
     if problems:
         raise InputError(problems)
