@@ -30,8 +30,8 @@ def fmt(value: float, unit: str = "", digits: int = 3) -> str:
 def pct(fraction: float, digits: int = 3) -> str:
     """A fraction as a percentage with ``digits`` significant figures: ``33.3 %``."""
     value = 100.0 * fraction
-    if value == 0 or not math.isfinite(value):
-        return f"{value:g} %"
+    if value == 0 or not math.isfinite(value) or abs(value) < 0.01:
+        return f"{value:.{digits}g} %"
     decimals = max(digits - 1 - int(math.floor(math.log10(abs(value)))), 0)
     return f"{value:.{decimals}f} %"
 

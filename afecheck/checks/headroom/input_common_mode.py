@@ -24,6 +24,8 @@ def check(ctx: Context) -> Iterator[Finding]:
     """Compare the lowest and highest input common mode with V− + dVcm_lo and V+ − dVcm_hi."""
     band = ctx.param("warn_band")
     for stage in ctx.stages:
+        if stage.feedback != "negative":
+            continue  # no linear operating range to judge: AFE204 reports the loop
         ext = cm_extremes(ctx, stage)
         if ext is None:
             yield not_evaluated(ctx, f"{stage.opamp} input common mode", stage_reason(stage, "no common-mode range"),
