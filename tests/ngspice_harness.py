@@ -17,7 +17,7 @@ import numpy as np
 import pytest
 
 from afecheck.analysis.macromodel import opamp_macromodel
-from afecheck.analysis.netlist import Element, OpAmpInstance
+from afecheck.analysis.netlist import Element, Netlist, OpAmpInstance
 from afecheck.parts.model import OpAmpModel
 
 NGSPICE = shutil.which("ngspice")
@@ -99,3 +99,35 @@ def read_raw(path: Path) -> dict[str, np.ndarray]:
     arr = raw.reshape(n_points, n_vars, per)
     values = arr[..., 0] + 1j * arr[..., 1] if complex_data else arr[..., 0]
     return {name: values[:, i] for i, name in enumerate(names)}
+
+
+def prefixed(netlist: Netlist, prefix: str) -> Netlist:
+    """A copy with every node (except ground) and element renamed ``prefix + name``, so copies share one deck."""
+    from dataclasses import fields, replace
+
+    from afecheck.analysis.netlist import GROUND
+
+    def n(x: str) -> str:
+        return x if x == GROUND else prefix + x
+
+    node_fields = ("a", "b", "pos", "neg", "cpos", "cneg")
+    out = []
+    for e in netlist.elements:
+        changes = {f.name: n(getattr(e, f.name)) for f in fields(e) if f.name in node_fields}
+        out.append(replace(e, name=prefix + e.name, **changes))
+    ops = {
+        prefix + ref: replace(op, refdes=prefix + ref, in_plus=n(op.in_plus), in_minus=n(op.in_minus), out=n(op.out),
+                              loop_element=prefix + op.loop_element)
+        for ref, op in netlist.opamps.items()
+    }
+    return Netlist(tuple(out), ops)
+
+
+def merged(netlists: list[Netlist]) -> Netlist:
+    """Independent netlists (already prefixed apart) as one netlist sharing only ground."""
+    elements: list[Element] = []
+    ops: dict[str, OpAmpInstance] = {}
+    for nl in netlists:
+        elements.extend(nl.elements)
+        ops.update(nl.opamps)
+    return Netlist(tuple(elements), ops)
