@@ -35,6 +35,7 @@ from afecheck.analysis.results import NetSignal, SourceEquivalent, StageInput, S
 from afecheck.analysis.sources import Divider, boundary_source, find_dividers
 from afecheck.errors import InputError, SingularCircuitError
 from afecheck.graph.build import Circuit
+from afecheck.graph.queries import has_dc_path
 from afecheck.graph.stages import Stage, StagePlan
 
 HF_FACTOR = 10.0
@@ -429,8 +430,11 @@ def _stage_result(circuit: Circuit, s: Stage, netlist: Netlist, system, inputs: 
         except np.linalg.LinAlgError:
             reasons.append("closed-loop output resistance: singular circuit")
 
+    floating = [pin for pin, net in (("in+", s.in_plus), ("in-", s.in_minus)) if not has_dc_path(circuit, net)]
+    for pin in floating:
+        reasons.append(f"{pin} has no DC path to a defined voltage with capacitors open (DC ranges not evaluated)")
     vpk = vac if vac > 0 else 0.5 * (vout_max - vout_min)
-    open_loop = fb != "negative"
+    open_loop = fb != "negative" or bool(floating)
     if open_loop:
         vpk = vac
     part = circuit.loaded.design.components[s.opamp].part  # type: ignore[union-attr]
@@ -438,8 +442,8 @@ def _stage_result(circuit: Circuit, s: Stage, netlist: Netlist, system, inputs: 
         opamp=s.opamp, part=part, topology=s.topology, refs=s.refs, in_plus=s.in_plus, in_minus=s.in_minus,
         out=s.out, group=s.group, inputs=tuple(stage_inputs),
         noise_gain_dc=_f(ng_dc), noise_gain_at_crossover=_f(ng_fc), noise_gain_hf=_f(ng_hf),
-        output_resistance=rout, vcm_min=float(lo[inp_i]) if inp_i >= 0 else 0.0,
-        vcm_max=float(hi[inp_i]) if inp_i >= 0 else 0.0, vout_min=None if open_loop else vout_min,
+        output_resistance=rout, vcm_min=None if floating or inp_i < 0 else float(lo[inp_i]),
+        vcm_max=None if floating or inp_i < 0 else float(hi[inp_i]), vout_min=None if open_loop else vout_min,
         vout_max=None if open_loop else vout_max,
         vout_ac_peak=vac, f_max=f_max, load_resistance=load_r, load_capacitance=load_c, iout_peak=iout_peak,
         feedback=fb, loop_gain_dc=_f(t_dc), crossover_hz=_f(fc), phase_margin_deg=_f(pm), gain_margin_db=_f(gm),
