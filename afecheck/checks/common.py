@@ -160,6 +160,15 @@ def ac_ground_nets(loaded: LoadedDesign) -> frozenset[str]:
     return frozenset(fixed)
 
 
+def rails_known(ctx: Context, opamp: str) -> bool:
+    """True when both supply pins of ``opamp`` sit on nets of known voltage (ground, a rail, or a source on one)."""
+    comp = ctx.loaded.design.components.get(opamp)
+    if comp is None or comp.kind != "opamp":
+        return False
+    fixed = ac_ground_nets(ctx.loaded)
+    return all(comp.pins.get(pin) in fixed for pin in ("v+", "v-"))
+
+
 def attached(loaded: LoadedDesign, net: str, kind: str | None = None) -> list[tuple[str, str]]:
     """(refdes, other net) for every two-pin component of ``kind`` with a pin on ``net``."""
     out: list[tuple[str, str]] = []

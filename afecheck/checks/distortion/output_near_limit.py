@@ -5,7 +5,7 @@ from __future__ import annotations
 from collections.abc import Iterator
 
 from afecheck.checks.common import finding as make_finding
-from afecheck.checks.common import fmt
+from afecheck.checks.common import fmt, rails_known
 from afecheck.checks.headroom.limits import swing
 from afecheck.engine.context import Context
 from afecheck.engine.finding import Finding, Severity
@@ -23,6 +23,8 @@ def check(ctx: Context) -> Iterator[Finding]:
     """Warn when the full-signal output extreme is inside the swing limit by less than the band."""
     band = ctx.param("band")
     for stage in ctx.stages:
+        if not rails_known(ctx, stage.opamp):
+            continue  # supply voltage unknown: AFE001 reports it
         s = swing(ctx, stage)
         if s is None:
             continue

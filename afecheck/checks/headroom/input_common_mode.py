@@ -5,7 +5,7 @@ from __future__ import annotations
 from collections.abc import Iterator
 
 from afecheck.checks.common import finding as make_finding
-from afecheck.checks.common import fmt, not_evaluated, part_value, stage_reason
+from afecheck.checks.common import fmt, not_evaluated, part_value, rails_known, stage_reason
 from afecheck.checks.headroom.limits import cm_extremes
 from afecheck.engine.context import Context
 from afecheck.engine.finding import Finding, Severity
@@ -24,6 +24,8 @@ def check(ctx: Context) -> Iterator[Finding]:
     """Compare the lowest and highest input common mode with V− + dVcm_lo and V+ − dVcm_hi."""
     band = ctx.param("warn_band")
     for stage in ctx.stages:
+        if not rails_known(ctx, stage.opamp):
+            continue  # supply voltage unknown: AFE001 reports it
         if stage.feedback != "negative":
             continue  # no linear operating range to judge: AFE204 reports the loop
         ext = cm_extremes(ctx, stage)

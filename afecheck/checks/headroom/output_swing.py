@@ -5,7 +5,7 @@ from __future__ import annotations
 from collections.abc import Iterator
 
 from afecheck.checks.common import finding as make_finding
-from afecheck.checks.common import fmt, not_evaluated, stage_reason
+from afecheck.checks.common import fmt, not_evaluated, rails_known, stage_reason
 from afecheck.checks.headroom.limits import swing
 from afecheck.engine.context import Context
 from afecheck.engine.finding import Finding, Severity
@@ -22,6 +22,8 @@ META = RuleMeta(
 def check(ctx: Context) -> Iterator[Finding]:
     """Error when the highest or lowest required output passes the swing limit (warning band: AFE405)."""
     for stage in ctx.stages:
+        if not rails_known(ctx, stage.opamp):
+            continue  # supply voltage unknown: AFE001 reports it
         if stage.feedback != "negative":
             continue  # no linear operating range to judge: AFE204 reports the loop
         s = swing(ctx, stage)
