@@ -33,7 +33,7 @@ def validation_problems(doc: Document, exc: ValidationError, model: type[BaseMod
             if "kind" in value:
                 path = path + ("kind",)
         message = _message(error, model)
-        leaf = not isinstance(value, (dict, list)) and value is not _MISSING
+        leaf = not isinstance(value, (dict, list)) and kind != "extra_forbidden"
         pos = doc.values.get(path) if leaf and path in doc.values else doc.where(path)
         line, column = pos if pos else (None, None)
         problems.append(Problem(doc.file, line, column, ".".join(str(p) for p in path), message))
