@@ -1,0 +1,80 @@
+"""The rule catalogue: every rule has a page in the fixed template, and its bad.yaml triggers exactly the
+findings it declares (``# expect:``) while its good.yaml triggers nothing. Read through importlib.resources,
+as an installed wheel would."""
+
+from __future__ import annotations
+
+import re
+from importlib import resources
+from pathlib import Path
+
+import pytest
+import yaml
+
+from afecheck.engine.registry import BUILTIN_RULES, default_registry, retired_ids
+from afecheck.engine.runner import run_rules
+from afecheck.model.load import load_design
+
+CATALOGUE = resources.files("afecheck._catalogue")
+SECTIONS = ["What it checks", "Why it matters", "Example", "Parameters", "Known limitations", "References"]
+METAS = default_registry().metas()
+WITH_EXAMPLES = [r.meta for r in BUILTIN_RULES]
+
+
+def page(meta) -> str:
+    return CATALOGUE.joinpath(meta.folder, "rule.md").read_text(encoding="utf-8")
+
+
+@pytest.mark.parametrize("meta", METAS, ids=lambda m: m.id)
+def test_rule_page_follows_the_template(meta) -> None:
+    text = page(meta)
+    assert text.splitlines()[0] == f"# {meta.id} {meta.slug}"
+    assert re.findall(r"^## (.+)$", text, flags=re.M) == SECTIONS
+    example = text.split("## Example", 1)[1].split("## Parameters", 1)[0]
+    assert example.index("Bad:") < example.index("Use instead:")
+    params = text.split("## Parameters", 1)[1].split("## Known limitations", 1)[0]
+    assert set(re.findall(r"`(\w+)`", params)) == {p.name for p in meta.params}
+
+
+def test_catalogue_folders_are_exactly_the_registered_rules() -> None:
+    folders = {p.name for p in CATALOGUE.iterdir() if p.is_dir() and re.match(r"AFE\d{3}-", p.name)}
+    assert folders == {m.folder for m in METAS}
+
+
+def test_ids_and_slugs_are_well_formed_unique_and_not_retired() -> None:
+    assert all(re.fullmatch(r"AFE\d{3}", m.id) and re.fullmatch(r"[a-z0-9]+(-[a-z0-9]+)+", m.slug) for m in METAS)
+    assert len({m.id for m in METAS}) == len({m.slug for m in METAS}) == len(METAS)
+    retired = yaml.safe_load(CATALOGUE.joinpath("retired.yaml").read_text(encoding="utf-8"))
+    assert isinstance(retired, list) and not set(retired_ids()) & {m.id for m in METAS}
+
+
+def expected(path: Path) -> set[str]:
+    line = next(ln for ln in path.read_text(encoding="utf-8").splitlines() if ln.startswith("# expect:"))
+    return set(line.split(":", 1)[1].split())
+
+
+@pytest.mark.parametrize("meta", WITH_EXAMPLES, ids=lambda m: m.id)
+def test_bad_example_triggers_its_rule(meta) -> None:
+    path = Path(str(CATALOGUE.joinpath(meta.folder, "bad.yaml")))
+    found = run_rules(load_design(path))
+    assert meta.id in expected(path)
+    assert {f.rule for f in found} == expected(path)
+    assert all(f.location.line for f in found if f.rule == meta.id)  # points at a line of the file
+
+
+@pytest.mark.parametrize("meta", WITH_EXAMPLES, ids=lambda m: m.id)
+def test_good_example_triggers_nothing(meta) -> None:
+    path = Path(str(CATALOGUE.joinpath(meta.folder, "good.yaml")))
+    assert run_rules(load_design(path)) == ()
+
+
+def test_explain_prints_every_page_by_id_and_by_slug() -> None:
+    import io
+
+    from afecheck.cli import main
+
+    for meta in METAS:
+        for key in (meta.id, meta.slug):
+            out = io.StringIO()
+            assert main(["explain", key], stdout=out, stderr=io.StringIO()) == 0
+            assert out.getvalue() == page(meta)
