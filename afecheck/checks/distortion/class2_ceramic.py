@@ -14,7 +14,7 @@ from afecheck.engine.rule import Param, RuleMeta
 from afecheck.model.schema import DIELECTRICS_CLASS2
 
 META = RuleMeta(
-    id="AFE406", slug="class-2-ceramic-in-signal-path", severity=Severity.WARNING, family="distortion",
+    id="AFE406", slug="class-2-ceramic-in-signal-path", severity=Severity.WARNING, family="distortion", needs=(),
     summary="class 2 ceramic capacitor with signal across it in a feedback, filter or coupling position",
     params=(Param("fraction", 0.01, "1", "capacitor voltage / signal voltage above which a warning is raised"),),
     fix="use a C0G/NP0 or film capacitor here; for coupling, make the capacitor large enough that little signal "
