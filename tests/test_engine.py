@@ -61,7 +61,7 @@ def boom(ctx):
     yield  # pragma: no cover - makes this a generator like every check
 
 
-BOOM = Rule(RuleMeta(id="AFE990", slug="always-crashes", severity=Severity.WARNING, summary="test", family="test"), boom)
+BOOM = Rule(RuleMeta(id="AFE990", slug="always-crashes", severity=Severity.WARNING, summary="t", family="t"), boom)
 
 
 def test_a_crashing_rule_becomes_a_finding_and_the_others_still_run() -> None:
