@@ -20,6 +20,7 @@ import yaml
 from afecheck.errors import InputError, Problem
 
 PathKey = tuple[str | int, ...]
+"""Mapping keys appear as strings (``"1"`` for a YAML ``1:`` key), list positions as ints."""
 Position = tuple[int, int]
 
 MAX_FILE_BYTES = 20 * 1024 * 1024
@@ -159,6 +160,11 @@ class _FatalError(Exception):
         self.problem = problem
 
 
+def _path_key(key: Any) -> str | _Marker:
+    """A mapping key as it stands in a key path: its text (YAML reads ``1:`` as an int; paths say ``"1"``)."""
+    return key if isinstance(key, _Marker) else str(key)
+
+
 def _mark(file: str, mark: Any, message: str, path: PathKey = ()) -> Problem:
     line = mark.line + 1 if mark is not None else None
     column = mark.column + 1 if mark is not None else None
@@ -233,7 +239,7 @@ class _YamlBuilder:
             return frame.path + (len(frame.value),)
         if frame.key is _NO_KEY:
             return None
-        return frame.path + (frame.key,)
+        return frame.path + (_path_key(frame.key),)
 
     def _attach(self, value: Any, path: PathKey, mark: Any, size: int) -> None:
         self.values[path] = (mark.line + 1, mark.column + 1)
@@ -259,7 +265,7 @@ class _YamlBuilder:
             raise _FatalError(
                 _mark(self.file, mark, "a mapping key must be a plain string or number", frame.path)) from None
         text = str(value)
-        path = frame.path + (value,)
+        path = frame.path + (_path_key(value),)
         if text in frame.seen:
             self.problems.append(_mark(
                 self.file, mark, f"duplicate key {text!r} (first at line {frame.seen[text]}); each name once",

@@ -31,7 +31,7 @@ def validation_problems(doc: Document, exc: ValidationError, model: type[BaseMod
         kind = error["type"]
         if kind in ("union_tag_invalid", "union_tag_not_found") and isinstance(value, dict):
             if "kind" in value:
-                path = path + ("kind",)
+                path, value = path + ("kind",), value["kind"]
         message = _message(error, model)
         leaf = not isinstance(value, (dict, list)) and kind != "extra_forbidden"
         pos = doc.values.get(path) if leaf and path in doc.values else doc.where(path)
@@ -41,7 +41,8 @@ def validation_problems(doc: Document, exc: ValidationError, model: type[BaseMod
 
 
 def data_path(data: Any, loc: tuple[str | int, ...]) -> tuple[PathKey, Any]:
-    """Map a pydantic ``loc`` onto the keys really present in ``data``; skip union tags and missing keys."""
+    """Map a pydantic ``loc`` onto the keys really present in ``data`` (as path strings); skip union tags and
+    missing keys. Returns the path and the value found there."""
     path: list[str | int] = []
     current = data
     for item in loc:
@@ -49,7 +50,7 @@ def data_path(data: Any, loc: tuple[str | int, ...]) -> tuple[PathKey, Any]:
             key = item if item in current else next((k for k in current if str(k) == str(item)), _MISSING)
             if key is _MISSING:
                 continue
-            path.append(key)
+            path.append(str(key))
             current = current[key]
         elif isinstance(current, list) and isinstance(item, int) and 0 <= item < len(current):
             path.append(item)
