@@ -27,7 +27,7 @@ class _Tty(io.StringIO):
 @pytest.fixture()
 def work(tmp_path, monkeypatch):
     """A folder holding copies of the fixtures, as the working directory, with the fake rules registered."""
-    monkeypatch.setattr("afecheck.engine.registry.default_registry", lambda: REGISTRY)
+    monkeypatch.setattr("afecheck.api._registry", lambda registry: registry or REGISTRY)
     monkeypatch.delenv("NO_COLOR", raising=False)
     for name in ("logger.yaml", "logger_new_defect.yaml", "mains_meter.yaml"):
         shutil.copy(GATE / name, tmp_path / name)
