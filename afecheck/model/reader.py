@@ -396,8 +396,8 @@ def _read_yaml(text: str, file: str) -> Document:
     return Document(file, builder.root, builder.keys, builder.values)
 
 
-_JSON_NUMBER = re.compile(r"-?(?:0|[1-9]\d*)(?:\.\d+)?(?:[eE][-+]?\d+)?")
-_JSON_WS = re.compile(r"[ \t\n\r]*")
+_JSON_TOKEN = re.compile(r'"(?:[^"\\]|\\.)*"|[{}\[\]:,]|[^\s{}\[\]:,"]+')
+_NEWLINE = re.compile(r"\n")
 _JSON_CONSTANT = re.compile(r"(?<![\"\w])(?:-?Infinity|NaN)(?![\"\w])")
 
 
@@ -425,8 +425,11 @@ def _read_json(text: str, file: str) -> Document:
 
 
 def _json_positions(text: str, file: str) -> tuple[dict[PathKey, Position], dict[PathKey, Position], list[Problem]]:
-    """Positions of keys and values in valid JSON ``text``; duplicate keys and over-deep nesting as problems."""
-    starts = [0] + [i + 1 for i, ch in enumerate(text) if ch == "\n"]
+    """Positions of keys and values in valid JSON ``text``; duplicate keys and over-deep nesting as problems.
+
+    Walks the tokens of text that ``json.loads`` has already accepted, so it only has to follow the structure.
+    """
+    starts = [0] + [m.end() for m in _NEWLINE.finditer(text)]
 
     def pos(i: int) -> Position:
         line = bisect.bisect_right(starts, i)
@@ -435,68 +438,48 @@ def _json_positions(text: str, file: str) -> tuple[dict[PathKey, Position], dict
     keys: dict[PathKey, Position] = {}
     values: dict[PathKey, Position] = {}
     problems: list[Problem] = []
-    # stack of [kind, path, count or seen-dict]
+    # one frame per open container: [path, is_object, next index (arrays) or seen keys (objects)]
     stack: list[list[Any]] = []
-    i = _JSON_WS.match(text, 0).end()
-    path: PathKey = ()
-    while True:
-        values[path] = pos(i)
-        ch = text[i]
-        if ch in "{[":
+    here: PathKey = ()
+    want_key = False
+    for token in _JSON_TOKEN.finditer(text):
+        t = token.group()
+        c = t[0]
+        if c == ":" or c == ",":
+            if c == "," and stack:
+                frame = stack[-1]
+                if frame[1]:
+                    want_key = True
+                else:
+                    frame[2] += 1
+                    here = frame[0] + (frame[2],)
+            continue
+        if c == "}" or c == "]":
+            stack.pop()
+            want_key = False
+            continue
+        if want_key:
+            key = json.loads(t) if "\\" in t else t[1:-1]
+            frame = stack[-1]
+            here = frame[0] + (key,)
+            line, column = pos(token.start())
+            if key in frame[2]:
+                problems.append(Problem(file, line, column, ".".join(map(str, here)),
+                                        f"duplicate key {key!r} (first at line {frame[2][key]}); each name once"))
+            else:
+                frame[2][key] = line
+                keys[here] = (line, column)
+            want_key = False
+            continue
+        values[here] = pos(token.start())
+        if c == "{" or c == "[":
             if len(stack) >= MAX_DEPTH:
-                line, column = pos(i)
+                line, column = values[here]
                 problems.append(Problem(file, line, column, "", f"nesting deeper than {MAX_DEPTH} levels"))
                 return keys, values, problems
-            stack.append(["{" if ch == "{" else "[", path, {} if ch == "{" else 0])
-            i = _JSON_WS.match(text, i + 1).end()
-            if text[i] in "}]":
-                i += 1
-                stack.pop()
-            else:
-                path = _json_next(text, i, stack, keys, problems, file, pos)
-                i = _JSON_WS.match(text, _json_after_key(text, i, stack)).end()
-                continue
-        elif ch == '"':
-            _, i = json.decoder.scanstring(text, i + 1)
-        elif ch in "tfn":
-            i += 4 if text.startswith(("true", "null"), i) else 5
-        else:
-            i = _JSON_NUMBER.match(text, i).end()
-        while stack:
-            i = _JSON_WS.match(text, i).end()
-            if text[i] == ",":
-                i = _JSON_WS.match(text, i + 1).end()
-                path = _json_next(text, i, stack, keys, problems, file, pos)
-                i = _JSON_WS.match(text, _json_after_key(text, i, stack)).end()
-                break
-            i += 1
-            stack.pop()
-        else:
-            return keys, values, problems
-
-
-def _json_next(text: str, i: int, stack: list[list[Any]], keys: dict, problems: list[Problem], file: str,
-               pos: Any) -> PathKey:
-    """Path of the next member of the innermost container (recording its key) starting at ``i``."""
-    kind, base, state = stack[-1]
-    if kind == "[":
-        stack[-1][2] = state + 1
-        return base + (state,)
-    key, _ = json.decoder.scanstring(text, i + 1)
-    line, column = pos(i)
-    if key in state:
-        problems.append(Problem(file, line, column, ".".join(map(str, base + (key,))),
-                                f"duplicate key {key!r} (first at line {state[key]}); each name once"))
-    else:
-        state[key] = line
-        keys[base + (key,)] = (line, column)
-    return base + (key,)
-
-
-def _json_after_key(text: str, i: int, stack: list[list[Any]]) -> int:
-    """Index of the value of the member starting at ``i`` (past ``"key":`` in an object)."""
-    if stack[-1][0] == "[":
-        return i
-    _, end = json.decoder.scanstring(text, i + 1)
-    end = _JSON_WS.match(text, end).end()
-    return end + 1
+            is_object = c == "{"
+            stack.append([here, is_object, {} if is_object else 0])
+            want_key = is_object
+            if not is_object:
+                here = here + (0,)
+    return keys, values, problems
