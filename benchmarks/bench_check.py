@@ -95,7 +95,7 @@ def _phases(path: Path) -> dict:
     return json.loads(proc.stdout.strip().splitlines()[-1])
 
 
-def _spice(path: Path, work: Path) -> tuple[float | None, str]:
+def _spice(path: Path, work: Path, klu: bool = False) -> tuple[float | None, str]:
     """Wall time of ngspice on the design's deck (operating point + 201-point AC sweep), or why not."""
     ngspice = shutil.which("ngspice")
     if ngspice is None:
@@ -106,7 +106,8 @@ def _spice(path: Path, work: Path) -> tuple[float | None, str]:
         return None, f"afecheck spice unavailable: {reason[:100]}"
     deck = re.sub(r"(?ims)^\.control\b.*?^\.endc\b.*?$", "", proc.stdout)
     deck = re.sub(r"(?im)^\.end\s*$", "", deck).rstrip()
-    deck += f"\n.control\nop\n{AC_SWEEP}\nquit\n.endc\n.end\n"
+    options = ".options klu\n" if klu else ""
+    deck += f"\n{options}.control\nop\n{AC_SWEEP}\nquit\n.endc\n.end\n"
     cir = work / f"{path.stem}.cir"
     cir.write_text(deck, encoding="utf-8")
     t0 = time.perf_counter()
@@ -124,6 +125,7 @@ def main(argv: list[str] | None = None) -> int:
     p.add_argument("--repeat", type=int, default=3, help="end-to-end runs per size (the fastest is kept)")
     p.add_argument("--format", choices=["json", "yaml"], default="json")
     p.add_argument("--no-spice", action="store_true", help="skip the ngspice comparison")
+    p.add_argument("--klu", action="store_true", help="ask ngspice for its KLU sparse solver (.options klu)")
     p.add_argument("--phases-of", help=argparse.SUPPRESS)
     args = p.parse_args(argv)
     if args.phases_of:
@@ -155,7 +157,7 @@ def main(argv: list[str] | None = None) -> int:
                 v = ph.get(key)
                 return "n/a" if v is None else f"{v:.3f}"
 
-            spice_s, why = (None, "skipped") if args.no_spice else _spice(design, work)
+            spice_s, why = (None, "skipped") if args.no_spice else _spice(design, work, args.klu)
             if spice_s is None or why != "ok":
                 notes.append(f"N={n}: ngspice: {why}")
             ratio = f"{wall / spice_s:.1f}" if spice_s else "n/a"

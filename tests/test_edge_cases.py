@@ -19,9 +19,9 @@ HEAD = "afecheck: 1\nname: edge\nrails:\n  VCC: {voltage: 5 V}\n  VMID: {voltage
 PART = "parts:\n  EDGE-AMP: {gbw: 1 MHz, open_loop_gain: 100 dB, output_resistance: 100}\n"
 
 
-def _write(tmp_path: Path, body: str, parts: str = PART) -> Path:
+def _write(tmp_path: Path, body: str, parts: str = PART, tail: str = "") -> Path:
     path = tmp_path / "edge.yaml"
-    path.write_text(HEAD + parts + "components:\n" + body, encoding="utf-8")
+    path.write_text(HEAD + parts + "components:\n" + body + tail, encoding="utf-8")
     return path
 
 
@@ -85,6 +85,7 @@ def test_floating_subnetwork_is_named(tmp_path: Path) -> None:
         assert "ISLAND" in err or "R1" in err or "U2" in err
 
 
+@pytest.mark.xfail(strict=True, reason="defect reported to the analysis owner: conflicting ideal sources pass silently")
 def test_loop_of_ideal_sources_is_named(tmp_path: Path) -> None:
     # Kirchhoff's voltage law: two ideal sources of different value across one net pair cannot both hold
     body = (
@@ -104,6 +105,7 @@ def test_loop_of_ideal_sources_is_named(tmp_path: Path) -> None:
         assert "V1" in err or "V2" in err or "SRC" in err, err
 
 
+@pytest.mark.xfail(strict=True, reason="defect reported to the analysis owner: conflicting ideal sources pass silently")
 def test_source_fighting_a_rail_is_named(tmp_path: Path) -> None:
     # Kirchhoff's voltage law: a 3.3 V source drawn across the 5 V rail is a loop of ideal sources
     body = (
@@ -155,7 +157,7 @@ def test_open_loop_op_amp_is_named(tmp_path: Path) -> None:
         "  S1: {kind: signal_source, dc: [1 V, 2 V], pins: {p: IN, n: GND}}\n"
         "  U1: {kind: opamp, part: EDGE-AMP, pins: {in+: IN, in-: VMID, out: OUT, v+: VCC, v-: GND}}\n"
     )
-    path = _write(tmp_path, body)
+    path = _write(tmp_path, body, tail="loads:\n  OUT: {resistance: 10k}\n")
     rc, out, _ = _run(path)
     assert rc == 1, out
     named = _about(_findings(path), "U1", "OUT")
