@@ -12,6 +12,8 @@ import time
 from pathlib import Path
 
 import pytest
+from hypothesis import given, settings
+from hypothesis import strategies as st
 
 from afecheck.cli import main
 from afecheck.errors import InputError
@@ -335,3 +337,24 @@ def test_cli_exits_2_and_names_file_and_line(tmp_path: Path, text: str, line: in
     assert rc == 2
     assert f"{path}:{line}:" in err.getvalue()
     assert "Traceback" not in err.getvalue()
+
+
+# -- anything at all -------------------------------------------------------------------------------------------
+
+_FRAGMENTS = ["afecheck: 1\n", "components:\n", "  R1: {kind: resistor, value: 4k7, pins: {1: A, 2: B}}\n",
+              "rails: {VCC: {voltage: 5 V}}\n", "&a ", "*a ", "!!python/object ", "[", "]", "{", "}", ": ", "- ",
+              "\t", "\x00", "\ufeff", "'", '"', "#", "---\n", "<<: ", "1e999", ".nan", "ON", "\\u0000"]
+
+
+@settings(max_examples=100, deadline=None)
+@given(st.lists(st.sampled_from(_FRAGMENTS) | st.text(max_size=8), max_size=25), st.sampled_from([".yaml", ".json"]))
+def test_any_text_loads_or_gives_input_errors_with_lines(tmp_path_factory: pytest.TempPathFactory, parts: list[str],
+                                                         suffix: str) -> None:
+    # property (common practice for input readers): no input ever escapes as anything but InputError
+    path = tmp_path_factory.mktemp("any") / f"d{suffix}"
+    path.write_bytes("".join(parts).encode("utf-8", "surrogatepass"))
+    try:
+        load_design(path)
+    except InputError as exc:
+        assert exc.problems
+        assert all(p.file == str(path) and p.line is not None and p.line >= 1 for p in exc.problems)
