@@ -174,7 +174,7 @@ def _mark(file: str, mark: Any, message: str, path: PathKey = ()) -> Problem:
 class _Frame:
     """A mapping or sequence being built."""
 
-    __slots__ = ("value", "path", "key", "anchor", "seen", "size")
+    __slots__ = ("value", "path", "key", "anchor", "seen", "size", "log")
 
     def __init__(self, value: dict | list, path: PathKey, anchor: str | None):
         self.value = value
@@ -183,6 +183,7 @@ class _Frame:
         self.anchor = anchor
         self.seen: dict[str, int] = {}
         self.size = 1
+        self.log: list[tuple[bool, PathKey, Position]] = []
 
 
 class _Marker:
@@ -209,7 +210,8 @@ class _YamlBuilder:
         self.keys: dict[PathKey, Position] = {}
         self.values: dict[PathKey, Position] = {}
         self.problems: list[Problem] = []
-        self.anchors: dict[str, tuple[Any, int, PathKey]] = {}
+        self.anchors: dict[str, tuple[Any, int, list[tuple[bool, PathKey, Position]]]] = {}
+        self.recording: list[_Frame] = []
         self.aliases = 0
         self.alias_nodes = 0
         self.stack: list[_Frame] = []
@@ -230,6 +232,12 @@ class _YamlBuilder:
         elif isinstance(event, (yaml.MappingEndEvent, yaml.SequenceEndEvent)):
             self._end()
 
+    def _record(self, is_key: bool, path: PathKey, pos: Position) -> None:
+        """Store a key's or value's position, and log it in every open anchored container (for its aliases)."""
+        (self.keys if is_key else self.values)[path] = pos
+        for frame in self.recording:
+            frame.log.append((is_key, path[len(frame.path):], pos))
+
     def _path_for_child(self, mark: Any) -> PathKey | None:
         """Path of the node starting now, or None when it is a mapping key."""
         if not self.stack:
@@ -242,7 +250,7 @@ class _YamlBuilder:
         return frame.path + (_path_key(frame.key),)
 
     def _attach(self, value: Any, path: PathKey, mark: Any, size: int) -> None:
-        self.values[path] = (mark.line + 1, mark.column + 1)
+        self._record(False, path, (mark.line + 1, mark.column + 1))
         if not self.stack:
             self.root = value
             return
@@ -274,7 +282,7 @@ class _YamlBuilder:
             return
         frame.seen[text] = mark.line + 1
         frame.key = value
-        self.keys[path] = (mark.line + 1, mark.column + 1)
+        self._record(True, path, (mark.line + 1, mark.column + 1))
 
     def _scalar(self, event: yaml.ScalarEvent) -> None:
         tag = event.tag
@@ -308,7 +316,7 @@ class _YamlBuilder:
             self._take_key(value, mark)
             return
         if anchor is not None:
-            self.anchors[anchor] = (value, size, path)
+            self.anchors[anchor] = (value, size, [])
         self._attach(value, path, mark, size)
 
     def _alias(self, event: yaml.AliasEvent) -> None:
@@ -318,7 +326,7 @@ class _YamlBuilder:
         if event.anchor not in self.anchors:
             raise _FatalError(_mark(self.file, event.start_mark,
                               f"alias *{event.anchor} refers to no complete anchor &{event.anchor} before it"))
-        value, size, source = self.anchors[event.anchor]
+        value, size, log = self.anchors[event.anchor]
         self.alias_nodes += size
         if self.alias_nodes > MAX_ALIAS_NODES:
             raise _FatalError(_mark(self.file, event.start_mark,
@@ -327,12 +335,9 @@ class _YamlBuilder:
         if path is None:
             self._take_key(value, event.start_mark)
             return
-        if isinstance(value, (dict, list)):
-            n = len(source)
-            for table in (self.keys, self.values):
-                copied = {path + p[n:]: pos for p, pos in table.items() if p[:n] == source and len(p) > n}
-                table.update(copied)
         self._attach(value, path, event.start_mark, size)
+        for is_key, relative, pos in log:
+            self._record(is_key, path + relative, pos)
 
     def _start(self, event: yaml.CollectionStartEvent) -> None:
         is_map = isinstance(event, yaml.MappingStartEvent)
@@ -346,13 +351,17 @@ class _YamlBuilder:
         if len(self.stack) >= MAX_DEPTH:
             raise _FatalError(_mark(self.file, event.start_mark, f"nesting deeper than {MAX_DEPTH} levels"))
         value: dict | list = {} if is_map else []
-        self.values[path] = (event.start_mark.line + 1, event.start_mark.column + 1)
-        self.stack.append(_Frame(value, path, event.anchor))
+        self._record(False, path, (event.start_mark.line + 1, event.start_mark.column + 1))
+        frame = _Frame(value, path, event.anchor)
+        self.stack.append(frame)
+        if event.anchor is not None:
+            self.recording.append(frame)
 
     def _end(self) -> None:
         frame = self.stack.pop()
         if frame.anchor is not None:
-            self.anchors[frame.anchor] = (frame.value, frame.size, frame.path)
+            self.recording.pop()
+            self.anchors[frame.anchor] = (frame.value, frame.size, frame.log)
         if not self.stack:
             self.root = frame.value
             return
