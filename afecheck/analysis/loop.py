@@ -189,7 +189,8 @@ def _refine_brackets(probe: LoopProbe, brackets: list[_Bracket]) -> dict[str, tu
     """Narrow every bracket together: each round solves a sub-grid of every bracket in one batched solve.
 
     After the rounds the root is interpolated linearly in ln f on the last sub-interval (about 1e-4 decade
-    wide: relative error in f of order 1e-8, far below the figures' precision). Returns kind -> (f, |T|, unwrapped phase in degrees).
+    wide: relative error in f of order 1e-8, far below the figures' precision).
+    Returns kind -> (f, |T|, unwrapped phase in degrees).
     """
     if not brackets:
         return {}
