@@ -106,7 +106,7 @@ class Document:
     def problem(self, path: PathKey, message: str) -> Problem:
         """A Problem at ``path`` in this file."""
         pos = self.where(path)
-        line, column = pos if pos else (None, None)
+        line, column = pos if pos else (1, None)
         return Problem(self.file, line, column, ".".join(str(p) for p in path), message)
 
 
