@@ -229,7 +229,14 @@ def test_missing_referenced_file_is_named(tmp_path: Path) -> None:
     design = write(tmp_path, "d.yaml", "afecheck: 1\nintent: nowhere.yaml\n")
     with pytest.raises(InputError) as info:
         load_design(design)
-    assert problems_of(info) == [f"{tmp_path / 'nowhere.yaml'}: no such file"]
+    assert problems_of(info) == [f"{design}:2:1: intent: no such file '{tmp_path / 'nowhere.yaml'}'"]
+
+
+def test_missing_command_line_files_are_named(tmp_path: Path) -> None:
+    design = write(tmp_path, "d.yaml", "afecheck: 1\n")
+    with pytest.raises(InputError) as info:
+        load_design(design, intent=tmp_path / "i.yaml", libraries=(tmp_path / "lib.yaml",))
+    assert problems_of(info) == [f"{tmp_path / 'i.yaml'}: no such file", f"{tmp_path / 'lib.yaml'}: no such file"]
 
 
 def test_yaml_1_1_words_stay_net_names(tmp_path: Path) -> None:

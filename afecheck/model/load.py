@@ -101,7 +101,7 @@ def _same(a: Path, b: Path) -> bool:
 
 
 def _inside(folder: Path, text: str, doc: Document, key: PathKey, problems: list[Problem]) -> Path | None:
-    """``folder/text`` if it stays inside the design file's folder; else a problem at ``key``."""
+    """``folder/text`` if it is a file inside the design file's folder; else a problem at ``key``."""
     if Path(text).is_absolute() or text.startswith(("/", "\\")) or _WINDOWS_DRIVE.match(text):
         problems.append(doc.problem(key, f"absolute path {text!r} refused: give a path relative to the design "
                                          "file's folder"))
@@ -114,6 +114,9 @@ def _inside(folder: Path, text: str, doc: Document, key: PathKey, problems: list
     if escaped:
         problems.append(doc.problem(key, f"path {text!r} leads outside the design file's folder; referenced files "
                                          "must lie in that folder or below it"))
+        return None
+    if not target.is_file():
+        problems.append(doc.problem(key, f"no such file {str(target)!r}"))
         return None
     return target
 
