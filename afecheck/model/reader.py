@@ -51,6 +51,8 @@ except ImportError:  # PyYAML built without libyaml: the pure-Python parser give
             yaml.reader.Reader.__init__(self, stream)
             yaml.scanner.Scanner.__init__(self)
             yaml.parser.Parser.__init__(self)
+
+
 # YAML 1.1 reads yes/no/on/off as booleans, 1:30 as base 60 and 010 as octal; a net called ON must stay a
 # name, so plain scalars keep a non-string meaning only in the spellings YAML 1.2 also gives them.
 _YAML12 = {
@@ -119,7 +121,8 @@ def read_file(path: Path, display: str | None = None) -> Document:
             raise InputError([Problem(name, None, None, "", "not a regular file")])
         if size > MAX_FILE_BYTES:
             raise InputError([Problem(name, 1, None, "", f"file is {size} bytes; the limit is {MAX_FILE_BYTES}")])
-        raw = path.read_bytes()
+        with path.open("rb") as stream:
+            raw = stream.read(MAX_FILE_BYTES + 1)  # the file may have grown since stat()
     except FileNotFoundError:
         raise InputError([Problem(name, None, None, "", "no such file")]) from None
     except OSError as exc:
@@ -160,13 +163,29 @@ class _FatalError(Exception):
         self.problem = problem
 
 
+class _Marker:
+    """A sentinel that prints as its name inside key paths."""
+
+    def __init__(self, name: str):
+        self.name = name
+
+    def __repr__(self) -> str:
+        return self.name
+
+    __str__ = __repr__
+
+
+_NO_KEY = _Marker("(no key)")
+_DUPLICATE = _Marker("(duplicate)")
+
+
 def _path_key(key: Any) -> str | _Marker:
     """A mapping key as it stands in a key path: its text (YAML reads ``1:`` as an int; paths say ``"1"``)."""
     return key if isinstance(key, _Marker) else str(key)
 
 
 def _mark(file: str, mark: Any, message: str, path: PathKey = ()) -> Problem:
-    line = mark.line + 1 if mark is not None else None
+    line = mark.line + 1 if mark is not None else 1
     column = mark.column + 1 if mark is not None else None
     return Problem(file, line, column, ".".join(str(p) for p in path), message)
 
@@ -184,22 +203,6 @@ class _Frame:
         self.seen: dict[str, int] = {}
         self.size = 1
         self.log: list[tuple[bool, PathKey, Position]] = []
-
-
-class _Marker:
-    """A sentinel that prints as its name inside key paths."""
-
-    def __init__(self, name: str):
-        self.name = name
-
-    def __repr__(self) -> str:
-        return self.name
-
-    __str__ = __repr__
-
-
-_NO_KEY = _Marker("(no key)")
-_DUPLICATE = _Marker("(duplicate)")
 
 
 class _YamlBuilder:
