@@ -9,6 +9,7 @@ HELP = "print the documentation of one rule"
 
 
 def add_arguments(p: argparse.ArgumentParser) -> None:
+    """Command-line options of this command."""
     p.add_argument("rule", metavar="RULE", help="rule id (AFE201) or slug (phase-margin-below-limit)")
 
 
@@ -21,6 +22,7 @@ def rule_page(folder: str) -> str | None:
 
 
 def run(args: argparse.Namespace, stdout: TextIO, stderr: TextIO) -> int:
+    """Print to ``stdout``; unknown input raises InputError (exit 2 in the CLI)."""
     from afecheck.engine.registry import default_registry
     from afecheck.errors import InputError, Problem
 

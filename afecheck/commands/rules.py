@@ -9,10 +9,12 @@ HELP = "list every rule with id, slug, severity and one line"
 
 
 def add_arguments(p: argparse.ArgumentParser) -> None:
+    """Command-line options of this command."""
     p.add_argument("--family", help="only rules of this family (loading, stability, headroom, distortion, ...)")
 
 
 def run(args: argparse.Namespace, stdout: TextIO, stderr: TextIO) -> int:
+    """Print to ``stdout``; unknown input raises InputError (exit 2 in the CLI)."""
     from afecheck.engine.registry import default_registry
     from afecheck.errors import InputError, Problem
 

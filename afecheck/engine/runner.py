@@ -29,6 +29,8 @@ def run_rules(loaded: LoadedDesign, **options: Any) -> tuple[Finding, ...]:
     params = options.pop("params", None) or {}
     overrides = options.pop("severity_overrides", None) or {}
     analysis = options.pop("analysis", None)
+    if options:
+        raise TypeError(f"run_rules() got unexpected options: {', '.join(sorted(options))}")
     problems: list[Problem] = []
     rules = _selected(registry, select, problems)
     bound = _bound_params(registry, params, problems)
