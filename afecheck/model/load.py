@@ -32,38 +32,15 @@ def load_design(
         raise InputError([doc.problem((), "the top level must be a mapping that starts with 'afecheck: 1'")])
     design = validate(doc, Design)
     problems: list[Problem] = []
-    folder = path.parent
-
-    intent_paths: list[Path] = []
-    if design.intent is not None:
-        inside = _inside(folder, design.intent, doc, ("intent",), problems)
-        if inside is not None:
-            intent_paths.append(inside)
-    if intent is not None and not any(_same(Path(intent), p) for p in intent_paths):
-        intent_paths.append(Path(intent))
-    intents = [_collect(problems, _read_intent, p) for p in intent_paths]
-
-    groups: list[list[PartEntry]] = [builtin_entries()]
-    lib_paths: list[Path] = []
-    for i, text in enumerate(design.part_libraries):
-        inside = _inside(folder, text, doc, ("part_libraries", i), problems)
-        if inside is not None:
-            lib_paths.append(inside)
-    lib_paths += [Path(p) for p in libraries]
-    unique: list[Path] = []
-    for p in lib_paths:
-        if not any(_same(p, q) for q in unique):
-            unique.append(p)
-    for p in unique:
-        groups.append(_collect(problems, read_library, p, str(p)) or [])
+    intents = _intent_documents(design, doc, intent, problems)
+    groups = _library_groups(design, doc, libraries, problems)
     if problems:
         raise InputError(problems)
-
     inline = [PartEntry(name, model, doc.file, *doc.keys.get(("parts", name), (None, None)))
               for name, model in design.parts.items()]
     parts = combine(groups, inline)
     positions = _positions(doc)
-    design = _merge_intent(design, doc, [i for i in intents if i is not None], positions, problems)
+    design = _merge_intent(design, doc, intents, positions, problems)
     if problems:
         raise InputError(problems)
 
@@ -80,8 +57,40 @@ def load_design(
         parts=parts.models,
         positions=positions,
         part_origins=parts.origins,
-        intent_files=tuple(str(p) for p in intent_paths),
+        intent_files=tuple(d.file for d, _ in intents),
     )
+
+
+def _intent_documents(design: Design, doc: Document, intent: str | Path | None,
+                      problems: list[Problem]) -> list[tuple[Document, Intent]]:
+    """The intent files named by the design's ``intent:`` key and by ``intent`` (one file read once)."""
+    paths: list[Path] = []
+    if design.intent is not None:
+        inside = _inside(Path(doc.file).parent, design.intent, doc, ("intent",), problems)
+        if inside is not None:
+            paths.append(inside)
+    if intent is not None and not any(_same(Path(intent), p) for p in paths):
+        paths.append(Path(intent))
+    read = [_collect(problems, _read_intent, p) for p in paths]
+    return [r for r in read if r is not None]
+
+
+def _library_groups(design: Design, doc: Document, libraries: tuple[str | Path, ...],
+                    problems: list[Problem]) -> list[list[PartEntry]]:
+    """Part entries in precedence order: built-ins, the design's ``part_libraries:``, then ``libraries``."""
+    paths: list[Path] = []
+    for i, text in enumerate(design.part_libraries):
+        inside = _inside(Path(doc.file).parent, text, doc, ("part_libraries", i), problems)
+        if inside is not None:
+            paths.append(inside)
+    unique: list[Path] = []
+    for p in paths + [Path(lib) for lib in libraries]:
+        if not any(_same(p, q) for q in unique):
+            unique.append(p)
+    groups: list[list[PartEntry]] = [builtin_entries()]
+    for p in unique:
+        groups.append(_collect(problems, read_library, p, str(p)) or [])
+    return groups
 
 
 def _collect(problems: list[Problem], fn: Callable, *args: object) -> object:
