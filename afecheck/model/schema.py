@@ -7,6 +7,7 @@ unknown keys, so a typo in a design file is an input error, never a silently ign
 
 from __future__ import annotations
 
+import datetime
 from typing import Annotated, Literal, Union
 
 from pydantic import BaseModel, BeforeValidator, ConfigDict, Field, WithJsonSchema, field_validator, model_validator
@@ -65,10 +66,26 @@ DIELECTRICS_CLASS2 = ("X7R", "X5R", "X6S", "X7S", "X8R", "X7T", "Y5V", "Z5U", "Y
 DIELECTRICS_OTHER = ("electrolytic", "tantalum", "unknown")
 
 
+class InlineWaiver(_Strict):
+    """A finding accepted in the design file itself: the rule (id or slug), why, who, and until when.
+
+    On a component it accepts that rule's findings naming the component; at the top level, the findings
+    naming every listed ref and net. The review policy (afecheck.policy) applies it; analysis ignores it.
+    """
+
+    rule: str = Field(min_length=1)
+    refs: tuple[str, ...] = ()
+    nets: tuple[NetName, ...] = ()
+    justification: str = Field(min_length=1)
+    accepted_by: str = Field(min_length=1, alias="accepted-by")
+    expires: datetime.date | None = None
+
+
 class _Component(_Strict):
     pins: Pins
     tolerance: Tolerance | None = None
     description: str | None = None
+    waive: tuple[InlineWaiver, ...] = ()
 
 
 def _split_code_tolerance(data: object, unit: str) -> object:
@@ -231,3 +248,4 @@ class Design(_Strict):
     signals: dict[NetName, Signal] = {}
     loads: dict[NetName, Load] = {}
     budgets: dict[NetName, Budget] = {}
+    waive: tuple[InlineWaiver, ...] = ()
