@@ -7,7 +7,7 @@ tests/test_fuzz_long.py runs many thousands under the ``slow`` mark.
 from __future__ import annotations
 
 from hypothesis import HealthCheck, given, settings
-from tools.fuzzing import damaged_texts, mutated_samples, random_designs, run_check
+from tools.fuzzing import damaged_bytes, damaged_texts, mutated_samples, random_designs, run_check
 
 FAST = settings(max_examples=120, deadline=None, derandomize=True, suppress_health_check=[HealthCheck.too_slow])
 
@@ -27,6 +27,12 @@ def test_random_designs_never_crash(case: tuple[str, str]) -> None:
 @settings(FAST, max_examples=80)
 @given(damaged_texts())
 def test_damaged_text_never_crashes(case: tuple[str, str]) -> None:
+    run_check(*case)
+
+
+@settings(FAST, max_examples=40)
+@given(damaged_bytes())
+def test_damaged_bytes_never_crash(case: tuple[bytes, str]) -> None:
     run_check(*case)
 
 

@@ -40,6 +40,7 @@ HOSTILE_VALUES: tuple[Any, ...] = (
 )
 NET_NAMES = ("GND", "VCC", "VREF", "VMID", "IN", "OUT", "N1", "N2", "Ω-net", "неть", "网", "💧", "a b", "")
 SPLICES = ("{", "}", "[", ":", "- ", "\t", "'", '"', "&a", "*a", "!!python/object:os.system", "\n  ", "💥", "\x00")
+BAD_BYTES = (b"\xff", b"\xfe\xff", b"\xef\xbb\xbf", b"\x00", b"\xc3", b"\xed\xa0\x80")
 TEXTS = st.text(st.characters(blacklist_categories=("Cs",)), min_size=0, max_size=12)
 
 
@@ -171,6 +172,17 @@ def random_designs(draw: st.DrawFn) -> tuple[str, str]:
 
 
 @st.composite
+def damaged_bytes(draw: st.DrawFn) -> tuple[bytes, str]:
+    """A sample file's bytes with random bytes spliced in (invalid UTF-8, BOMs, NULs), or pure noise."""
+    if draw(st.booleans()):
+        return draw(st.binary(max_size=400)), draw(st.sampled_from((".yaml", ".json", ".yml", "")))
+    data = draw(st.sampled_from(SAMPLES)).read_bytes()
+    pos = draw(st.integers(0, len(data)))
+    noise = draw(st.sampled_from(BAD_BYTES) | st.binary())
+    return data[:pos] + noise + data[pos:], ".yaml"
+
+
+@st.composite
 def damaged_texts(draw: st.DrawFn) -> tuple[str, str]:
     """A sample file's text cut short, with characters inserted or lines dropped or repeated."""
     path = draw(st.sampled_from(SAMPLES))
@@ -212,7 +224,7 @@ def _str_keys(data: Any) -> Any:
     return data
 
 
-def run_check(text: str, suffix: str, extra: tuple[str, ...] = ()) -> tuple[int, str, str]:
+def run_check(text: str | bytes, suffix: str, extra: tuple[str, ...] = ()) -> tuple[int, str, str]:
     """Run ``afecheck check`` in-process on ``text``; fail with the input shown on any exception.
 
     Returns (exit status, stdout, stderr). Exit 2 must name the file with a line number.
@@ -221,7 +233,10 @@ def run_check(text: str, suffix: str, extra: tuple[str, ...] = ()) -> tuple[int,
 
     with tempfile.TemporaryDirectory(prefix="afefuzz-") as tmp:
         path = Path(tmp) / f"design{suffix}"
-        path.write_text(text, encoding="utf-8", errors="surrogatepass")
+        if isinstance(text, bytes):
+            path.write_bytes(text)
+        else:
+            path.write_text(text, encoding="utf-8", errors="surrogatepass")
         out, err = io.StringIO(), io.StringIO()
         try:
             rc = main(["check", *extra, str(path)], stdout=out, stderr=err)
