@@ -86,3 +86,12 @@ def test_output_extremes_include_the_ac_peak_and_the_low_side() -> None:
 def test_output_current_thresholds(i: float, expected: Severity | None) -> None:
     found = run(output_current, design(), [stage(iout_peak=i)])  # limit 20 mA, 50 % warning [CP] R3
     assert [f.severity for f in found] == ([] if expected is None else [expected])
+
+
+def test_rail_tolerance_narrows_common_mode_and_swing_limits() -> None:
+    # worst-case rails (RULES-REFERENCE R3 inputs: rails min/max over tolerance): 5 V - 5 % = 4.75 V [DER]
+    loaded = design(rails={"VCC": {"voltage": 5.0, "tolerance": "5%"}})
+    [f] = run(input_common_mode, loaded, [stage(vcm_min=1.0, vcm_max=3.3)])
+    assert f.ctx["limit"] == pytest.approx(4.75 - 1.5) and f.severity == Severity.ERROR
+    [g] = run(output_swing, loaded, [stage(vout_min=1.0, vout_max=4.7, iout_peak=0.0)])
+    assert g.ctx["limit"] == pytest.approx(4.75 - 0.1)

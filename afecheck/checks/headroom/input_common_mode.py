@@ -6,7 +6,7 @@ from collections.abc import Iterator
 
 from afecheck.checks.common import finding as make_finding
 from afecheck.checks.common import fmt, not_evaluated, part_value, rails_known, stage_reason
-from afecheck.checks.headroom.limits import cm_extremes
+from afecheck.checks.headroom.limits import cm_extremes, worst_rails
 from afecheck.engine.context import Context
 from afecheck.engine.finding import Finding, Severity
 from afecheck.engine.rule import Param, RuleMeta
@@ -38,16 +38,17 @@ def check(ctx: Context) -> Iterator[Finding]:
         d_hi, a_hi = part_value(ctx, stage.opamp, "input_cm_high")
         if d_lo is None or d_hi is None:
             continue
+        v_minus, v_plus = worst_rails(ctx, stage)
         sides = (
-            ("highest", hi, stage.rail_plus - d_hi, stage.rail_plus - d_hi - hi, a_hi, "above"),
-            ("lowest", lo, stage.rail_minus + d_lo, lo - (stage.rail_minus + d_lo), a_lo, "below"),
+            ("highest", hi, v_plus - d_hi, v_plus - d_hi - hi, a_hi, "above"),
+            ("lowest", lo, v_minus + d_lo, lo - (v_minus + d_lo), a_lo, "below"),
         )
         for name, value, limit, margin, assumed, beyond in sides:
             if margin >= band:
                 continue
             severity = Severity.ERROR if margin < 0 else Severity.WARNING
             state = f"{fmt(-margin, 'V')} {beyond}" if margin < 0 else f"only {fmt(margin, 'V')} inside"
-            rails = f"{fmt(stage.rail_minus, 'V')}..{fmt(stage.rail_plus, 'V')}"
+            rails = f"{fmt(v_minus, 'V')}..{fmt(v_plus, 'V')} at their tolerance"
             text = (f"{stage.opamp} {name} input common mode {fmt(value, 'V')} is {state} its limit "
                     f"{fmt(limit, 'V')} (part {stage.part}, rails {rails})")
             yield make_finding(

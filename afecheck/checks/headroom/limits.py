@@ -13,6 +13,18 @@ if TYPE_CHECKING:
     from afecheck.engine.context import Context
 
 
+def worst_rails(ctx: Context, stage: StageResult) -> tuple[float, float]:
+    """(V−, V+) moved toward each other by each rail's declared tolerance: the least headroom the supply gives."""
+    comp = ctx.loaded.design.components.get(stage.opamp)
+    rails = ctx.loaded.design.rails
+
+    def tol(pin: str) -> float:
+        rail = rails.get(comp.pins.get(pin, "")) if comp is not None else None
+        return rail.tolerance if rail is not None else 0.0
+
+    return stage.rail_minus + abs(stage.rail_minus) * tol("v-"), stage.rail_plus - abs(stage.rail_plus) * tol("v+")
+
+
 def in_plus_ac(ctx: Context, stage: StageResult) -> float:
     """AC amplitude on the non-inverting input net (0 when the analysis has none for it)."""
     sig = ctx.analysis.nets.get(stage.in_plus)
@@ -55,7 +67,7 @@ class Swing:
 
 
 def swing(ctx: Context, stage: StageResult) -> Swing | None:
-    """Swing limits: V+ − Vdrop_hi − Rsat·I and V− + Vdrop_lo + Rsat·I at the required extremes."""
+    """Swing limits: V+ − Vdrop_hi − Rsat·I and V− + Vdrop_lo + Rsat·I at the required extremes (worst-case rails)."""
     ext = output_extremes(stage)
     if ext is None:
         return None
@@ -65,6 +77,7 @@ def swing(ctx: Context, stage: StageResult) -> Swing | None:
     r_sat, a3 = part_value(ctx, stage.opamp, "output_sat_resistance")
     if d_hi is None or d_lo is None or r_sat is None:
         return None
-    high_limit = stage.rail_plus - d_hi - r_sat * output_current(stage, hi)
-    low_limit = stage.rail_minus + d_lo + r_sat * output_current(stage, lo)
+    v_minus, v_plus = worst_rails(ctx, stage)
+    high_limit = v_plus - d_hi - r_sat * output_current(stage, hi)
+    low_limit = v_minus + d_lo + r_sat * output_current(stage, lo)
     return Swing(low_limit, high_limit, lo, hi, a1 + a2 + a3)
