@@ -30,7 +30,7 @@ def test_capacitive_load_named_as_the_cause_with_its_pole() -> None:
     assert f.severity == Severity.ERROR and f.ctx["cause"] == "load"
     assert f.ctx["cause_hz"] == pytest.approx(1.592e6, rel=1e-3)
     assert f.message.startswith("U1 phase margin 15.4° at 3.82 MHz (limit 45°): 1.00 nF load on OUT with 100 Ω")
-    assert "pole at 1.59 MHz" in f.message and "isolation resistor" in f.fix
+    assert "pole at 1.59 MHz" in f.message and f.fix.startswith("100 Ω isolation resistor")
 
 
 def test_input_capacitance_named_with_the_neutralising_capacitor() -> None:
@@ -115,3 +115,10 @@ def test_integrator_without_dc_path_warns_and_with_resistor_is_silent() -> None:
     assert f.severity == Severity.WARNING and f.location.refs[0] == "C1"
     shunt = cap | {"R2": {"kind": "resistor", "value": 1e6, "pins": {1: "INM", 2: "OUT"}}}
     assert run(feedback_sign, design(shunt), [stage(topology="integrator")]) == []
+
+
+@pytest.mark.parametrize(("ro", "riso"), [(100.0, 100.0), (80.0, 82.0), (250.0, 100.0), (3.0, 10.0), (50.0, 47.0)])
+def test_isolation_resistor_suggestion_is_an_e12_value_near_ro(ro: float, riso: float) -> None:
+    from afecheck.checks.stability.causes import isolation_resistor
+
+    assert isolation_resistor(ro) == pytest.approx(riso)  # [IEC60063] E12 values; Riso ≈ Ro common practice

@@ -14,6 +14,19 @@ if TYPE_CHECKING:
     from afecheck.engine.context import Context
 
 STRAY_CAPACITANCE = 1e-12  # per node, RULES-REFERENCE 0.3 [CP]
+E12 = (1.0, 1.2, 1.5, 1.8, 2.2, 2.7, 3.3, 3.9, 4.7, 5.6, 6.8, 8.2)  # IEC 60063
+
+
+def isolation_resistor(ro: float) -> float:
+    """Suggested isolation resistor: the E12 value nearest the open-loop output resistance, kept within 10..100 Ω.
+
+    Riso ≈ Ro puts the zero 1/(2π·Riso·CL) about an octave above the load pole (RULES-REFERENCE R2(e): Ro = 100 Ω,
+    Riso = 100 Ω restores 72° of phase margin); common practice.
+    """
+    target = min(max(ro, 10.0), 100.0)
+    decade = 10.0 ** math.floor(math.log10(target))
+    candidates = [v * decade for v in E12] + [10.0 * decade]
+    return min(candidates, key=lambda v: abs(math.log(v / target)))
 
 
 @dataclass(frozen=True)
@@ -37,7 +50,8 @@ def load_pole(ctx: Context, stage: StageResult) -> Cause | None:
     f = 1.0 / (2.0 * math.pi * ro * cl)
     text = (f"{fmt(cl, 'F')} load on {stage.out} with {fmt(ro, 'Ω')} open-loop output resistance adds a pole at "
             f"{fmt(f, 'Hz')}")
-    fix = f"isolation resistor of 10..100 Ω between {stage.opamp} and the load, or feedback from the load side"
+    fix = (f"{fmt(isolation_resistor(ro), 'Ω', 2)} isolation resistor between {stage.opamp} output and the load, "
+           "or feedback from the load side")
     return Cause("load", f, text, fix, (stage.opamp,), assumed)
 
 
