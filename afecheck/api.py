@@ -104,6 +104,31 @@ def stage_finder(loaded: LoadedDesign):
     return stage_of, tuple(opamps)
 
 
+def inline_waivers(loaded: LoadedDesign, catalogue: Any) -> tuple[WaiverNote, ...]:
+    """Waivers written in the design (``waive:`` on a component or at the top level), rules resolved by id or slug;
+    an unknown rule is an input error at the waiver's line."""
+    d = loaded.design
+    found: list[tuple[tuple, tuple[str, ...], Any]] = [(("waive", i), (), w) for i, w in enumerate(d.waive)]
+    for ref, comp in d.components.items():
+        found += [(("components", ref, "waive", i), (ref,), w) for i, w in enumerate(comp.waive)]
+    out: list[WaiverNote] = []
+    problems: list[Problem] = []
+    for path, own, w in found:
+        file, line, column = loaded.position(*path, "rule")
+        meta = catalogue.find(w.rule)
+        if meta is None:
+            problems.append(Problem(file, line, column, ".".join(map(str, (*path, "rule"))),
+                                    f"unknown rule {w.rule!r}; `afecheck rules` lists every id and slug"))
+            continue
+        refs = tuple(dict.fromkeys((*own, *w.refs)))
+        out.append(WaiverNote(fingerprint="", justification=w.justification, accepted_by=w.accepted_by,
+                              expires=None if w.expires is None else w.expires.isoformat(), rule=meta.id,
+                              file=file, line=line, refs=refs, nets=tuple(w.nets)))
+    if problems:
+        raise InputError(problems)
+    return tuple(out)
+
+
 def _registry(registry: Any):
     if registry is not None:
         return registry
@@ -159,6 +184,7 @@ def review_files(
     used: set[str] = set()
     expired: dict[str, WaiverNote] = {}
     levels: set[str] = set()
+    inline_all: list[WaiverNote] = []
     for path in paths:
         try:
             cfg = Path(config) if config is not None else (discover_config(path) if discover else None)
@@ -169,7 +195,9 @@ def review_files(
             levels.add(policy.fail_on)
             loaded = load_design(path, intent=intent, libraries=libraries)
             findings = promote(run_rules(loaded, registry=reg, **policy.run_options(runnable)), policy.promote)
-            waivers = cli_waivers + waivers_of(policy.waiver_files)
+            inline = inline_waivers(loaded, catalogue)
+            inline_all.extend(inline)
+            waivers = cli_waivers + waivers_of(policy.waiver_files) + inline
         except InputError as exc:
             problems.extend(exc.problems)
             continue
@@ -179,8 +207,8 @@ def review_files(
         review = classify(findings, waivers, mine, today, stage_of)
         used |= review.used
         for w in waivers:
-            if w.fingerprint in review.expired:
-                expired.setdefault(w.fingerprint, w)
+            if w.key in review.expired:
+                expired.setdefault(w.key, w)
         designs.append(DesignResult(
             file=loaded.file, name=name, hazards=tuple(loaded.design.hazards), entries=review.entries,
             stages=opamps, ruleset=policy.ruleset, config=policy.config,
@@ -189,8 +217,8 @@ def review_files(
     if problems:
         raise InputError(problems)
     level = fail_on or min(levels or {"error"}, key=_FAIL_ORDER.index)
-    all_waivers = {w.fingerprint: w for ws in waiver_cache.values() for w in ws}
-    unused = tuple(sorted((w for fp, w in all_waivers.items() if fp not in used),
+    all_waivers = {w.key: w for w in (*(w for ws in waiver_cache.values() for w in ws), *inline_all)}
+    unused = tuple(sorted((w for key, w in all_waivers.items() if key not in used),
                           key=lambda w: (w.file, w.line or 0)))
     return Report(
         designs=tuple(designs),

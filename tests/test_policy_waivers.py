@@ -121,3 +121,44 @@ def test_waiver_naming_another_rule_does_not_apply():
     w = WaiverNote(f.fingerprint, "j", "a", rule="TST102")
     review = classify([f], [w], today=TODAY)
     assert review.entries[0].status == "open" and not review.used
+
+
+def _inline_design(tmp: Path, component_waive: str, top_waive: str = "") -> Path:
+    text = (GATE / "logger.yaml").read_text(encoding="utf-8")
+    text = text.replace("pins: {1: IN, 2: INM}}", "pins: {1: IN, 2: INM},\n      waive: [" + component_waive + "]}")
+    p = tmp / "inline.yaml"
+    p.write_text(text + top_waive, encoding="utf-8")
+    return p
+
+
+def test_inline_component_waiver_waives_that_rule_on_that_part(tmp_path):
+    design = _inline_design(tmp_path, "{rule: resistor-below-minimum, justification: sets the LED current, "
+                                      "accepted-by: B. Designer, expires: 2027-01-31}")
+    report = review_files([design], registry=REGISTRY, today=TODAY, discover=False)
+    statuses = {e.finding.rule: e.status for e in report.entries()}
+    assert statuses == {"TST101": "waived", "TST102": "open", "TST103": "open"}
+    w = next(e.waiver for e in report.entries() if e.status == "waived")
+    assert (w.rule, w.refs, w.file, w.line) == ("TST101", ("R1",), str(design), 11)
+    later = review_files([design], registry=REGISTRY, today=dt.date(2027, 2, 1), discover=False)
+    assert next(e for e in later.entries() if e.finding.rule == "TST101").status == "open"
+    assert [w.label for w in later.expired_waivers] == ["TST101 on R1"]
+
+
+def test_inline_top_level_waiver_and_unused_inline_waiver(tmp_path):
+    top = ("waive:\n  - {rule: TST102, refs: [C1], justification: decoupling only, accepted-by: B. Designer}\n"
+           "  - {rule: TST103, refs: [U9], justification: stale, accepted-by: B. Designer}\n")
+    design = _inline_design(tmp_path, "{rule: TST102, justification: wrong rule here, accepted-by: C}", top)
+    report = review_files([design], registry=REGISTRY, today=TODAY, discover=False)
+    assert {e.finding.rule: e.status for e in report.entries()} == {"TST101": "open", "TST102": "waived",
+                                                                     "TST103": "open"}
+    assert sorted(w.label for w in report.unused_waivers) == ["TST102 on R1", "TST103 on U9"]
+
+
+def test_inline_waiver_with_unknown_rule_is_an_input_error_at_its_line(tmp_path):
+    from afecheck.errors import InputError
+
+    design = _inline_design(tmp_path, "{rule: TST404, justification: j, accepted-by: a}")
+    with pytest.raises(InputError) as info:
+        review_files([design], registry=REGISTRY, today=TODAY, discover=False)
+    p = info.value.problems[0]
+    assert "unknown rule 'TST404'" in p.message and p.file == str(design) and p.line == 11

@@ -19,7 +19,7 @@ class Review:
     """The outcome of classifying one design's findings."""
 
     entries: tuple[Entry, ...]
-    used: frozenset[str]
+    used: frozenset[str]  # WaiverNote.key of every waiver that matched a finding
     expired: frozenset[str]
 
 
@@ -30,32 +30,28 @@ def classify(
     today: dt.date | None = None,
     stage_of: Callable[[Finding], str] = lambda f: "",
 ) -> Review:
-    """Statuses for ``findings``: waived if a live waiver matches, else unchanged/new against ``baseline``
+    """Statuses for ``findings``: waived if an unexpired waiver matches, else unchanged/new against ``baseline``
     (matched as a multiset of fingerprints), else open; baseline records not found come back as "fixed"."""
     today = today or dt.date.today()
-    by_fp: dict[str, WaiverNote] = {}
-    for w in waivers:
-        by_fp.setdefault(w.fingerprint, w)
     remaining = Counter(b.fingerprint for b in baseline) if baseline is not None else Counter()
     entries: list[Entry] = []
     used: set[str] = set()
     expired: set[str] = set()
     for f in findings:
         fp = f.fingerprint
-        w = by_fp.get(fp)
-        if w is not None and w.rule is not None and w.rule != f.rule:
-            w = None
+        live = [w for w in waivers if w.matches(f)]
+        w = next((x for x in live if not is_expired(x, today)), live[0] if live else None)
         in_baseline = remaining[fp] > 0
         if in_baseline:
             remaining[fp] -= 1
         if w is not None and not is_expired(w, today):
-            used.add(fp)
+            used.add(w.key)
             entries.append(Entry(f, "waived", stage_of(f), waiver=w))
             continue
         lapsed = None
         if w is not None:
-            used.add(fp)
-            expired.add(fp)
+            used.add(w.key)
+            expired.add(w.key)
             lapsed = w
         status = "open" if baseline is None else ("unchanged" if in_baseline else "new")
         entries.append(Entry(f, status, stage_of(f), expired_waiver=lapsed))

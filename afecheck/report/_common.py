@@ -47,5 +47,6 @@ def expired_text(w: WaiverNote) -> str:
 
 
 def unused_text(w: WaiverNote) -> str:
-    rule = f" ({w.rule})" if w.rule else ""
-    return f"{w.file}:{w.line or 0}: waiver {w.fingerprint}{rule} matches no finding; remove it or fix its fingerprint"
+    rule = f" ({w.rule})" if w.rule and w.fingerprint else ""
+    what = "fingerprint" if w.fingerprint else "rule and names"
+    return f"{w.file}:{w.line or 0}: waiver {w.label}{rule} matches no finding; remove it or fix its {what}"

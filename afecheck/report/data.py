@@ -33,6 +33,28 @@ class WaiverNote:
     rule: str | None = None
     file: str = ""
     line: int | None = None
+    refs: tuple[str, ...] = ()
+    nets: tuple[str, ...] = ()
+
+    @property
+    def key(self) -> str:
+        """Identity for bookkeeping: the fingerprint, or where an inline waiver is written."""
+        return self.fingerprint or f"{self.file}:{self.line}:{self.rule}:{','.join(self.refs)}:{','.join(self.nets)}"
+
+    @property
+    def label(self) -> str:
+        """How reports name the waiver: its fingerprint, or its rule and names for an inline waiver."""
+        if self.fingerprint:
+            return self.fingerprint
+        names = ", ".join((*self.refs, *self.nets))
+        return f"{self.rule} on {names}" if names else f"{self.rule}"
+
+    def matches(self, finding: Finding) -> bool:
+        """Fingerprint waivers match that fingerprint; inline ones match the rule and every listed name."""
+        if self.fingerprint:
+            return self.fingerprint == finding.fingerprint and self.rule in (None, finding.rule)
+        loc = finding.location
+        return (self.rule == finding.rule and set(self.refs) <= set(loc.refs) and set(self.nets) <= set(loc.nets))
 
 
 @dataclass(frozen=True)

@@ -30,8 +30,11 @@ def jsonable(value: Any) -> Any:
 
 def waiver_dict(w: WaiverNote) -> dict[str, Any]:
     return {
-        "fingerprint": w.fingerprint,
+        "fingerprint": w.fingerprint or None,
         "rule": w.rule,
+        "refs": list(w.refs),
+        "nets": list(w.nets),
+        "inline": not w.fingerprint,
         "justification": w.justification,
         "accepted_by": w.accepted_by,
         "expires": w.expires,

@@ -56,7 +56,7 @@ def render_markdown(report: Report) -> str:
         if group:
             out += ["<details>", f"<summary>{len(group)} {title}</summary>", ""]
             out += _table(group, with_note=True) + ["", "</details>", ""]
-    notes = [f"- expired waiver `{w.fingerprint}` ({w.file}:{w.line or 0}, expired {w.expires}): finding re-opened"
+    notes = [f"- expired waiver `{_cell(w.label)}` ({w.file}:{w.line or 0}, expired {w.expires}): finding re-opened"
              for w in report.expired_waivers]
     notes += [f"- {_cell(unused_text(w))}" for w in report.unused_waivers]
     if notes:

@@ -133,11 +133,11 @@ def sarif_dict(report: Report) -> dict[str, Any]:
     results = [_result(e, rule_index, artifact_index, report) for e in report.entries() if e.status != "fixed"]
     execution = [_notification(c, "warning", "hazard-caution") for c in cautions(report.hazards())]
     configuration = [
-        _notification(f"waiver {w.fingerprint} expired on {w.expires}; its finding is open again", "warning",
+        _notification(f"waiver {w.label} expired on {w.expires}; its finding is open again", "warning",
                       "waiver-expired", w.file, w.line)
         for w in report.expired_waivers
     ] + [
-        _notification(f"waiver {w.fingerprint} matches no finding", "note", "waiver-unused", w.file, w.line)
+        _notification(f"waiver {w.label} matches no finding", "note", "waiver-unused", w.file, w.line)
         for w in report.unused_waivers
     ]
     invocation: dict[str, Any] = {"executionSuccessful": True}

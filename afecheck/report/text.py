@@ -49,7 +49,7 @@ def render_text(report: Report, color: bool = False) -> str:
                 out.extend(_entry_lines(entry, color))
         out.append("")
     for w in report.expired_waivers:
-        out.append(f"{w.file}:{w.line or 0}: note: waiver {w.fingerprint} expired on {w.expires}")
+        out.append(f"{w.file}:{w.line or 0}: note: waiver {w.label} expired on {w.expires}")
     for w in report.unused_waivers:
         out.append(f"{unused_text(w)}")
     out.append("afecheck: " + summary_line(report))
