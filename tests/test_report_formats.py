@@ -205,3 +205,14 @@ def test_rule_help_text_comes_from_rule_md_sections():
     md = "# AFE999 demo\n\n## What it checks\n\nThe phase margin\nof each stage.\n\nMore.\n\n## Why it matters\n\nX\n"
     assert _section(md, "What it checks") == "The phase margin of each stage."
     assert _section(md, "Known limitations") == ""
+
+
+def test_sarif_help_text_is_plain_and_markdown_kept():
+    from afecheck.report.sarif import sarif_dict
+
+    rule = RuleInfo("TST101", "resistor-below-minimum", Severity.ERROR, "small", "test", "full",
+                    "# TST101 title\n\n## What it checks\n\nText.\n\n```yaml\nR1: {}\n```\n")
+    report = Report(designs=(DesignResult("x.yaml", "d"),), rules=(rule,))
+    desc = sarif_dict(report)["runs"][0]["tool"]["driver"]["rules"][0]
+    assert desc["help"]["markdown"].startswith("# TST101")
+    assert desc["help"]["text"] == "TST101 title\n\nWhat it checks\n\nText.\n\nR1: {}"

@@ -86,7 +86,7 @@ def add_arguments(p: argparse.ArgumentParser) -> None:
     add_policy_arguments(p)
     p.add_argument("--fail-on", choices=["error", "warning", "info", "never"],
                    help="lowest severity that fails the run with exit 1 (default: config, rule set, else error)")
-    p.add_argument("-f", "--format", dest="format", action=_FormatAction, choices=FORMATS,
+    p.add_argument("-f", "--format", dest="format", action=_FormatAction, choices=FORMATS, metavar="FMT",
                    help="report format (repeatable): " + ", ".join(FORMATS) + "; default text")
     p.add_argument("-o", "--output", dest="output", action=_FormatAction, metavar="PATH",
                    help="write the preceding --format to PATH (atomically) instead of standard output")

@@ -30,15 +30,25 @@ def file_uri(path: str) -> str:
     return quote(posix, safe="/-._~!$&'()*+,;=:@")
 
 
+def plain_text(markdown: str) -> str:
+    """Markdown as plain text for SARIF ``help.text``: heading marks and code fences dropped, text kept."""
+    lines = []
+    for line in markdown.splitlines():
+        if line.lstrip().startswith("```"):
+            continue
+        lines.append(line.lstrip("#").strip() if line.startswith("#") else line)
+    return "\n".join(lines).strip()
+
+
 def _descriptor(rule: RuleInfo) -> dict[str, Any]:
     full = rule.description or rule.summary
-    help_md = rule.help or full
+    help_md = rule.help or full or rule.slug
     d: dict[str, Any] = {
         "id": rule.id,
         "name": rule.slug,
         "shortDescription": {"text": rule.summary or rule.slug},
         "fullDescription": {"text": full or rule.slug},
-        "help": {"text": help_md, "markdown": help_md},
+        "help": {"text": plain_text(help_md), "markdown": help_md},
         "defaultConfiguration": {"level": LEVELS[rule.severity]},
         "properties": {"tags": [rule.family] if rule.family else []},
     }
