@@ -122,3 +122,8 @@ def test_isolation_resistor_suggestion_is_an_e12_value_near_ro(ro: float, riso: 
     from afecheck.checks.stability.causes import isolation_resistor
 
     assert isolation_resistor(ro) == pytest.approx(riso)  # [IEC60063] E12 values; Riso ≈ Ro common practice
+
+
+def test_analysis_assumptions_are_named_by_refdes_and_make_the_result_estimated() -> None:
+    [f] = run(phase_margin, design(), [stage(phase_margin_deg=40.0, assumed=("second_pole", "output_resistance"))])
+    assert f.assumed == ("U1.output_resistance", "U1.second_pole") and f.severity == Severity.WARNING

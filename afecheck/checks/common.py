@@ -136,6 +136,11 @@ _DEFAULTED = frozenset({
 })
 
 
+def stage_assumed(stage: StageResult) -> tuple[str, ...]:
+    """The analysis's assumed macromodel parameters of ``stage``, named ``<refdes>.<parameter>`` like part_value's."""
+    return tuple(a if "." in a else f"{stage.opamp}.{a}" for a in stage.assumed)
+
+
 def stage_reason(stage: StageResult, default: str) -> str:
     """The analysis's own reason a stage number is missing, else ``default``."""
     return "; ".join(stage.not_evaluated) if stage.not_evaluated else default

@@ -5,7 +5,7 @@ from __future__ import annotations
 import math
 from collections.abc import Iterator
 
-from afecheck.checks.common import db, fmt, grade_below, not_evaluated, pct, stage_reason
+from afecheck.checks.common import db, fmt, grade_below, not_evaluated, pct, stage_assumed, stage_reason
 from afecheck.checks.common import finding as make_finding
 from afecheck.engine.context import Context
 from afecheck.engine.finding import Finding, Severity
@@ -49,6 +49,6 @@ def check(ctx: Context) -> Iterator[Finding]:
         yield make_finding(
             ctx, severity, value=t_db, limit=limit, unit="dB", margin=t_db - limit,
             limit_source="rule parameter (RULES-REFERENCE R4c, common practice)", message=text, fix=META.fix,
-            refs=(stage.opamp,), nets=(stage.out,), assumed=stage.assumed, estimated=stage.estimated,
+            refs=(stage.opamp,), nets=(stage.out,), assumed=stage_assumed(stage), estimated=stage.estimated,
             extra={"loop_gain": abs(t), "f_max": stage.f_max, "amplitude_error": ae},
         )

@@ -5,7 +5,7 @@ from __future__ import annotations
 from collections.abc import Iterator
 
 from afecheck.checks.common import finding as make_finding
-from afecheck.checks.common import grade_below
+from afecheck.checks.common import grade_below, stage_assumed
 from afecheck.engine.context import Context
 from afecheck.engine.finding import Finding, Severity
 from afecheck.engine.rule import Param, RuleMeta
@@ -38,5 +38,5 @@ def check(ctx: Context) -> Iterator[Finding]:
         yield make_finding(
             ctx, severity, value=gm, limit=limit, unit="dB", margin=gm - limit,
             limit_source="rule parameter (RULES-REFERENCE R2, common practice)", message=text, fix=META.fix,
-            refs=(stage.opamp,), nets=(stage.out,), assumed=stage.assumed, estimated=stage.estimated,
+            refs=(stage.opamp,), nets=(stage.out,), assumed=stage_assumed(stage), estimated=stage.estimated,
         )
