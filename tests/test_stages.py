@@ -98,3 +98,12 @@ loads: {OUT2: {resistance: 10k}}
     plan = find_stages(build_circuit(load_design(path)))
     assert plan.units == (("U1",), ("U2",))
     assert plan.stages["U2"].upstream == ("U1",)
+
+
+def test_inputs_name_the_series_parts_from_source_to_pin():
+    a = analyse(load_design(FIXTURES / "topologies.yaml"))
+    via = {(s.opamp, i.net): i.via for s in a.stages for i in s.inputs}
+    assert via[("UK", "SC")] == ("RK1", "RK2")  # Sallen-Key: both series resistors, source side first
+    assert via[("UM", "SA")] == ("RM1", "RM3")  # multiple feedback: input resistor, then the one into in-
+    assert via[("UI", "SB")] == ("RI1",)
+    assert via[("UN", "SA")] == ()  # wired straight to in+

@@ -372,8 +372,8 @@ def _stage_result(circuit: Circuit, s: Stage, netlist: Netlist, system, inputs: 
         ideal = g_nom / v_nom if v_nom != 0 else g_nom
         i_nom = float(-x_unit[k, j])
         rin = abs(v_nom / i_nom) if i_nom != 0 else math.inf
-        via = tuple(sorted(r for r, _ in circuit.net_pins.get(inp.source.net, ()) if r in s.refs
-                           and r not in inp.source.refs))
+        via = _series_path(circuit, inp.source.net, s.in_plus if inp.pin == "in+" else s.in_minus,
+                           frozenset(s.refs) - frozenset(inp.source.refs), s.out)
         stage_inputs.append(StageInput(
             net=inp.source.net, pin=inp.pin, source=inp.source, via=via, gain=g_nom + 0.0,
             ideal_gain=float(ideal) + 0.0,
@@ -444,13 +444,43 @@ def _stage_result(circuit: Circuit, s: Stage, netlist: Netlist, system, inputs: 
         noise_gain_dc=_f(ng_dc), noise_gain_at_crossover=_f(ng_fc), noise_gain_hf=_f(ng_hf),
         output_resistance=rout, vcm_min=None if floating or inp_i < 0 else float(lo[inp_i]),
         vcm_max=None if floating or inp_i < 0 else float(hi[inp_i]), vout_min=None if open_loop else vout_min,
-        vout_max=None if open_loop else vout_max,
-        vout_ac_peak=vac, f_max=f_max, load_resistance=load_r, load_capacitance=load_c, iout_peak=iout_peak,
+        vout_max=None if open_loop else vout_max, iout_peak=None if open_loop else iout_peak,
+        vout_ac_peak=vac, f_max=f_max, load_resistance=load_r, load_capacitance=load_c,
         feedback=fb, loop_gain_dc=_f(t_dc), crossover_hz=_f(fc), phase_margin_deg=_f(pm), gain_margin_db=_f(gm),
         loop_gain_at_fmax=_f(t_fmax), required_slew_rate=float(2 * math.pi * f_max * vpk),
         rail_plus=vp, rail_minus=vm, assumed=tuple(op.assumed), estimated="second_pole" in op.assumed,
         not_evaluated=tuple(reasons),
     )
+
+
+def _series_path(circuit: Circuit, start: str, goal: str, refs: frozenset[str], out: str) -> tuple[str, ...]:
+    """Parts along the shortest path of stage parts from a source net to an op-amp pin, in order from the source.
+
+    The path does not pass through fixed nets, signal nets or the op-amp's output; empty when the source is on
+    the pin's own net or no such path exists.
+    """
+    if start == goal:
+        return ()
+    prev: dict[str, tuple[str, str] | None] = {start: None}
+    queue = [start]
+    for net in queue:
+        if net != start and (net in circuit.fixed or net in circuit.signal_nets or net == out):
+            continue
+        for ref, _pin in circuit.net_pins.get(net, ()):
+            if ref not in refs:
+                continue
+            for nxt in circuit.pins[ref].values():
+                if nxt not in prev:
+                    prev[nxt] = (net, ref)
+                    if nxt == goal:
+                        path = []
+                        step = prev[nxt]
+                        while step is not None:
+                            path.append(step[1])
+                            step = prev[step[0]]
+                        return tuple(reversed(path))
+                    queue.append(nxt)
+    return ()
 
 
 def _f(v: float | None) -> float | None:
