@@ -9,7 +9,7 @@ from __future__ import annotations
 from hypothesis import HealthCheck, given, settings
 from tools.fuzzing import damaged_bytes, damaged_texts, mutated_samples, random_designs, run_check
 
-FAST = settings(max_examples=120, deadline=None, derandomize=True, suppress_health_check=[HealthCheck.too_slow])
+FAST = settings(max_examples=100, deadline=None, derandomize=True, suppress_health_check=[HealthCheck.too_slow])
 
 
 @FAST
@@ -18,13 +18,13 @@ def test_mutated_samples_never_crash(case: tuple[str, str]) -> None:
     run_check(*case)
 
 
-@settings(FAST, max_examples=100)
+@settings(FAST, max_examples=80)
 @given(random_designs())
 def test_random_designs_never_crash(case: tuple[str, str]) -> None:
     run_check(*case)
 
 
-@settings(FAST, max_examples=80)
+@settings(FAST, max_examples=60)
 @given(damaged_texts())
 def test_damaged_text_never_crashes(case: tuple[str, str]) -> None:
     run_check(*case)
