@@ -124,7 +124,7 @@ def _collect_inputs(
     for net in boundary:
         if net in seen or net == circuit.ground or circuit.opamp_outputs.get(net) in unit:
             continue
-        touching = {r for r, _ in circuit.net_pins.get(net, ()) if r in side_refs and r not in legs}
+        touching = any(net in circuit.pins[r].values() for r in side_refs if r not in legs)
         if net in circuit.fixed and not touching and not any(net in (s.in_plus, s.in_minus) for s in stages):
             continue
         owner = circuit.opamp_outputs.get(net)
@@ -411,10 +411,14 @@ def _stage_result(circuit: Circuit, s: Stage, netlist: Netlist, system, inputs: 
             fc, pm, gm = lg.crossover_hz, lg.phase_margin_deg, lg.gain_margin_db
             ng_dc = lg.noise_gain_dc
             ng_dc = abs(ng_dc) if ng_dc is not None else None
-            ng_fc = lg.noise_gain_at(fc) if fc else None
-            ng_hf = lg.noise_gain_at(HF_FACTOR * max(op.open_loop_gain * op.pole1_hz, op.pole2_hz))
+            f_hf = HF_FACTOR * max(op.open_loop_gain * op.pole1_hz, op.pole2_hz)
+            probe = np.array([f_hf, fc or f_hf, f_max if f_max > 0 else f_hf])
+            t_probe = lg.at(probe)
+            ng = np.abs(op.open_loop_response(probe) / t_probe)
+            ng_hf = float(ng[0])
+            ng_fc = float(ng[1]) if fc else None
             if f_max > 0:
-                t_fmax = lg.magnitude_at(f_max)
+                t_fmax = float(abs(t_probe[2]))
             if fc is None:
                 reasons.append("no crossover: |T| never falls through 1 on the grid")
     except SingularCircuitError as exc:
@@ -461,14 +465,16 @@ def _series_path(circuit: Circuit, start: str, goal: str, refs: frozenset[str], 
     """
     if start == goal:
         return ()
+    around: dict[str, list[str]] = {}
+    for ref in sorted(refs):
+        for net in circuit.pins[ref].values():
+            around.setdefault(net, []).append(ref)
     prev: dict[str, tuple[str, str] | None] = {start: None}
     queue = [start]
     for net in queue:
         if net != start and (net in circuit.fixed or net in circuit.signal_nets or net == out):
             continue
-        for ref, _pin in circuit.net_pins.get(net, ()):
-            if ref not in refs:
-                continue
+        for ref in around.get(net, ()):
             for nxt in circuit.pins[ref].values():
                 if nxt not in prev:
                     prev[nxt] = (net, ref)
