@@ -101,3 +101,22 @@ loads: {OUT: {resistance: 10k}}
     assert s.vout_min is None and s.vcm_min is None
     assert any("in+ has no DC path" in r for r in s.not_evaluated)
     assert a.not_evaluated and a.not_evaluated[0][0] == ("U1",)
+
+
+@pytest.mark.slow
+def test_analysis_cost_grows_linearly_with_channels(tmp_path):
+    import time
+
+    from tests.tools.generate import write_design
+
+    def seconds(channels: int) -> float:
+        loaded = load_design(write_design(tmp_path / f"d{channels}.json", channels))
+        t0 = time.perf_counter()
+        a = analyse(loaded)
+        assert len(a.stages) == 2 * channels and a.not_evaluated == ()
+        return time.perf_counter() - t0
+
+    seconds(5)  # warm the imports
+    small, large = seconds(40), seconds(160)
+    # four times the channels: linear cost gives about 4x; quadratic would give about 16x (common practice)
+    assert large / small < 7.0
