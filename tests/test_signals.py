@@ -50,6 +50,9 @@ def test_ranges_flow_through_two_stages(chain):
     assert a.nets["OUT1"].ac_amplitude == pytest.approx(0.2, rel=1e-4)
     assert a.nets["OUT2"].ac_amplitude == pytest.approx(0.2, rel=1e-4)
     assert a.nets["OUT2"].f_max == 1000.0
+    u1 = next(s for s in a.stages if s.opamp == "U1")
+    # flat gain 2 across a 1 kHz band with a 10 MHz part (closed-loop corner near 5 MHz, [FR] R2)
+    assert u1.inputs[0].band_gain == pytest.approx(2.0, rel=1e-4)
     assert a.not_evaluated == ()
 
 

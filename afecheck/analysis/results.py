@@ -34,7 +34,11 @@ class SourceEquivalent:
 
 @dataclass(frozen=True)
 class StageInput:
-    """One signal input of a stage: its source, the parts between it and the op-amp pin, gain and loading."""
+    """One signal input of a stage: its source, the parts between it and the op-amp pin, gain and loading.
+
+    ``gain`` is the DC gain to the op-amp output; ``band_gain`` the largest |gain| over the source's band
+    (its upper edge, a hundredth of it and their geometric mean), None when the source declares no band.
+    """
 
     net: str
     pin: Literal["in+", "in-"]
@@ -45,6 +49,7 @@ class StageInput:
     input_resistance: float
     loading_error_min: float
     loading_error_max: float
+    band_gain: float | None = None
 
 
 @dataclass(frozen=True)

@@ -257,12 +257,13 @@ def _solve_unit(circuit: Circuit, stages: list[Stage], netlist: Netlist, inputs:
         hi += contrib.max(axis=0)
         per_input.append((xs, vth_lo, vth_hi))
 
-    ac_amp, fmax, ac_mid = _ac_amplitudes(system, inputs, n)
+    ac = _ac_amplitudes(system, inputs, n)
+    ac_amp, fmax = ac[0], ac[1]
     idx = system.node_index
     results = []
     for s in stages:
         results.append(_stage_result(circuit, s, netlist, system, inputs, x_unit, per_input, lo, hi,
-                                     (ac_amp, fmax, ac_mid), notes))
+                                     ac, notes))
     fixed = set(circuit.fixed)
     net_signals = []
     for net in sorted(set().union(*(set(s.nets) for s in stages)) - fixed):
@@ -294,15 +295,17 @@ def _grid_solutions(system, g: np.ndarray, inp: _Input, base: np.ndarray) -> np.
     return np.linalg.solve(mats, rhs)[..., 0]
 
 
-def _ac_amplitudes(system, inputs: list[_Input], n: int) -> tuple[np.ndarray, np.ndarray, dict[int, np.ndarray]]:
-    """AC amplitude (sum over inputs of amplitude × largest |H| over the input's band), highest frequency, and
-    each AC input's complex unit solution in the middle of its band."""
+def _ac_amplitudes(system, inputs: list[_Input], n: int) -> tuple[np.ndarray, np.ndarray, dict[int, np.ndarray],
+                                                                 dict[int, np.ndarray]]:
+    """AC amplitude (sum over inputs of amplitude × largest |H| over the input's band), highest frequency,
+    each AC input's complex unit solution in the middle of its band, and each band-limited input's largest |H|."""
     amp = np.zeros(n)
     fmax = np.zeros(n)
     mid: dict[int, np.ndarray] = {}
+    peak: dict[int, np.ndarray] = {}
     active = [(j, i) for j, i in enumerate(inputs) if i.source.ac_amplitude > 0 or i.source.f_max > 0]
     if not active:
-        return amp, fmax, mid
+        return amp, fmax, mid, peak
     freqs, owners = [], []
     for j, inp in active:
         band = _band(inp)
@@ -321,9 +324,10 @@ def _ac_amplitudes(system, inputs: list[_Input], n: int) -> tuple[np.ndarray, np
         if inp.source.ac_amplitude > 0:
             mid[j] = solved[rows[len(rows) // 2]]
         h = xs[rows].max(axis=0)
+        peak[j] = h
         amp += inp.source.ac_amplitude * h
         fmax = np.where(h > 1e-12, np.maximum(fmax, inp.source.f_max), fmax)
-    return amp, fmax, mid
+    return amp, fmax, mid, peak
 
 
 def _admittance(system, f: np.ndarray) -> np.ndarray:
@@ -348,7 +352,7 @@ def _band(inp: _Input) -> list[float]:
 
 def _stage_result(circuit: Circuit, s: Stage, netlist: Netlist, system, inputs: list[_Input], x_unit: np.ndarray,
                   per_input, lo: np.ndarray, hi: np.ndarray, ac, notes: list[str]) -> StageResult:
-    ac_amp, fmax, ac_mid = ac
+    ac_amp, fmax, ac_mid, ac_peak = ac
     idx = system.node_index
     out = idx(_node(circuit, s.out))
     inp_i = idx(_node(circuit, s.in_plus))
@@ -376,7 +380,7 @@ def _stage_result(circuit: Circuit, s: Stage, netlist: Netlist, system, inputs: 
                            frozenset(s.refs) - frozenset(inp.source.refs), s.out)
         stage_inputs.append(StageInput(
             net=inp.source.net, pin=inp.pin, source=inp.source, via=via, gain=g_nom + 0.0,
-            ideal_gain=float(ideal) + 0.0,
+            ideal_gain=float(ideal) + 0.0, band_gain=float(ac_peak[j][out]) if j in ac_peak and out >= 0 else None,
             input_resistance=float(rin), loading_error_min=float(err.min()), loading_error_max=float(err.max()),
         ))
         if inp.source.kind not in ("rail", "vsource") and (best is None or abs(g_nom) > best[0]):

@@ -71,6 +71,15 @@ def _main_input(stage):  # noqa: ANN001, ANN202 - StageResult / StageInput
     return max(signals, key=lambda i: abs(i.gain), default=None) if signals else None
 
 
+def _gain(main) -> str:  # noqa: ANN001 - StageInput or None
+    """DC gain of the main input; for an AC-coupled input (no DC gain) its in-band gain, marked ``ac``."""
+    if main is None:
+        return "-"
+    if main.gain == 0.0 and main.band_gain is not None:
+        return f"{main.band_gain:.4g} ac"
+    return _num(main.gain)
+
+
 def render_text(name: str, analysis) -> str:  # noqa: ANN001 - DesignAnalysis, imported lazily
     """One row per stage, then each stage's inputs, then what could not be evaluated."""
     from afecheck.model.units import format_si
@@ -83,7 +92,7 @@ def render_text(name: str, analysis) -> str:  # noqa: ANN001 - DesignAnalysis, i
         fc = "-" if s.crossover_hz is None else format_si(s.crossover_hz, "Hz")
         pm = _num(s.phase_margin_deg, "{:.1f}") + ("~" if s.estimated and s.phase_margin_deg is not None else "")
         rows.append((
-            s.opamp, s.topology, _num(None if main is None else main.gain), _num(s.noise_gain_dc), pm, fc,
+            s.opamp, s.topology, _gain(main), _num(s.noise_gain_dc), pm, fc,
             _span(s.vcm_min, s.vcm_max), _span(s.vout_min, s.vout_max),
             "-" if err is None else f"{100 * err:.3g}%", ",".join(s.group) if len(s.group) > 1 else "",
         ))
@@ -101,7 +110,9 @@ def render_text(name: str, analysis) -> str:  # noqa: ANN001 - DesignAnalysis, i
             rs = format_si(src.r_min, "Ω") if src.r_min == src.r_max else (
                 f"{format_si(src.r_min, 'Ω')}..{format_si(src.r_max, 'Ω')}")
             lines.append(f"  {i.pin} <- {i.net} ({src.kind}, {src.v_min:.4g}..{src.v_max:.4g} V, Rs {rs}): "
-                         f"gain {i.gain:.5g} (ideal {i.ideal_gain:.5g}), Rin {format_si(i.input_resistance, 'Ω')}, "
+                         f"gain {i.gain:.5g} (ideal {i.ideal_gain:.5g}"
+                         + (f", in band {i.band_gain:.5g}" if i.band_gain is not None else "")
+                         + f"), Rin {format_si(i.input_resistance, 'Ω')}, "
                          f"loading error {100 * i.loading_error_min:.3g}..{100 * i.loading_error_max:.3g}%")
         extra = []
         if s.output_resistance is not None:
