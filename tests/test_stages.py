@@ -107,3 +107,29 @@ def test_inputs_name_the_series_parts_from_source_to_pin():
     assert via[("UM", "SA")] == ("RM1", "RM3")  # multiple feedback: input resistor, then the one into in-
     assert via[("UI", "SB")] == ("RI1",)
     assert via[("UN", "SA")] == ()  # wired straight to in+
+
+
+def test_reference_amplifier_and_thermistor_gain_resistor(tmp_path):
+    path = tmp_path / "ref.yaml"
+    path.write_text("""afecheck: 1
+parts: {P: {gbw: 1 MHz, open_loop_gain: 100 dB, second_pole: 3 MHz}}
+rails: {VCC: {voltage: 5 V}}
+signals: {IN: {dc: [0, 0.2 V]}}
+components:
+  # 1.25 V from a divider, doubled: a reference amplifier with no signal at all
+  RA: {kind: resistor, value: 30k, pins: {1: VCC, 2: HALF}}
+  RB: {kind: resistor, value: 10k, pins: {1: HALF, 2: GND}}
+  U1: {kind: opamp, part: P, pins: {in+: HALF, in-: F1, out: REF, v+: VCC, v-: GND}}
+  R1: {kind: resistor, value: 10k, pins: {1: REF, 2: F1}}
+  R2: {kind: resistor, value: 10k, pins: {1: F1, 2: GND}}
+  # a thermistor as Rg sets a temperature-dependent gain; the signal still enters at in+
+  U2: {kind: opamp, part: P, pins: {in+: IN, in-: F2, out: OUT2, v+: VCC, v-: GND}}
+  R3: {kind: resistor, value: 10k, pins: {1: OUT2, 2: F2}}
+  RT: {kind: ntc, r25: 10k, beta: 3950 K, temperature: [0 °C, 50 °C], pins: {1: F2, 2: GND}}
+loads: {REF: {resistance: 10k}, OUT2: {resistance: 10k}}
+""", encoding="utf-8")
+    plan = find_stages(build_circuit(load_design(path)))
+    assert plan.stages["U1"].topology == "non-inverting"
+    assert plan.stages["U2"].topology == "non-inverting"
+    s1 = next(s for s in analyse(load_design(path)).stages if s.opamp == "U1")
+    assert s1.vout_min == pytest.approx(2.5, rel=1e-3)  # 5 V · 10k/40k · (1 + 10k/10k), common practice

@@ -15,11 +15,13 @@ Topology criteria, in the order they are tried:
   feedback holds a resistor: the source's resistance is read as the sensor's shunt resistance;
 - ``integrator`` when the feedback to ``in-`` is capacitors only and a signal reaches ``in-``;
 - with resistive feedback: a signal on the ``in+`` side only -> ``non-inverting``; on the ``in-`` side only ->
-  ``inverting`` (one signal) or ``summing`` (several); on both -> ``difference``;
+  ``inverting`` (one signal) or ``summing`` (several); on both -> ``difference``; with no signal on either side,
+  a rail or reference reaching only ``in+`` -> ``non-inverting`` (a reference amplifier), only the ``in-`` side
+  -> ``inverting``;
 - anything else is ``general``.
 
 A signal is a declared signal net, a signal source, another op-amp's output outside the group, or a thermistor
-in the walked network.
+in the walked network (on the ``in-`` side not one touching the pin: that is a temperature-dependent Rg).
 """
 
 from __future__ import annotations
@@ -95,8 +97,10 @@ def _input_regions(circuit: Circuit, ref: str) -> tuple[Region, Region]:
     return walk(inp, False), walk(inm, True)
 
 
-def _signal_terminals(circuit: Circuit, region: Region, group: tuple[str, ...], start: str | None) -> set[str]:
-    """Signal-carrying nets a side of the stage reaches; a thermistor counts as one."""
+def _signal_terminals(circuit: Circuit, region: Region, group: tuple[str, ...], start: str | None,
+                      gain_side: bool = False) -> set[str]:
+    """Signal-carrying nets a side of the stage reaches; a thermistor counts as one, except on the ``in-`` side
+    (``gain_side``) where a thermistor touching the pin sets the gain rather than carrying a signal."""
     found = set()
     nets = set(region.boundary)
     if start is not None:
@@ -107,7 +111,7 @@ def _signal_terminals(circuit: Circuit, region: Region, group: tuple[str, ...], 
         elif net in circuit.opamp_outputs and circuit.opamp_outputs[net] not in group:
             found.add(net)
     for ref in region.refs:
-        if circuit.kinds[ref] == "ntc":
+        if circuit.kinds[ref] == "ntc" and not (gain_side and start in circuit.pins[ref].values()):
             found.add(f"ntc:{ref}")
     return found
 
@@ -132,7 +136,7 @@ def classify(circuit: Circuit, ref: str, plus: Region, minus: Region, group: tup
                 and inm not in circuit.signal_nets):
         return "follower", feedback
     fb_minus_res = [r for r in fb_minus if kinds[r] != "capacitor"]
-    minus_signals = _signal_terminals(circuit, minus, group, inm)
+    minus_signals = _signal_terminals(circuit, minus, group, inm, gain_side=True)
     plus_signals = _signal_terminals(circuit, plus, group, inp)
     if inm in circuit.signal_nets and fb_minus_res:
         return "transimpedance", feedback
@@ -146,6 +150,10 @@ def classify(circuit: Circuit, ref: str, plus: Region, minus: Region, group: tup
         return ("inverting" if len(minus_signals) == 1 else "summing"), feedback
     if plus_signals and minus_signals:
         return "difference", feedback
+    plus_ref = any(n != circuit.ground and n in circuit.fixed for n in plus.boundary | {inp})
+    minus_ref = any(n != circuit.ground and n in circuit.fixed for n in minus.boundary)
+    if plus_ref != minus_ref:
+        return ("non-inverting" if plus_ref else "inverting"), feedback
     return "general", feedback
 
 
