@@ -118,3 +118,14 @@ def test_names_are_unique_and_nets_are_per_channel() -> None:
     nets = {n for c in data["components"].values() for n in c["pins"].values()}
     assert {"GND", "VCC", "VREF"} <= nets
     assert len(nets) == 3 + 120 * 7  # seven nets of its own a channel, plus GND, VCC and VREF
+
+
+@pytest.mark.slow
+def test_benchmark_script_runs_on_one_channel() -> None:
+    # the benchmark is a script, not a timed test: check only that it runs and prints a row for N = 1
+    script = ROOT / "benchmarks" / "bench_check.py"
+    proc = subprocess.run([sys.executable, str(script), "--channels", "1", "--repeat", "1", "--no-spice"],
+                          capture_output=True, text=True, timeout=300)
+    assert proc.returncode == 0, proc.stderr
+    rows = [line.split() for line in proc.stdout.splitlines() if line.split()[:2] == ["1", "12"]]
+    assert len(rows) == 1 and rows[0][4] == "0", proc.stdout
