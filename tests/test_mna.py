@@ -221,3 +221,21 @@ def test_assumed_parameters_listed() -> None:
     # [DER] RULES-REFERENCE R2: f2 = GBW/(√2·Gmin)
     assert mm.instance.pole2_hz == pytest.approx(1e6 / (math.sqrt(2) * 5))
     assert mm.instance.loop_element == "U9#gain"
+
+
+def test_reduced_solve_equals_full_matrix_solve() -> None:
+    # the solver eliminates grounded-source nodes and op-amp core outputs; a plain solve of the whole
+    # matrix (numpy, no elimination) must give the same vector, branch currents included
+    e1, i1 = opamp_elements("U1", "s", "m", "o1", a0=3e5, gbw=2e6, f2=5e6, ro=60.0, vos=1e-3, ib=2e-9, ccm=3e-12)
+    e2, i2 = opamp_elements("U2", "o1", "o2", "o2", a0=1e5, gbw=1e7, f2=3e7, ro=0.0)
+    nl = Netlist((VoltageSource("V1", "s", "0", dc=0.2, ac=1.0), VoltageSource("V2", "0", "r", dc=1.5, ac=0.3j),
+                  Resistor("Rg", "m", "r", 2e3), Resistor("Rf", "m", "o2", 8e3), Capacitor("Cf", "m", "o2", 5e-12),
+                  CurrentSource("I1", "o1", "0", dc=1e-4, ac=1e-3), Resistor("RL", "o2", "0", 2e3))
+                 + e1 + e2, {"U1": i1, "U2": i2})
+    system = assemble(nl)
+    assert system.reduction.keep.size < system.size - 4
+    f = np.array([0.0, 10.0, 1e4, 3e6])
+    full = np.linalg.solve(system.admittance(f), np.broadcast_to(system.b_ac[:, None], (f.size, system.size, 1)))
+    assert np.allclose(system.solve_freqs(f), full[..., 0], rtol=1e-8, atol=1e-15)  # rounding differs
+    dc = np.linalg.solve(system.g, system.b_dc)
+    assert np.allclose(system.solve_dc_vector(), dc, rtol=1e-8, atol=1e-15)

@@ -11,6 +11,7 @@ from __future__ import annotations
 
 from collections.abc import Iterable, Mapping, Sequence
 from dataclasses import dataclass
+from functools import cached_property
 
 import numpy as np
 
@@ -62,27 +63,124 @@ class MnaSystem:
         """Row of a voltage-defined element's branch current."""
         return len(self.nodes) + self.branches.index(name)
 
-    def solve_freqs(self, freqs: Sequence[float] | np.ndarray, check: bool = True) -> np.ndarray:
-        """Unknowns at every frequency (Hz), shape (n_freq, n), as one batched solve of (G + jωC) x = b_ac."""
-        f = np.atleast_1d(np.asarray(freqs, dtype=float))
-        if check:
-            check_connectivity(self.netlist, dc=bool(np.any(f == 0.0)))
-        y = self.g[None, :, :] + (1j * TWO_PI * f)[:, None, None] * self.c[None, :, :]
+    def admittance(self, freqs: np.ndarray) -> np.ndarray:
+        """The full matrix G + jωC + (A(jω) − A0) terms of every op-amp core, shape (n_freq, n, n)."""
+        y = self.g[None, :, :] + (1j * TWO_PI * freqs)[:, None, None] * self.c[None, :, :]
         for k, cp, cn, core in self.cores:
-            delta = core.gain(f) - core.a0
+            delta = core.gain(freqs) - core.a0
             if cp >= 0:
                 y[:, k, cp] -= delta
             if cn >= 0:
                 y[:, k, cn] += delta
-        rhs = np.broadcast_to(self.b_ac[None, :, None], (f.size, self.size, 1))
-        x = _solve(y, rhs)
-        return x[..., 0]
+        return y
+
+    @cached_property
+    def reduction(self) -> _Reduction:
+        """Which unknowns the solver eliminates before the batched solve (see :class:`_Reduction`)."""
+        return _plan_reduction(self)
+
+    def solve_freqs(self, freqs: Sequence[float] | np.ndarray, check: bool = True,
+                    rhs: np.ndarray | None = None) -> np.ndarray:
+        """Unknowns at every frequency (Hz), shape (n_freq, n): one batched solve of (G + jωC) x = b_ac.
+
+        ``rhs`` (shape (n,)) replaces ``b_ac``. Nodes held by grounded voltage sources and op-amp core outputs
+        are eliminated first, so the batched matrices are small; the full vector is rebuilt afterwards.
+        """
+        f = np.atleast_1d(np.asarray(freqs, dtype=float))
+        if check:
+            check_connectivity(self.netlist, dc=bool(np.any(f == 0.0)))
+        return _reduced_solve(self, f, self.admittance(f), self.b_ac if rhs is None else rhs)
 
     def solve_dc_vector(self, check: bool = True) -> np.ndarray:
         """Unknowns of the DC operating point (capacitors open, DC source values)."""
         if check:
             check_connectivity(self.netlist, dc=True)
-        return _solve(self.g.astype(float), self.b_dc[:, None])[:, 0]
+        f = np.zeros(1)
+        return _reduced_solve(self, f, self.g[None, :, :].copy(), self.b_dc)[0].real.copy()
+
+
+@dataclass(frozen=True)
+class _Reduction:
+    """Unknown pairs the solver removes exactly before the batched solve.
+
+    ``known``: (node, branch, sign) of voltage sources with one terminal on ground: the node voltage is the
+    source value (times sign), the branch current follows from the node's KCL row afterwards.
+    ``subs``: (node, branch, cpos, cneg, core) of op-amp cores whose output node controls nothing:
+    v(node) = A(jω)·(v(cpos) − v(cneg)) + b[branch] is substituted into every other row.
+    """
+
+    keep: np.ndarray
+    known: tuple[tuple[int, int, float], ...]
+    subs: tuple[tuple[int, int, int, int, OpAmpCore], ...]
+
+
+def _plan_reduction(system: MnaSystem) -> _Reduction:
+    controls: set[str] = set()
+    for e in system.netlist.elements:
+        if isinstance(e, (Vcvs, Vccs, OpAmpCore)):
+            controls.update((e.cpos, e.cneg))
+    known: list[tuple[int, int, float]] = []
+    held: set[int] = set()
+    for e in system.netlist.elements:
+        if isinstance(e, VoltageSource) and (e.pos == GROUND) != (e.neg == GROUND):
+            node, sign = (e.pos, 1.0) if e.neg == GROUND else (e.neg, -1.0)
+            p = system.index[node]
+            if p not in held:
+                held.add(p)
+                known.append((p, system.branch_index(e.name), sign))
+    subs: list[tuple[int, int, int, int, OpAmpCore]] = []
+    for k, cp, cn, core in system.cores:
+        if core.neg != GROUND or core.pos == GROUND or core.pos in controls:
+            continue
+        o = system.index[core.pos]
+        if o in held or o in (cp, cn):
+            continue
+        held.add(o)
+        subs.append((o, k, cp, cn, core))
+    drop = {p for p, _, _ in known} | {k for _, k, _ in known} | {o for o, *_ in subs} | {s[1] for s in subs}
+    keep = np.array([i for i in range(system.size) if i not in drop], dtype=int)
+    return _Reduction(keep, tuple(known), tuple(subs))
+
+
+def _reduced_solve(system: MnaSystem, f: np.ndarray, y: np.ndarray, b: np.ndarray) -> np.ndarray:
+    """Solve y x = b at every frequency after eliminating the planned unknowns; returns the full x (n_freq, n)."""
+    red = system.reduction
+    nf, n = y.shape[0], system.size
+    dtype = np.result_type(y.dtype, np.asarray(b).dtype)
+    bb = np.empty((nf, n), dtype=dtype)
+    bb[:] = b
+    rows = [p for p, _, _ in red.known] + [o for o, *_ in red.subs]
+    kept_rows = y[:, rows, :].copy()
+    gains = []
+    for o, k, cp, cn, core in red.subs:
+        a = core.gain(f) if np.any(f) else np.full(nf, core.a0)
+        gains.append(a)
+        col = y[:, :, o].copy()
+        if cp >= 0:
+            y[:, :, cp] += col * a[:, None]
+        if cn >= 0:
+            y[:, :, cn] -= col * a[:, None]
+        bb -= col * b[k]
+    values = []
+    for p, k, sign in red.known:
+        val = sign * b[k]
+        values.append(val)
+        bb -= y[:, :, p] * val
+    keep = red.keep
+    x = np.zeros((nf, n), dtype=np.result_type(dtype, complex) if np.iscomplexobj(y) else dtype)
+    if keep.size:
+        x[:, keep] = _solve(y[:, keep[:, None], keep[None, :]], bb[:, keep, None])[..., 0]
+    for (p, _, _), val in zip(red.known, values, strict=True):
+        x[:, p] = val
+    for (o, k, cp, cn, _), a in zip(red.subs, gains, strict=True):
+        vp = x[:, cp] if cp >= 0 else 0.0
+        vn = x[:, cn] if cn >= 0 else 0.0
+        x[:, o] = a * (vp - vn) + b[k]
+    branches = [k for _, k, _ in red.known] + [s[1] for s in red.subs]
+    for r, (row, k) in enumerate(zip(rows, branches, strict=True)):
+        coeff = kept_rows[:, r, :]
+        x[:, k] = (b[row] - np.einsum("fj,fj->f", coeff, x)) / coeff[:, k]
+    return x
 
 
 def _solve(a: np.ndarray, b: np.ndarray) -> np.ndarray:

@@ -48,12 +48,14 @@ class AcSweep:
 class ControlBlock:
     """What the ``.control`` block runs: ``op`` with ``print`` of nodes, an AC sweep written to a binary raw file.
 
-    ``op_nodes`` / ``ac_nodes`` are original node names (None: every node); the AC vectors are listed on
-    ``.save`` lines so that ``write`` is not limited by the length of one command line.
+    ``op_nodes`` / ``ac_nodes`` are original node names (None: every node); ``op_currents`` names voltage
+    sources whose operating-point current is printed (``i(name)``, flowing pos -> source -> neg). The AC
+    vectors are listed on ``.save`` lines so that ``write`` is not limited by the length of one command line.
     """
 
     op: bool = True
     op_nodes: Sequence[str] | None = None
+    op_currents: Sequence[str] = ()
     ac: AcSweep | None = None
     ac_nodes: Sequence[str] | None = None
     raw_file: str = "ac.raw"
@@ -71,6 +73,10 @@ class SpiceDeck:
     def vector(self, node: str) -> str:
         """The lower-cased vector name ngspice gives the voltage of an original node, e.g. ``v(out)``."""
         return f"v({self.nodes[node]})".lower()
+
+    def current(self, source: str) -> str:
+        """The lower-cased vector name of a voltage source's current, e.g. ``i(v1)``."""
+        return f"i({self.elements[source]})".lower()
 
 
 def _fmt(x: float) -> str:
@@ -113,7 +119,7 @@ def spice_deck(netlist: Netlist, title: str = "afecheck netlist", control: Contr
     lines.append("* node names: original -> deck")
     lines += [f"*   {orig} -> {new}" for orig, new in nodes.map.items() if orig != new]
     if control is not None:
-        lines += _control_lines(control, flat, nodes)
+        lines += _control_lines(control, flat, nodes, elements)
     lines.append(".end")
     return SpiceDeck("\n".join(lines) + "\n", dict(nodes.map), dict(elements.map))
 
@@ -135,21 +141,22 @@ def _card(e: Element, nodes: _Namer, elements: _Namer) -> str:
     return f"{name} {nodes.name(e.pos)} {nodes.name(e.neg)} {nodes.name(e.cpos)} {nodes.name(e.cneg)} {_fmt(value)}"
 
 
-def _control_lines(control: ControlBlock, flat: Netlist, nodes: _Namer) -> list[str]:
+def _control_lines(control: ControlBlock, flat: Netlist, nodes: _Namer, elements: _Namer) -> list[str]:
     all_nodes = flat.nodes()
+    currents = [f"i({elements.map[name]})" for name in control.op_currents] if control.op else []
     lines: list[str] = []
     if control.ac is not None:
         ac_nodes = all_nodes if control.ac_nodes is None else tuple(control.ac_nodes)
         vecs = [f"v({nodes.name(n)})" for n in ac_nodes if n != GROUND]
         if control.op:
             op_nodes = all_nodes if control.op_nodes is None else tuple(control.op_nodes)
-            vecs += [f"v({nodes.name(n)})" for n in op_nodes if n != GROUND]
+            vecs += [f"v({nodes.name(n)})" for n in op_nodes if n != GROUND] + currents
         vecs = list(dict.fromkeys(vecs))
         lines += [".save " + " ".join(vecs[i:i + 10]) for i in range(0, len(vecs), 10)]
     lines += [".control", "set numdgt=15"]
     if control.op:
         op_nodes = all_nodes if control.op_nodes is None else tuple(control.op_nodes)
-        vecs = [f"v({nodes.name(n)})" for n in op_nodes if n != GROUND]
+        vecs = [f"v({nodes.name(n)})" for n in op_nodes if n != GROUND] + currents
         lines.append("op")
         lines += ["print " + " ".join(vecs[i:i + 10]) for i in range(0, len(vecs), 10)]
     if control.ac is not None:
