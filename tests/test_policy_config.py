@@ -136,7 +136,7 @@ def test_all_problems_reported_in_one_round(tmp_path):
     ("6 dB", "dB", 6.0),                      # a threshold in dB stays in dB
     ("0.1 %", "1", 1e-3), ("50 ppm", "1", 5e-5), ("0.25", "1", 0.25),  # [SI] percent = 1e-2, ppm = 1e-6
     ("200 mV", "V", 0.2), ("4k7", "ohm", 4700.0),  # [SI] milli = 1e-3; [IEC60062] RKM 4k7
-    ("30 %", "%", 0.3),
+    ("30 %", "%", 0.3), (0.3, "%", 0.3), ("0.3", "%", 0.3),
 ])
 def test_parameter_values_read_with_units(value, unit, expected):
     assert parse_param_value(value, unit) == pytest.approx(expected, rel=1e-12)

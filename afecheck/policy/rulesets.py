@@ -28,7 +28,7 @@ _NUMBER = re.compile(r"^\s*([+-]?(?:\d+\.?\d*|\.\d+)(?:[eE][+-]?\d+)?)\s*(.*?)\s
 _SUFFIXES = {
     "deg": {"": 1.0, "°": 1.0, "deg": 1.0, "degrees": 1.0},
     "dB": {"": 1.0, "dB": 1.0, "db": 1.0},
-    "%": {"": 0.01, "%": 0.01, "ppm": 1e-6},
+    "%": {"": 1.0, "%": 0.01, "ppm": 1e-6},  # a bare number is already a fraction (SI), as everywhere else
 }
 
 
@@ -73,7 +73,7 @@ def parse_param_value(value: object, unit: str) -> float:
         if isinstance(value, bool) or not isinstance(value, (int, float, str)):
             raise UnitError(f"read {value!r}; expected a number in {unit}")
         if isinstance(value, (int, float)):
-            return float(value) * (_SUFFIXES[unit][""] if unit != "%" else 1.0)
+            return float(value)
         m = _NUMBER.match(value)
         if not m or m.group(2) not in _SUFFIXES[unit]:
             accepted = ", ".join(repr(s) for s in _SUFFIXES[unit] if s)

@@ -19,6 +19,8 @@ def _entry_lines(entry: Entry, color: bool) -> list[str]:
     sev = _paint(f.severity.label, f.severity.label, color)
     tag = "" if entry.status == "open" else " " + _paint(f"[{entry.status}]", "dim", color)
     lines = [f"{where(entry)}: {sev}: {rule_label(entry)}: {message(f)}{tag}"]
+    if entry.status == "fixed":
+        return lines
     lines.append(f"    fix: {f.fix or 'see the rule documentation (afecheck explain ' + f.rule + ')'}")
     if f.assumed:
         lines.append(f"    assumed: {', '.join(f.assumed)}")
