@@ -202,3 +202,16 @@ def test_ci_doc_config_example_is_valid(tmp_path):
     cfg.write_text(block, encoding="utf-8")
     policy = resolve_policy(Catalogue(default_registry().metas()), cfg)
     assert policy.ruleset == "precision" and policy.disabled
+
+
+def test_ci_doc_inline_waiver_example_fits_the_schema():
+    import re
+
+    import yaml
+
+    from afecheck.model.schema import Design
+
+    doc = (Path(__file__).parents[1] / "docs" / "CI.md").read_text(encoding="utf-8")
+    block = next(b for b in re.findall(r"```yaml\n(.*?)```", doc, re.S) if b.startswith("components:"))
+    design = Design.model_validate({"afecheck": 1, **yaml.safe_load(block)})
+    assert design.components["R7"].waive[0].rule == "AFE303" and design.waive[0].nets == ("PROBE",)
