@@ -215,7 +215,7 @@ def review_files(
             rules_run=tuple(m.id for m in catalogue.metas if m.id not in policy.disabled),
         ))
     if problems:
-        raise InputError(problems)
+        raise InputError(list(dict.fromkeys(problems)))  # a bad config shared by several designs is said once
     level = fail_on or min(levels or {"error"}, key=_FAIL_ORDER.index)
     all_waivers = {w.key: w for w in (*(w for ws in waiver_cache.values() for w in ws), *inline_all)}
     unused = tuple(sorted((w for key, w in all_waivers.items() if key not in used),
