@@ -181,3 +181,15 @@ def test_shipped_rule_sets_resolve_against_the_real_catalogue():
             default_value = meta.param(name).default
             # tighter means: a margin to keep (phase/gain margin, band) goes up, an error allowance goes down
             assert value != default_value, (rule_id, name)
+
+
+def test_bad_config_shared_by_two_designs_is_reported_once(tmp_path):
+    a = _design(tmp_path)
+    b = tmp_path / "second.yaml"
+    shutil.copy(GATE / "logger.yaml", b)
+    _write(tmp_path, CONFIG_NAME, "afecheck-config: 1\nrules:\n  TST404: off\n")
+    from afecheck.errors import InputError
+
+    with pytest.raises(InputError) as info:
+        review_files([a, b], registry=REGISTRY, today=TODAY)
+    assert len(info.value.problems) == 1 and info.value.problems[0].line == 3
