@@ -9,6 +9,7 @@ turns any exception into an AssertionError that shows the input.
 from __future__ import annotations
 
 import copy
+import functools
 import io
 import json
 import math
@@ -44,9 +45,10 @@ BAD_BYTES = (b"\xff", b"\xfe\xff", b"\xef\xbb\xbf", b"\x00", b"\xc3", b"\xed\xa0
 TEXTS = st.text(st.characters(blacklist_categories=("Cs",)), min_size=0, max_size=12)
 
 
-def sample_data() -> list[tuple[str, dict]]:
-    """The sample designs as plain data, with their file names."""
-    return [(p.name, yaml.safe_load(p.read_text(encoding="utf-8"))) for p in SAMPLES]
+@functools.cache
+def sample_data() -> tuple[tuple[str, dict], ...]:
+    """The sample designs as plain data, with their file names (parsed once; callers deep-copy)."""
+    return tuple((p.name, yaml.safe_load(p.read_text(encoding="utf-8"))) for p in SAMPLES)
 
 
 def _paths(node: Any, prefix: tuple = ()) -> list[tuple]:
