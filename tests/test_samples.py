@@ -20,7 +20,7 @@ from afecheck.cli import main
 from afecheck.model.units import parse_quantity
 
 ROOT = Path(__file__).resolve().parents[1]
-SAMPLES = sorted((ROOT / "sample_designs").glob("*.yaml"))
+SAMPLES = sorted(p for p in (ROOT / "sample_designs").glob("*.yaml") if not p.name.endswith(".intent.yaml"))
 EXPECT_RE = re.compile(r"^#\s*expect:\s*(.*?)\s*$", re.MULTILINE)
 
 
@@ -76,6 +76,15 @@ def _has_number(findings, target: float, rel: float = 2e-3) -> bool:
 
 def test_there_are_at_least_four_samples() -> None:
     assert len(SAMPLES) >= 4
+
+
+def test_intent_files_validate_against_the_intent_model() -> None:
+    from afecheck.model.schema import Intent
+
+    intents = sorted((ROOT / "sample_designs").glob("*.intent.yaml"))
+    assert intents
+    for path in intents:
+        Intent.model_validate(yaml.safe_load(path.read_text(encoding="utf-8")))
 
 
 @pytest.mark.parametrize("path", SAMPLES, ids=lambda p: p.name)
@@ -173,7 +182,8 @@ def test_hydrophone_noise_gain_and_coupling_capacitor() -> None:
 
 def test_vibration_follower_crosses_the_transition_window() -> None:
     path = ROOT / "sample_designs" / "vibration_follower.yaml"
-    sig = _data(path)["signals"]["VIB"]
+    intent = ROOT / "sample_designs" / _data(path)["intent"]
+    sig = _data(intent)["signals"]["VIB"]
     lo = _v(sig["dc"][0], "V") - _v(sig["ac_amplitude"], "V")
     hi = _v(sig["dc"][1], "V") + _v(sig["ac_amplitude"], "V")
     assert (lo, hi) == pytest.approx((1.05, 3.95))

@@ -23,7 +23,7 @@ import yaml
 from hypothesis import strategies as st
 
 ROOT = Path(__file__).resolve().parents[2]
-SAMPLES = tuple(sorted((ROOT / "sample_designs").glob("*.yaml")))
+SAMPLES = tuple(sorted(p for p in (ROOT / "sample_designs").glob("*.yaml") if not p.name.endswith(".intent.yaml")))
 
 KINDS = ("resistor", "capacitor", "opamp", "ntc", "vsource", "signal_source")
 PINS = {
@@ -48,7 +48,17 @@ TEXTS = st.text(st.characters(blacklist_categories=("Cs",)), min_size=0, max_siz
 @functools.cache
 def sample_data() -> tuple[tuple[str, dict], ...]:
     """The sample designs as plain data, with their file names (parsed once; callers deep-copy)."""
-    return tuple((p.name, yaml.safe_load(p.read_text(encoding="utf-8"))) for p in SAMPLES)
+    return tuple((p.name, _with_intent(p)) for p in SAMPLES)
+
+
+def _with_intent(path: Path) -> dict:
+    """A sample as one self-contained document: its intent file's sections merged in, the reference dropped."""
+    data = yaml.safe_load(path.read_text(encoding="utf-8"))
+    if "intent" in data:
+        intent = yaml.safe_load((path.parent / data.pop("intent")).read_text(encoding="utf-8"))
+        for section in ("signals", "loads", "budgets"):
+            data.setdefault(section, {}).update(intent.get(section, {}))
+    return data
 
 
 def _paths(node: Any, prefix: tuple = ()) -> list[tuple]:
