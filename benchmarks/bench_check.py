@@ -38,8 +38,8 @@ def _afecheck_cmd() -> list[str]:
     return [exe] if exe else [sys.executable, "-m", "afecheck"]
 
 
-def _run_measured(cmd: list[str], stdout_path: Path | None = None) -> tuple[float, float, int, str]:
-    """Run ``cmd``; return (wall seconds, peak RSS in MB, exit status, stderr)."""
+def _run_measured(cmd: list[str], stdout_path: Path | None = None) -> tuple[float, float, int, str, float]:
+    """Run ``cmd``; return (wall seconds, peak RSS in MB, exit status, stderr, CPU seconds user + system)."""
     out = open(stdout_path, "w") if stdout_path else subprocess.DEVNULL
     t0 = time.perf_counter()
     proc = subprocess.Popen(cmd, stdout=out, stderr=subprocess.PIPE, text=True)
@@ -49,7 +49,7 @@ def _run_measured(cmd: list[str], stdout_path: Path | None = None) -> tuple[floa
     proc.returncode = os.waitstatus_to_exitcode(status)
     if stdout_path:
         out.close()
-    return wall, usage.ru_maxrss / 1024.0, proc.returncode, stderr
+    return wall, usage.ru_maxrss / 1024.0, proc.returncode, stderr, usage.ru_utime + usage.ru_stime
 
 
 def _phases_child(path: str) -> None:
@@ -133,7 +133,7 @@ def main(argv: list[str] | None = None) -> int:
         return 0
     cmd = _afecheck_cmd()
     print(f"afecheck command: {' '.join(cmd)}; python {sys.version.split()[0]}; cpus {os.cpu_count()}")
-    head = (f"{'N':>5} {'parts':>6} {'wall s':>7} {'peak MB':>8} {'exit':>4} {'load':>6} {'analyse':>7} "
+    head = (f"{'N':>5} {'parts':>6} {'wall s':>7} {'cpu s':>7} {'peak MB':>8} {'exit':>4} {'load':>6} {'analyse':>7} "
             f"{'rules':>6} {'report':>6} {'finds':>5} {'ngspice s':>9} {'ratio':>6}")
     print(head)
     walls: dict[int, float] = {}
@@ -144,6 +144,7 @@ def main(argv: list[str] | None = None) -> int:
             design = write_design(work / f"rack{n}.{args.format}", n)
             runs = [_run_measured(cmd + ["check", "--fail-on", "never", str(design)]) for _ in range(args.repeat)]
             wall = min(r[0] for r in runs)
+            cpu = min(r[4] for r in runs)
             peak = max(r[1] for r in runs)
             status = runs[0][2]
             if status != 0:
@@ -162,9 +163,9 @@ def main(argv: list[str] | None = None) -> int:
                 notes.append(f"N={n}: ngspice: {why}")
             ratio = f"{wall / spice_s:.1f}" if spice_s else "n/a"
             spice_cell = f"{spice_s:.3f}" if spice_s is not None else "n/a"
-            print(f"{n:>5} {n * PARTS_PER_CHANNEL:>6} {wall:>7.3f} {peak:>8.1f} {status:>4} {cell('load'):>6} "
-                  f"{cell('analyse'):>7} {cell('rules'):>6} {cell('report'):>6} {ph.get('findings', 'n/a'):>5} "
-                  f"{spice_cell:>9} {ratio:>6}", flush=True)
+            print(f"{n:>5} {n * PARTS_PER_CHANNEL:>6} {wall:>7.3f} {cpu:>7.3f} {peak:>8.1f} {status:>4} "
+                  f"{cell('load'):>6} {cell('analyse'):>7} {cell('rules'):>6} {cell('report'):>6} "
+                  f"{ph.get('findings', 'n/a'):>5} {spice_cell:>9} {ratio:>6}", flush=True)
     if 1000 in walls and 4000 in walls:
         print(f"growth 4000/1000 channels: {walls[4000] / walls[1000]:.2f}x (target within 4.5x)")
     if 1000 in walls:
