@@ -12,19 +12,20 @@ from __future__ import annotations
 
 import math
 from collections.abc import Sequence
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 from typing import Literal
 
 import numpy as np
 
-from afecheck.analysis.mna import MnaSystem, assemble, check_connectivity, log_grid
-from afecheck.analysis.netlist import Netlist, OpAmpCore, OpAmpInstance, Vcvs, VoltageSource
+from afecheck.analysis.mna import MnaSystem, check_connectivity, log_grid, system_of
+from afecheck.analysis.netlist import GROUND, Netlist, OpAmpCore, OpAmpInstance, Vcvs, VoltageSource
 from afecheck.errors import SingularCircuitError
 
 FeedbackSign = Literal["negative", "positive", "none"]
 NO_FEEDBACK_FRACTION = 1e-6
 _ROUNDS = 2
 _SUBGRID = 24
+_FRACTIONS = np.linspace(0.0, 1.0, _SUBGRID)
 
 
 @dataclass(frozen=True, eq=False)
@@ -102,7 +103,23 @@ def loop_probe(netlist: Netlist, element: str) -> LoopProbe:
     if not isinstance(gain, (Vcvs, OpAmpCore)):
         raise TypeError(f"{element} is not a voltage-controlled voltage source")
     probe = VoltageSource(gain.name, gain.pos, gain.neg, dc=0.0, ac=1.0)
-    system = assemble(netlist.replaced(probe), {gain.name: 1.0})
+    base = system_of(netlist)
+    k = base.branch_index(gain.name)
+    g = base.g.copy()
+    g[k, :] = 0.0
+    for node, v in ((gain.pos, 1.0), (gain.neg, -1.0)):
+        if node != GROUND:
+            g[k, base.node_index(node)] = v
+    b_dc = base.b_dc.copy()
+    b_dc[k] = 0.0
+    b_ac = np.zeros(base.size, dtype=complex)
+    b_ac[k] = 1.0
+    grounded = base.grounded
+    if (gain.neg == GROUND) != (gain.pos == GROUND):
+        node, sign = (gain.pos, 1.0) if gain.neg == GROUND else (gain.neg, -1.0)
+        grounded = grounded + ((base.node_index(node), k, sign),)
+    system = replace(base, netlist=netlist.replaced(probe), g=g, b_dc=b_dc, b_ac=b_ac,
+                     cores=tuple(c for c in base.cores if c[3].name != gain.name), grounded=grounded)
     return LoopProbe(system, gain, system.node_index(gain.cpos), system.node_index(gain.cneg))
 
 
@@ -121,17 +138,16 @@ def loop_gain(netlist: Netlist, refdes: str, freqs: Sequence[float] | np.ndarray
     """Return ratio of op-amp ``refdes`` over ``freqs`` (Hz; default :func:`default_loop_grid`) and its margins."""
     op = netlist.opamps[refdes]
     probe = loop_probe(netlist, op.loop_element)
-    system = probe.system
     f = default_loop_grid(op) if freqs is None else np.atleast_1d(np.asarray(freqs, dtype=float))
     if f.size < 2 or np.any(np.diff(f) <= 0) or f[0] <= 0:
         raise ValueError("loop-gain frequencies must be positive and strictly increasing (at least two)")
     try:
-        check_connectivity(system.netlist, dc=True)
+        check_connectivity(netlist, dc=True)
         t_all = probe.t(np.concatenate(([0.0], f)))
         t_dc: float | None = float(t_all[0].real)
         t = t_all[1:]
     except SingularCircuitError:
-        check_connectivity(system.netlist, dc=False)
+        check_connectivity(netlist, dc=False)
         t = probe.t(f)
         t_dc = None
     ref = t_dc if t_dc is not None else float(t[0].real)
@@ -165,10 +181,16 @@ def loop_gain(netlist: Netlist, refdes: str, freqs: Sequence[float] | np.ndarray
 
 
 def _unwrap_from(phase_deg: np.ndarray, start_deg: float) -> np.ndarray:
-    """Unwrap the phase along the grid, starting on the branch nearest ``start_deg``."""
-    un = np.degrees(np.unwrap(np.radians(phase_deg)))
-    shift = 360.0 * round((start_deg - un[0]) / 360.0)
-    return un + shift
+    """Unwrap the phase along the grid (steps taken as the shortest way round), starting on the branch nearest
+    ``start_deg``."""
+    step = np.diff(phase_deg)
+    step -= 360.0 * np.round(step / 360.0)
+    first = float(phase_deg[0]) + 360.0 * round((start_deg - float(phase_deg[0])) / 360.0)
+    out = np.empty_like(phase_deg)
+    out[0] = first
+    np.cumsum(step, out=out[1:])
+    out[1:] += first
+    return out
 
 
 @dataclass
@@ -195,7 +217,7 @@ def _refine_brackets(probe: LoopProbe, brackets: list[_Bracket]) -> dict[str, tu
     if not brackets:
         return {}
     for _ in range(_ROUNDS):
-        grids = [np.exp(np.linspace(math.log(b.f_lo), math.log(b.f_hi), _SUBGRID)) for b in brackets]
+        grids = [b.f_lo * np.exp(math.log(b.f_hi / b.f_lo) * _FRACTIONS) for b in brackets]
         t_all = probe.t(np.concatenate(grids))
         for k, b in enumerate(brackets):
             t = t_all[k * _SUBGRID:(k + 1) * _SUBGRID]

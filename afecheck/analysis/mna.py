@@ -47,6 +47,8 @@ class MnaSystem:
     b_dc: np.ndarray
     b_ac: np.ndarray
     cores: tuple[tuple[int, int, int, OpAmpCore], ...] = ()
+    grounded: tuple[tuple[int, int, float], ...] = ()
+    controls: frozenset[int] = frozenset()
 
     @property
     def size(self) -> int:
@@ -89,97 +91,139 @@ class MnaSystem:
         f = np.atleast_1d(np.asarray(freqs, dtype=float))
         if check:
             check_connectivity(self.netlist, dc=bool(np.any(f == 0.0)))
-        return _reduced_solve(self, f, self.admittance(f), self.b_ac if rhs is None else rhs)
+        return _reduced_solve(self, f, self.b_ac if rhs is None else rhs)
 
     def solve_dc_vector(self, check: bool = True) -> np.ndarray:
         """Unknowns of the DC operating point (capacitors open, DC source values)."""
         if check:
             check_connectivity(self.netlist, dc=True)
-        f = np.zeros(1)
-        return _reduced_solve(self, f, self.g[None, :, :].copy(), self.b_dc)[0].real.copy()
+        return _reduced_solve(self, np.zeros(1), self.b_dc)[0].real.copy()
 
 
-@dataclass(frozen=True)
+@dataclass(frozen=True, eq=False)
 class _Reduction:
-    """Unknown pairs the solver removes exactly before the batched solve.
+    """Unknown pairs the solver removes exactly before the batched solve, and the pieces it needs.
 
     ``known``: (node, branch, sign) of voltage sources with one terminal on ground: the node voltage is the
-    source value (times sign), the branch current follows from the node's KCL row afterwards.
-    ``subs``: (node, branch, cpos, cneg, core) of op-amp cores whose output node controls nothing:
-    v(node) = A(jω)·(v(cpos) − v(cneg)) + b[branch] is substituted into every other row.
+    source value (times sign). ``subs``: (node, branch, cpos, cneg, core) of op-amp cores whose output node
+    controls nothing: v(node) = A(jω)·(v(cpos) − v(cneg)) + b[branch]. Each eliminated branch current follows
+    afterwards from its node's KCL row. Only the kept rows and columns are ever built per frequency.
     """
 
     keep: np.ndarray
+    where: np.ndarray
     known: tuple[tuple[int, int, float], ...]
     subs: tuple[tuple[int, int, int, int, OpAmpCore], ...]
+    kept_cores: tuple[tuple[int, int, int, OpAmpCore], ...]
+    g_kk: np.ndarray
+    c_kk: np.ndarray
+    g_ke: np.ndarray
+    c_ke: np.ndarray
+    eliminated: tuple[int, ...]
+    rows: tuple[int, ...]
+    row_branch: tuple[int, ...]
+    g_rows: np.ndarray
+    c_rows: np.ndarray
 
 
 def _plan_reduction(system: MnaSystem) -> _Reduction:
-    controls: set[str] = set()
-    for e in system.netlist.elements:
-        if isinstance(e, (Vcvs, Vccs, OpAmpCore)):
-            controls.update((e.cpos, e.cneg))
     known: list[tuple[int, int, float]] = []
     held: set[int] = set()
-    for e in system.netlist.elements:
-        if isinstance(e, VoltageSource) and (e.pos == GROUND) != (e.neg == GROUND):
-            node, sign = (e.pos, 1.0) if e.neg == GROUND else (e.neg, -1.0)
-            p = system.index[node]
-            if p not in held:
-                held.add(p)
-                known.append((p, system.branch_index(e.name), sign))
+    for p, k, sign in system.grounded:
+        if p not in held:
+            held.add(p)
+            known.append((p, k, sign))
     subs: list[tuple[int, int, int, int, OpAmpCore]] = []
     for k, cp, cn, core in system.cores:
-        if core.neg != GROUND or core.pos == GROUND or core.pos in controls:
+        if core.neg != GROUND or core.pos == GROUND:
             continue
         o = system.index[core.pos]
-        if o in held or o in (cp, cn):
+        if o in system.controls or o in held or o in (cp, cn):
             continue
         held.add(o)
         subs.append((o, k, cp, cn, core))
-    drop = {p for p, _, _ in known} | {k for _, k, _ in known} | {o for o, *_ in subs} | {s[1] for s in subs}
+    sub_branches = {s[1] for s in subs}
+    drop = {p for p, _, _ in known} | {k for _, k, _ in known} | {o for o, *_ in subs} | sub_branches
     keep = np.array([i for i in range(system.size) if i not in drop], dtype=int)
-    return _Reduction(keep, tuple(known), tuple(subs))
+    where = np.full(system.size, -1, dtype=int)
+    where[keep] = np.arange(keep.size)
+    eliminated = tuple(p for p, _, _ in known) + tuple(o for o, *_ in subs)
+    elim = np.array(eliminated, dtype=int)
+    rows = eliminated
+    row_branch = tuple(k for _, k, _ in known) + tuple(s[1] for s in subs)
+    return _Reduction(
+        keep=keep, where=where, known=tuple(known), subs=tuple(subs),
+        kept_cores=tuple(c for c in system.cores if c[0] not in sub_branches),
+        g_kk=system.g[np.ix_(keep, keep)], c_kk=system.c[np.ix_(keep, keep)],
+        g_ke=system.g[np.ix_(keep, elim)], c_ke=system.c[np.ix_(keep, elim)],
+        eliminated=eliminated, rows=rows, row_branch=row_branch,
+        g_rows=system.g[list(rows), :], c_rows=system.c[list(rows), :],
+    )
 
 
-def _reduced_solve(system: MnaSystem, f: np.ndarray, y: np.ndarray, b: np.ndarray) -> np.ndarray:
-    """Solve y x = b at every frequency after eliminating the planned unknowns; returns the full x (n_freq, n)."""
+def _reduced_solve(system: MnaSystem, f: np.ndarray, b: np.ndarray) -> np.ndarray:
+    """Solve (G + jωC + core terms) x = b at every frequency (Hz) on the kept unknowns; returns the full x."""
     red = system.reduction
-    nf, n = y.shape[0], system.size
-    dtype = np.result_type(y.dtype, np.asarray(b).dtype)
-    bb = np.empty((nf, n), dtype=dtype)
-    bb[:] = b
-    rows = [p for p, _, _ in red.known] + [o for o, *_ in red.subs]
-    kept_rows = y[:, rows, :].copy()
-    gains = []
+    nf, n, m = f.size, system.size, red.keep.size
+    dc = not np.any(f)
+    jw = 1j * TWO_PI * f
+    b = np.asarray(b)
+    dtype = np.result_type(b.dtype, float if dc else complex)
+    y = np.empty((nf, m, m), dtype=dtype)
+    y[:] = red.g_kk
+    if not dc:
+        y += jw[:, None, None] * red.c_kk
+    rhs = np.empty((nf, m), dtype=dtype)
+    rhs[:] = b[red.keep]
+    cols = np.empty((nf, m, len(red.eliminated)), dtype=dtype)
+    cols[:] = red.g_ke
+    if not dc:
+        cols += jw[:, None, None] * red.c_ke
+    slot = {e: i for i, e in enumerate(red.eliminated)}
+    where = red.where
+    for k, cp, cn, core in red.kept_cores:
+        if dc:
+            continue
+        delta = core.gain(f) - core.a0
+        for node, sgn in ((cp, -1.0), (cn, 1.0)):
+            if node < 0:
+                continue
+            if where[node] >= 0:
+                y[:, where[k], where[node]] += sgn * delta
+            else:
+                cols[:, where[k], slot[node]] += sgn * delta
+    values = {p: sign * b[k] for p, k, sign in red.known}
+    gains = {}
     for o, k, cp, cn, core in red.subs:
-        a = core.gain(f) if np.any(f) else np.full(nf, core.a0)
-        gains.append(a)
-        col = y[:, :, o].copy()
-        if cp >= 0:
-            y[:, :, cp] += col * a[:, None]
-        if cn >= 0:
-            y[:, :, cn] -= col * a[:, None]
-        bb -= col * b[k]
-    values = []
-    for p, k, sign in red.known:
-        val = sign * b[k]
-        values.append(val)
-        bb -= y[:, :, p] * val
-    keep = red.keep
-    x = np.zeros((nf, n), dtype=np.result_type(dtype, complex) if np.iscomplexobj(y) else dtype)
-    if keep.size:
-        x[:, keep] = _solve(y[:, keep[:, None], keep[None, :]], bb[:, keep, None])[..., 0]
-    for (p, _, _), val in zip(red.known, values, strict=True):
+        a = np.full(nf, core.a0) if dc else core.gain(f)
+        gains[o] = a
+        col = cols[:, :, slot[o]]
+        rhs -= col * b[k]
+        for node, sgn in ((cp, 1.0), (cn, -1.0)):
+            if node < 0:
+                continue
+            term = col * (sgn * a)[:, None]
+            if where[node] >= 0:
+                y[:, :, where[node]] += term
+            else:
+                rhs -= term * values[node]
+    for p, val in values.items():
+        rhs -= cols[:, :, slot[p]] * val
+    x = np.zeros((nf, n), dtype=dtype)
+    if m:
+        x[:, red.keep] = _solve(y, rhs[:, :, None])[..., 0]
+    for p, val in values.items():
         x[:, p] = val
-    for (o, k, cp, cn, _), a in zip(red.subs, gains, strict=True):
+    for o, k, cp, cn, _ in red.subs:
         vp = x[:, cp] if cp >= 0 else 0.0
         vn = x[:, cn] if cn >= 0 else 0.0
-        x[:, o] = a * (vp - vn) + b[k]
-    branches = [k for _, k, _ in red.known] + [s[1] for s in red.subs]
-    for r, (row, k) in enumerate(zip(rows, branches, strict=True)):
-        coeff = kept_rows[:, r, :]
-        x[:, k] = (b[row] - np.einsum("fj,fj->f", coeff, x)) / coeff[:, k]
+        x[:, o] = gains[o] * (vp - vn) + b[k]
+    if red.rows:
+        flow = x @ red.g_rows.T
+        if not dc:
+            flow = flow + jw[:, None] * (x @ red.c_rows.T)
+        for r, (row, k) in enumerate(zip(red.rows, red.row_branch, strict=True)):
+            x[:, k] = (b[row] - flow[:, r]) / red.g_rows[r, k]
     return x
 
 
@@ -213,19 +257,48 @@ def assemble(netlist: Netlist, ac_excitation: Mapping[str, complex] | None = Non
         unknown = sorted(set(ac_excitation) - names)
         if unknown:
             raise KeyError(f"no independent source named {', '.join(unknown)}")
+    grounded: list[tuple[int, int, float]] = []
+    controls: set[int] = set()
     for e in netlist.elements:
         STAMPS[type(e)](target, e)
+        if isinstance(e, VoltageSource) and (e.pos == GROUND) != (e.neg == GROUND):
+            node, sign = (e.pos, 1.0) if e.neg == GROUND else (e.neg, -1.0)
+            grounded.append((node_map[node], target.branch[e.name], sign))
+        elif isinstance(e, (Vcvs, Vccs, OpAmpCore)):
+            controls.update(i for i in (node_map[e.cpos], node_map[e.cneg]) if i >= 0)
     index = {nd: i for i, nd in enumerate(nodes)}
     return MnaSystem(netlist, nodes, branches, index, target.g, target.c, target.b_dc, target.b_ac,
-                     tuple(target.cores))
+                     tuple(target.cores), tuple(grounded), frozenset(controls))
+
+
+def _memo(netlist: Netlist, key: str, make):  # noqa: ANN001, ANN202 - private cache helper
+    """A value computed once per netlist object and kept in its ``__dict__`` (netlists are immutable)."""
+    cache = netlist.__dict__.setdefault("_mna_cache", {})
+    if key not in cache:
+        cache[key] = make()
+    return cache[key]
 
 
 def check_connectivity(netlist: Netlist, dc: bool) -> None:
     """Raise SingularCircuitError for nodes with no path to ground or for a loop of voltage-defined branches.
 
-    Paths are resistors, voltage sources, VCVS and op-amp core outputs and (unless ``dc``) capacitors; current sources,
-    VCCS outputs and controlling inputs carry no defined path.
+    Paths are resistors, voltage sources, VCVS and op-amp core outputs and (unless ``dc``) capacitors; current
+    sources, VCCS outputs and controlling inputs carry no defined path. The verdict is kept per netlist object.
     """
+    error = _memo(netlist, f"connectivity-{dc}", lambda: _connectivity_error(netlist, dc))
+    if error is not None:
+        raise error
+
+
+def _connectivity_error(netlist: Netlist, dc: bool) -> SingularCircuitError | None:
+    try:
+        _check_connectivity(netlist, dc)
+    except SingularCircuitError as exc:
+        return exc
+    return None
+
+
+def _check_connectivity(netlist: Netlist, dc: bool) -> None:
     parent: dict[str, str] = {}
 
     def find(x: str) -> str:
@@ -318,9 +391,14 @@ class AcSolution:
         return float(abs(self.voltage(node)[freq_index]))
 
 
+def system_of(netlist: Netlist) -> MnaSystem:
+    """The assembled system of ``netlist`` with its declared AC values, assembled once per netlist object."""
+    return _memo(netlist, "system", lambda: assemble(netlist))
+
+
 def solve_dc(netlist: Netlist) -> DcSolution:
     """DC operating point (capacitors open)."""
-    system = assemble(netlist)
+    system = system_of(netlist)
     return DcSolution(system, system.solve_dc_vector())
 
 
@@ -331,7 +409,10 @@ def solve_ac(
 ) -> AcSolution:
     """Small-signal response at every frequency (Hz), excited by the sources' AC values (or ``ac_excitation``)."""
     f = np.atleast_1d(np.asarray(freqs, dtype=float))
-    system = assemble(netlist, ac_excitation)
+    if ac_excitation is None:
+        system = system_of(netlist)
+    else:
+        system = assemble(netlist, ac_excitation)
     return AcSolution(system, f, system.solve_freqs(f))
 
 
