@@ -37,6 +37,20 @@ def inverting_stage(rf: float, rg: float, cg: float, cf: float, *, a0: float, gb
     return Netlist(tuple(parts) + els, {"U1": inst})
 
 
+def test_r1_inverting_gain_finite_a0() -> None:
+    # [DER][NUM] RULES-REFERENCE R1: Rf 100k, Rg 10k, A0 1e5: G = -9.99890 (Ro 0); -9.998899 (Ro 100 Ω, no load);
+    # -9.998789 with RL = 1 kΩ to ground
+    def stage(ro: float, load: float | None = None) -> Netlist:
+        els, inst = opamp_elements("U1", "0", "inm", "out", a0=1e5, gbw=1e7, ro=ro)
+        extra = (Resistor("RL", "out", "0", load),) if load else ()
+        return Netlist((VoltageSource("V1", "in", "0", dc=1.0), Resistor("Rg", "in", "inm", 1e4),
+                        Resistor("Rf", "inm", "out", 1e5)) + els + extra, {"U1": inst})
+
+    assert solve_dc(stage(0.0)).voltage("out") == pytest.approx(-9.99890, abs=5e-6)
+    assert solve_dc(stage(100.0)).voltage("out") == pytest.approx(-9.998899, abs=5e-7)
+    assert solve_dc(stage(100.0, 1e3)).voltage("out") == pytest.approx(-9.998789, abs=5e-7)
+
+
 # [GHLM] formula, [NUM]: RULES-REFERENCE R2(a) two-pole table (GBW, f2, NG) -> (fc, PM, peaking dB)
 R2A = [
     (10e6, 10e6, 1.0, 7.862e6, 51.83, 1.249),
