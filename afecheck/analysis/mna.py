@@ -5,6 +5,15 @@ frequency as one batched ``numpy.linalg.solve`` over an array of shape (n_freq, 
 response at a node to one named source, ``impedance`` the impedance seen at a node (1 A test current, every
 independent source zeroed). A floating node or a loop of voltage sources raises SingularCircuitError naming
 the nodes or elements, found by a connectivity check before the solve.
+
+Before the batched solve, nodes held by a voltage source to ground and the output nodes of op-amp cores are
+eliminated exactly (their voltages are known or follow from the kept unknowns; their branch currents follow
+from their KCL rows afterwards), so a stage's matrices are a few rows; callers still see the full vector.
+Each netlist object is assembled once and its connectivity verdict kept (:func:`system_of`).
+
+Lower-level use (per-stage code that needs several right-hand sides): ``system_of(netlist)`` or
+``assemble(netlist, ac_excitation)`` gives an :class:`MnaSystem` with ``g``, ``c``, ``b_dc``, ``b_ac``,
+``cores`` and the index of every unknown; ``system.solve_freqs(freqs, rhs=...)`` solves for any right-hand side.
 """
 
 from __future__ import annotations
