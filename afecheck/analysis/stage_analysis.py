@@ -33,7 +33,7 @@ from afecheck.analysis.netlist import (
 )
 from afecheck.analysis.results import NetSignal, SourceEquivalent, StageInput, StageResult
 from afecheck.analysis.sources import Divider, boundary_source, find_dividers
-from afecheck.errors import InputError, SingularCircuitError
+from afecheck.errors import AnalysisError, InputError, SingularCircuitError
 from afecheck.graph.build import Circuit
 from afecheck.graph.queries import has_dc_path
 from afecheck.graph.stages import Stage, StagePlan
@@ -224,7 +224,9 @@ def analyse_unit(circuit: Circuit, plan: StagePlan, unit: tuple[str, ...],
         return _solve_unit(circuit, stages, netlist, inputs, notes)
     except SingularCircuitError as exc:
         reason = f"singular circuit: {exc}"
-        return UnitResult(tuple(_empty_result(s, circuit, (reason, *notes)) for s in stages), ())
+    except (AnalysisError, np.linalg.LinAlgError, ValueError, ArithmeticError) as exc:
+        reason = f"analysis failed: {exc}"
+    return UnitResult(tuple(_empty_result(s, circuit, (reason, *notes)) for s in stages), ())
 
 
 def _solve_unit(circuit: Circuit, stages: list[Stage], netlist: Netlist, inputs: list[_Input],
@@ -243,6 +245,8 @@ def _solve_unit(circuit: Circuit, stages: list[Stage], netlist: Netlist, inputs:
         x = np.linalg.solve(g, np.column_stack([b_const, cols]))
     except np.linalg.LinAlgError:
         raise SingularCircuitError("the DC nodal matrix is singular") from None
+    if not np.all(np.isfinite(x)):
+        raise SingularCircuitError("the DC solution is not finite")
     x_const, x_unit = x[:, 0], x[:, 1:]
 
     lo = x_const.copy()
