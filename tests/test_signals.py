@@ -123,3 +123,21 @@ def test_analysis_cost_grows_linearly_with_channels(tmp_path):
     small, large = seconds(40), seconds(160)
     # four times the channels: linear cost gives about 4x; quadratic would give about 16x (common practice)
     assert large / small < 7.0
+
+
+def test_capacitive_divider_on_the_output_does_not_stop_the_analysis(tmp_path):
+    # the node between two series capacitors has no DC path; its DC value is immaterial to the stage
+    path = tmp_path / "capdiv.yaml"
+    path.write_text("""afecheck: 1
+parts: {P: {gbw: 1 MHz, open_loop_gain: 100 dB, second_pole: 3 MHz, output_resistance: 0}}
+rails: {VP: {voltage: 5 V}}
+signals: {IN: {dc: [0, 1 V]}}
+components:
+  U1: {kind: opamp, part: P, pins: {in+: IN, in-: OUT, out: OUT, v+: VP, v-: GND}}
+  C1: {kind: capacitor, value: 1n, pins: {1: OUT, 2: X}}
+  C2: {kind: capacitor, value: 1n, pins: {1: X, 2: GND}}
+  RL: {kind: resistor, value: 10k, pins: {1: OUT, 2: GND}}
+""", encoding="utf-8")
+    (s,) = analyse(load_design(path)).stages
+    assert s.not_evaluated == ()
+    assert s.vout_max == pytest.approx(1.0, rel=1e-4)  # follower: Vout = Vin (A0 = 1e5)

@@ -39,6 +39,9 @@ from afecheck.graph.queries import has_dc_path
 from afecheck.graph.stages import Stage, StagePlan
 
 HF_FACTOR = 10.0
+# Nets reached only through capacitors (a capacitive divider, a coupling node) get this leak to ground so the
+# DC solve exists; an op-amp input among them is reported as having no DC path, never given a DC range.
+LEAK_RESISTANCE = 1e15
 
 
 @dataclass(frozen=True)
@@ -209,6 +212,8 @@ def analyse_unit(circuit: Circuit, plan: StagePlan, unit: tuple[str, ...],
     nets = set().union(*(set(s.nets) for s in stages))
     inputs, extra, notes = _collect_inputs(circuit, stages, dividers, done)
     extra += _holding_elements(circuit, stages, nets, {i.source.net for i in inputs}, done)
+    extra += [Resistor(f"{net}#leak", _node(circuit, net), GROUND, LEAK_RESISTANCE)
+              for net in sorted(nets) if net not in circuit.fixed and not has_dc_path(circuit, net)]
     d = circuit.loaded.design
     sig_sources = sorted(circuit.signal_nets[n] for n in nets
                          if n in circuit.signal_nets and circuit.signal_nets[n] in circuit.kinds)
