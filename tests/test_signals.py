@@ -129,7 +129,8 @@ def test_capacitive_divider_on_the_output_does_not_stop_the_analysis(tmp_path):
     # the node between two series capacitors has no DC path; its DC value is immaterial to the stage
     path = tmp_path / "capdiv.yaml"
     path.write_text("""afecheck: 1
-parts: {P: {gbw: 1 MHz, open_loop_gain: 100 dB, second_pole: 3 MHz, output_resistance: 0}}
+parts: {P: {gbw: 1 MHz, open_loop_gain: 100 dB, second_pole: 3 MHz, output_resistance: 0, offset_voltage: 0,
+            bias_current: 0, offset_current: 0}}
 rails: {VP: {voltage: 5 V}}
 signals: {IN: {dc: [0, 1 V]}}
 components:
