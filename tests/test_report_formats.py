@@ -12,6 +12,7 @@ import pytest
 from fixtures.gate.fakes import REGISTRY
 
 from afecheck.api import review_files
+from afecheck.commands.check import is_design_file
 from afecheck.engine.finding import Finding, Location, Severity
 from afecheck.report import FORMATS, render
 from afecheck.report.cautions import GENERAL
@@ -21,7 +22,7 @@ from afecheck.report.text import render_text
 HERE = Path(__file__).parent
 GATE = HERE / "fixtures" / "gate"
 SCHEMA = Path(__file__).parents[2] / "shared/schemas/sarif-schema-2.1.0.json"
-SAMPLES = sorted((HERE.parent / "sample_designs").glob("*.yaml"))
+SAMPLES = sorted(p for p in (HERE.parent / "sample_designs").glob("*.yaml") if is_design_file(p))
 TODAY = dt.date(2026, 12, 2)
 
 
