@@ -218,7 +218,7 @@ def analyse_unit(circuit: Circuit, plan: StagePlan, unit: tuple[str, ...],
     sig_sources = sorted(circuit.signal_nets[n] for n in nets
                          if n in circuit.signal_nets and circuit.signal_nets[n] in circuit.kinds)
     comps = list(unit) + sorted(passives - legs) + sig_sources
-    zero = {n: 0.0 for n in d.signals} | {r: 0.0 for r in sig_sources}
+    zero = {n: 0.0 for n in nets if n in d.signals} | {r: 0.0 for r in sig_sources}
     try:
         netlist = netlist_from_design(circuit.loaded, comps, NetlistOptions(signal_dc=zero)).with_elements(*extra)
     except InputError as exc:
