@@ -142,3 +142,16 @@ components:
     (s,) = analyse(load_design(path)).stages
     assert s.not_evaluated == ()
     assert s.vout_max == pytest.approx(1.0, rel=1e-4)  # follower: Vout = Vin (A0 = 1e5)
+
+
+def test_divider_outside_every_stage_gets_its_range(tmp_path):
+    path = tmp_path / "div.yaml"
+    path.write_text("""afecheck: 1
+rails: {VP: {voltage: 5 V, tolerance: 2%}}
+components:
+  R1: {kind: resistor, value: 30k, pins: {1: VP, 2: X}}
+  R2: {kind: resistor, value: 10k, pins: {1: X, 2: GND}}
+""", encoding="utf-8")
+    x = analyse(load_design(path)).nets["X"]
+    # 5 V · (1 ± 2 %) · 10k/40k [FR] RULES-REFERENCE R1 divider formula
+    assert (x.dc_min, x.dc_max) == (pytest.approx(1.225), pytest.approx(1.275))

@@ -3,13 +3,14 @@
 Rails and declared signals seed the table; each solve unit (one op-amp, or a group tied in a loop) then
 takes its upstream stages' output ranges and closed-loop output resistances as Thevenin sources, and adds the
 DC range, AC amplitude and highest frequency of every net it solves. A loop of stages too large to group is
-reported as not evaluated, never a crash.
+reported as not evaluated, never a crash. A divider node outside every stage (nothing on it but its legs)
+gets its Thevenin voltage range.
 """
 
 from __future__ import annotations
 
 from afecheck.analysis.results import NetSignal, StageResult
-from afecheck.analysis.sources import rail_range
+from afecheck.analysis.sources import find_dividers, rail_range
 from afecheck.analysis.stage_analysis import analyse_unit
 from afecheck.graph.build import Circuit
 from afecheck.graph.stages import StagePlan
@@ -46,4 +47,9 @@ def propagate(circuit: Circuit, plan: StagePlan) -> tuple[dict[str, StageResult]
         for ns in res.nets:
             if ns.net not in circuit.fixed and ns.net not in circuit.signal_nets:
                 nets[ns.net] = ns
+    rest = [n for n in circuit.net_pins if n not in nets]
+    for net, dv in find_dividers(circuit, rest, frozenset(circuit.kinds)).items():
+        if len(circuit.net_pins[net]) == len(dv.legs):
+            eq = dv.equivalent()
+            nets[net] = NetSignal(net=net, dc_min=eq.v_min, dc_max=eq.v_max)
     return results, nets, problems
