@@ -340,23 +340,30 @@ def netlist_from_design(
         raise InputError(problems)
 
     if components is not None:
-        for net, load in design.loads.items():
-            if net in touched and load.reference:
+        for net in list(touched):
+            load = design.loads.get(net)
+            if load is not None and load.reference:
                 touched.setdefault(load.reference, None)
-    nets = set(touched) if components is not None else None
+    chosen = list(touched) if components is not None else None
 
-    def wanted(net: str) -> bool:
-        return nets is None or net in nets
+    def section(entries: Mapping) -> list:
+        """The entries of a design section for the chosen nets (all of them for a whole design), in order.
+
+        Looked up per touched net, so a per-stage netlist costs nothing per unrelated net of a large design.
+        """
+        if chosen is None:
+            return list(entries.items())
+        return [(net, entries[net]) for net in chosen if net in entries]
 
     if opts.include_rails:
-        for net, rail in design.rails.items():
-            if rail.voltage is None or net == gnd or not wanted(net) or vtree.joined(node(net), GROUND):
+        for net, rail in section(design.rails):
+            if rail.voltage is None or net == gnd or vtree.joined(node(net), GROUND):
                 continue
             elements.append(VoltageSource(f"{net}#rail", node(net), GROUND, dc=float(rail.voltage)))
             vtree.join(node(net), GROUND)
     if opts.include_signals:
-        for net, sig in design.signals.items():
-            if net == gnd or not wanted(net) or (net in design.rails and vtree.joined(node(net), GROUND)):
+        for net, sig in section(design.signals):
+            if net == gnd or (net in design.rails and vtree.joined(node(net), GROUND)):
                 continue
             dc, ac = dc_of(net, *sig.dc), ac_of(sig.ac_amplitude)
             if sig.source_resistance > 0:
@@ -367,8 +374,8 @@ def netlist_from_design(
                 elements.append(VoltageSource(f"{net}#signal", node(net), GROUND, dc=dc, ac=ac))
                 vtree.join(node(net), GROUND)
     if opts.include_loads:
-        for net, load in design.loads.items():
-            if net == gnd or not wanted(net):
+        for net, load in section(design.loads):
+            if net == gnd:
                 continue
             ref_node = node(load.reference) if load.reference else GROUND
             if load.resistance is not None:
