@@ -231,3 +231,17 @@ def test_reduced_solve_equals_full_matrix_solve() -> None:
     assert np.allclose(system.solve_freqs(f), full[..., 0], rtol=1e-8, atol=1e-15)  # rounding differs
     dc = np.linalg.solve(system.g, system.b_dc)
     assert np.allclose(system.solve_dc_vector(), dc, rtol=1e-8, atol=1e-15)
+
+
+def test_small_systems_in_closed_form_match_numpy() -> None:
+    # one and two unknowns are solved in closed form; badly scaled but regular matrices must not be refused
+    from afecheck.analysis.mna import _solve_small
+
+    rng = np.random.default_rng(7)
+    for m in (1, 2, 3):
+        y = rng.normal(size=(5, m, m)) + 1j * rng.normal(size=(5, m, m))
+        y[:, 0, :] *= 1e-12
+        rhs = rng.normal(size=(5, m)) + 0j
+        assert np.allclose(_solve_small(y, rhs), np.linalg.solve(y, rhs[..., None])[..., 0], rtol=1e-9)
+    with pytest.raises(SingularCircuitError):
+        _solve_small(np.zeros((1, 2, 2)), np.ones((1, 2)))

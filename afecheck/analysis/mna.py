@@ -113,24 +113,27 @@ class MnaSystem:
 class _Reduction:
     """Unknown pairs the solver removes exactly before the batched solve, and the pieces it needs.
 
-    ``known``: (node, branch, sign) of voltage sources with one terminal on ground: the node voltage is the
-    source value (times sign). ``subs``: (node, branch, cpos, cneg, core) of op-amp cores whose output node
-    controls nothing: v(node) = A(jω)·(v(cpos) − v(cneg)) + b[branch]. Each eliminated branch current follows
-    afterwards from its node's KCL row. Only the kept rows and columns are ever built per frequency.
+    Known nodes: nodes held by a voltage source to ground; their voltage is the source value (times ``sign``).
+    Substituted nodes (``subs``): outputs of op-amp cores that control nothing,
+    v(node) = A(jω)·(v(cpos) − v(cneg)) + b[branch]. Each eliminated branch current follows afterwards from its
+    node's KCL row. Only the kept rows and columns (``g_kk``, ``c_kk``) and the kept rows of the eliminated
+    columns (``g_ke``, ``c_ke``: known nodes first, then substituted ones) are built per frequency.
     """
 
     keep: np.ndarray
     where: np.ndarray
-    known: tuple[tuple[int, int, float], ...]
+    known_nodes: np.ndarray
+    known_branches: np.ndarray
+    known_signs: np.ndarray
     subs: tuple[tuple[int, int, int, int, OpAmpCore], ...]
     kept_cores: tuple[tuple[int, int, int, OpAmpCore], ...]
     g_kk: np.ndarray
     c_kk: np.ndarray
     g_ke: np.ndarray
     c_ke: np.ndarray
-    eliminated: tuple[int, ...]
-    rows: tuple[int, ...]
-    row_branch: tuple[int, ...]
+    rows: np.ndarray
+    row_branch: np.ndarray
+    row_diag: np.ndarray
     g_rows: np.ndarray
     c_rows: np.ndarray
 
@@ -152,21 +155,24 @@ def _plan_reduction(system: MnaSystem) -> _Reduction:
         held.add(o)
         subs.append((o, k, cp, cn, core))
     sub_branches = {s[1] for s in subs}
-    drop = {p for p, _, _ in known} | {k for _, k, _ in known} | {o for o, *_ in subs} | sub_branches
+    known_nodes = [p for p, _, _ in known]
+    rows = known_nodes + [o for o, *_ in subs]
+    row_branch = [k for _, k, _ in known] + [s[1] for s in subs]
+    drop = set(rows) | set(row_branch)
     keep = np.array([i for i in range(system.size) if i not in drop], dtype=int)
     where = np.full(system.size, -1, dtype=int)
     where[keep] = np.arange(keep.size)
-    eliminated = tuple(p for p, _, _ in known) + tuple(o for o, *_ in subs)
-    elim = np.array(eliminated, dtype=int)
-    rows = eliminated
-    row_branch = tuple(k for _, k, _ in known) + tuple(s[1] for s in subs)
+    g_k, c_k = system.g[keep], system.c[keep]
+    g_rows, c_rows = system.g[rows], system.c[rows]
     return _Reduction(
-        keep=keep, where=where, known=tuple(known), subs=tuple(subs),
+        keep=keep, where=where, known_nodes=np.array(known_nodes, dtype=int),
+        known_branches=np.array([k for _, k, _ in known], dtype=int),
+        known_signs=np.array([sg for _, _, sg in known], dtype=float), subs=tuple(subs),
         kept_cores=tuple(c for c in system.cores if c[0] not in sub_branches),
-        g_kk=system.g[np.ix_(keep, keep)], c_kk=system.c[np.ix_(keep, keep)],
-        g_ke=system.g[np.ix_(keep, elim)], c_ke=system.c[np.ix_(keep, elim)],
-        eliminated=eliminated, rows=rows, row_branch=row_branch,
-        g_rows=system.g[list(rows), :], c_rows=system.c[list(rows), :],
+        g_kk=g_k[:, keep], c_kk=c_k[:, keep], g_ke=g_k[:, rows], c_ke=c_k[:, rows],
+        rows=np.array(rows, dtype=int), row_branch=np.array(row_branch, dtype=int),
+        row_diag=g_rows[np.arange(len(rows)), row_branch] if rows else np.zeros(0),
+        g_rows=g_rows, c_rows=c_rows,
     )
 
 
@@ -174,39 +180,36 @@ def _reduced_solve(system: MnaSystem, f: np.ndarray, b: np.ndarray) -> np.ndarra
     """Solve (G + jωC + core terms) x = b at every frequency (Hz) on the kept unknowns; returns the full x."""
     red = system.reduction
     nf, n, m = f.size, system.size, red.keep.size
+    n_known = red.known_nodes.size
     dc = not np.any(f)
-    jw = 1j * TWO_PI * f
     b = np.asarray(b)
-    dtype = np.result_type(b.dtype, float if dc else complex)
-    y = np.empty((nf, m, m), dtype=dtype)
-    y[:] = red.g_kk
-    if not dc:
-        y += jw[:, None, None] * red.c_kk
-    rhs = np.empty((nf, m), dtype=dtype)
-    rhs[:] = b[red.keep]
-    cols = np.empty((nf, m, len(red.eliminated)), dtype=dtype)
-    cols[:] = red.g_ke
-    if not dc:
-        cols += jw[:, None, None] * red.c_ke
-    slot = {e: i for i, e in enumerate(red.eliminated)}
+    if dc:
+        y = np.repeat(red.g_kk[None].astype(np.result_type(b.dtype, float)), nf, axis=0)
+        cols = np.repeat(red.g_ke[None].astype(y.dtype), nf, axis=0)
+    else:
+        jw = (1j * TWO_PI * f)[:, None, None]
+        y = red.g_kk + jw * red.c_kk
+        cols = red.g_ke + jw * red.c_ke
+    rhs = np.repeat(b[red.keep][None].astype(np.result_type(b.dtype, y.dtype)), nf, axis=0)
     where = red.where
-    for k, cp, cn, core in red.kept_cores:
-        if dc:
-            continue
-        delta = core.gain(f) - core.a0
-        for node, sgn in ((cp, -1.0), (cn, 1.0)):
-            if node < 0:
-                continue
-            if where[node] >= 0:
-                y[:, where[k], where[node]] += sgn * delta
-            else:
-                cols[:, where[k], slot[node]] += sgn * delta
-    values = {p: sign * b[k] for p, k, sign in red.known}
-    gains = {}
-    for o, k, cp, cn, core in red.subs:
+    if not dc:
+        for k, cp, cn, core in red.kept_cores:
+            delta = core.gain(f) - core.a0
+            for node, sgn in ((cp, -1.0), (cn, 1.0)):
+                if node < 0:
+                    continue
+                if where[node] >= 0:
+                    y[:, where[k], where[node]] += sgn * delta
+                else:
+                    slot = int(np.nonzero(red.rows == node)[0][0])
+                    cols[:, where[k], slot] += sgn * delta
+    values = red.known_signs * b[red.known_branches]
+    value_of = dict(zip(red.known_nodes.tolist(), values.tolist(), strict=True))
+    gains = []
+    for i, (_, k, cp, cn, core) in enumerate(red.subs):
         a = np.full(nf, core.a0) if dc else core.gain(f)
-        gains[o] = a
-        col = cols[:, :, slot[o]]
+        gains.append(a)
+        col = cols[:, :, n_known + i]
         rhs -= col * b[k]
         for node, sgn in ((cp, 1.0), (cn, -1.0)):
             if node < 0:
@@ -215,24 +218,41 @@ def _reduced_solve(system: MnaSystem, f: np.ndarray, b: np.ndarray) -> np.ndarra
             if where[node] >= 0:
                 y[:, :, where[node]] += term
             else:
-                rhs -= term * values[node]
-    for p, val in values.items():
-        rhs -= cols[:, :, slot[p]] * val
-    x = np.zeros((nf, n), dtype=dtype)
+                rhs -= term * value_of[node]
+    if n_known:
+        rhs -= cols[:, :, :n_known] @ values
+    x = np.zeros((nf, n), dtype=np.result_type(y.dtype, rhs.dtype))
     if m:
-        x[:, red.keep] = _solve(y, rhs[:, :, None])[..., 0]
-    for p, val in values.items():
-        x[:, p] = val
-    for o, k, cp, cn, _ in red.subs:
+        x[:, red.keep] = _solve_small(y, rhs)
+    x[:, red.known_nodes] = values
+    for (o, k, cp, cn, _), a in zip(red.subs, gains, strict=True):
         vp = x[:, cp] if cp >= 0 else 0.0
         vn = x[:, cn] if cn >= 0 else 0.0
-        x[:, o] = gains[o] * (vp - vn) + b[k]
-    if red.rows:
+        x[:, o] = a * (vp - vn) + b[k]
+    if red.rows.size:
         flow = x @ red.g_rows.T
         if not dc:
-            flow = flow + jw[:, None] * (x @ red.c_rows.T)
-        for r, (row, k) in enumerate(zip(red.rows, red.row_branch, strict=True)):
-            x[:, k] = (b[row] - flow[:, r]) / red.g_rows[r, k]
+            flow = flow + (1j * TWO_PI * f)[:, None] * (x @ red.c_rows.T)
+        x[:, red.row_branch] = (b[red.rows] - flow) / red.row_diag
+    return x
+
+
+def _solve_small(y: np.ndarray, rhs: np.ndarray) -> np.ndarray:
+    """Batched y x = rhs; one and two unknowns in closed form (no per-matrix LAPACK call), else numpy."""
+    m = y.shape[-1]
+    if m > 2:
+        return _solve(y, rhs[:, :, None])[..., 0]
+    with np.errstate(divide="ignore", invalid="ignore"):
+        if m == 1:
+            det = y[:, 0, 0]
+            x = rhs / det[:, None]
+        else:
+            det = y[:, 0, 0] * y[:, 1, 1] - y[:, 0, 1] * y[:, 1, 0]
+            x = np.empty_like(rhs)
+            x[:, 0] = (rhs[:, 0] * y[:, 1, 1] - y[:, 0, 1] * rhs[:, 1]) / det
+            x[:, 1] = (y[:, 0, 0] * rhs[:, 1] - rhs[:, 0] * y[:, 1, 0]) / det
+    if np.any(det == 0) or not np.all(np.isfinite(x)):
+        raise SingularCircuitError("the nodal matrix is singular (no unique operating point)")
     return x
 
 
