@@ -196,3 +196,18 @@ def test_sweep_covers_the_op_amp() -> None:
     assert lo == pytest.approx(1e6 / 1e5 / 10) and hi == pytest.approx(3e6 * 100)
     assert _sweep_range(Netlist((Resistor("R", "a", "0", 1.0),))) == (1.0, 1e9)
     assert math.isfinite(hi)
+
+
+@pytest.mark.ngspice
+@needs_ngspice
+def test_single_pole_part_in_ngspice() -> None:
+    # a part without a second pole is written with one RC pole only, and still agrees with the solver
+    els, inst = opamp_elements("U1", "in", "m", "o", a0=1e5, gbw=1e6, ro=10.0)
+    nl = Netlist((VoltageSource("V1", "in", "0", dc=0.1, ac=1.0), Resistor("Rf", "o", "m", 9e3),
+                  Resistor("Rg", "m", "0", 1e3)) + els, {"U1": inst})
+    deck = spice_deck(nl, "single pole", ControlBlock(ac=AcSweep(10, 1.0, 1e8)))
+    assert sum(1 for ln in deck.text.splitlines() if ln.startswith("CU1_gain_c")) == 1
+    _, work = run_ngspice(deck.text)
+    raw = read_raw(work / "ac.raw")
+    mine = solve_ac(nl, raw["frequency"].real).voltage("o")
+    assert max(abs(mine - raw[deck.vector("o")]) / abs(mine)) < 1e-6

@@ -31,6 +31,7 @@ from afecheck.analysis.netlist import (
 from afecheck.parts.model import OpAmpModel
 
 POLE_RESISTANCE = 1.0
+NO_POLE_HZ = 1e30  # a "pole" this high changes nothing below light frequencies; the expansion leaves it out
 
 
 @dataclass(frozen=True)
@@ -106,7 +107,8 @@ def opamp_macromodel(
 def expand_core(core: OpAmpCore) -> tuple[Element, ...]:
     """The core as standard elements: Vos in series with the + input, a VCVS of gain A0, then each pole as an
     RC low-pass (1 Ω) buffered by a unity VCVS; the last buffer drives ``core.pos``. Internal nodes are
-    ``<core name>#...`` and ``core.neg`` is their reference."""
+    ``<core name>#...`` and ``core.neg`` is their reference. A pole at or above 1e30 Hz (a single-pole part) is
+    left out."""
     n = core.name + "#"
     ref = core.neg
     els: list[Element] = []
@@ -114,7 +116,7 @@ def expand_core(core: OpAmpCore) -> tuple[Element, ...]:
     if core.vos != 0.0:
         sense = n + "p"
         els.append(VoltageSource(n + "vos", sense, core.cpos, dc=core.vos))
-    poles = [p for p in (core.fp1, core.fp2) if math.isfinite(p)]
+    poles = [p for p in (core.fp1, core.fp2) if p < NO_POLE_HZ]
     node = n + "a" if poles else core.pos
     els.append(Vcvs(n + "a0", node, ref, sense, core.cneg, core.a0))
     for i, fp in enumerate(poles, start=1):
