@@ -20,7 +20,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from afecheck.analysis.loop import loop_gain
-from afecheck.analysis.mna import assemble, check_connectivity
+from afecheck.analysis.mna import MnaSystem, assemble, check_connectivity
 from afecheck.analysis.netlist import (
     GROUND,
     Capacitor,
@@ -285,7 +285,7 @@ def _solve_unit(circuit: Circuit, stages: list[Stage], netlist: Netlist, inputs:
     return UnitResult(tuple(results), tuple(net_signals))
 
 
-def _grid_solutions(system, g: np.ndarray, inp: _Input, base: np.ndarray) -> np.ndarray:
+def _grid_solutions(system: MnaSystem, g: np.ndarray, inp: _Input, base: np.ndarray) -> np.ndarray:
     """Unit-source solutions at each grid point of the input's Thevenin resistance, shape (points, n)."""
     if len(inp.rth) == 1 or inp.series is None:
         return base[None, :]
@@ -304,8 +304,10 @@ def _grid_solutions(system, g: np.ndarray, inp: _Input, base: np.ndarray) -> np.
     return np.linalg.solve(mats, rhs)[..., 0]
 
 
-def _ac_amplitudes(system, inputs: list[_Input], n: int) -> tuple[np.ndarray, np.ndarray, dict[int, np.ndarray],
-                                                                 dict[int, np.ndarray]]:
+AcResult = tuple[np.ndarray, np.ndarray, dict[int, np.ndarray], dict[int, np.ndarray]]
+
+
+def _ac_amplitudes(system: MnaSystem, inputs: list[_Input], n: int) -> AcResult:
     """AC amplitude (sum over inputs of amplitude × largest |H| over the input's band), highest frequency,
     each AC input's complex unit solution in the middle of its band, and each band-limited input's largest |H|."""
     amp = np.zeros(n)
@@ -339,7 +341,7 @@ def _ac_amplitudes(system, inputs: list[_Input], n: int) -> tuple[np.ndarray, np
     return amp, fmax, mid, peak
 
 
-def _admittance(system, f: np.ndarray) -> np.ndarray:
+def _admittance(system: MnaSystem, f: np.ndarray) -> np.ndarray:
     """(G + jωC) at every frequency with each op-amp core's frequency-dependent gain, shape (n_freq, n, n)."""
     y = system.g[None, :, :] + (2j * math.pi * f)[:, None, None] * system.c[None, :, :]
     for k, cp, cn, core in system.cores:
@@ -359,8 +361,10 @@ def _band(inp: _Input) -> list[float]:
     return [flo, math.sqrt(flo * fhi), fhi]
 
 
-def _stage_result(circuit: Circuit, s: Stage, netlist: Netlist, system, inputs: list[_Input], x_unit: np.ndarray,
-                  per_input, lo: np.ndarray, hi: np.ndarray, ac, notes: list[str]) -> StageResult:
+def _stage_result(circuit: Circuit, s: Stage, netlist: Netlist, system: MnaSystem, inputs: list[_Input],
+                  x_unit: np.ndarray, per_input: list[tuple[np.ndarray, np.ndarray, np.ndarray]], lo: np.ndarray,
+                  hi: np.ndarray, ac: AcResult, notes: list[str]) -> StageResult:
+    """Fill one op-amp's StageResult from the unit's DC solutions, AC amplitudes and its own loop gain."""
     ac_amp, fmax, ac_mid, ac_peak = ac
     idx = system.node_index
     out = idx(_node(circuit, s.out))

@@ -6,7 +6,10 @@ import argparse
 import dataclasses
 import json
 import math
-from typing import TextIO
+from typing import TYPE_CHECKING, TextIO
+
+if TYPE_CHECKING:
+    from afecheck.analysis.results import DesignAnalysis, StageInput, StageResult
 
 HELP = "print every op-amp stage with the numbers the rules stand on"
 JSON_SCHEMA_VERSION = 1
@@ -43,7 +46,7 @@ def _clean(value: object) -> object:
     return value
 
 
-def render_json(name: str, file: str, analysis) -> str:  # noqa: ANN001 - DesignAnalysis, imported lazily
+def render_json(name: str, file: str, analysis: DesignAnalysis) -> str:
     """The whole analysis as JSON: every stage field, every net signal, what was not evaluated."""
     data = {
         "schema_version": JSON_SCHEMA_VERSION,
@@ -66,12 +69,13 @@ def _span(lo: float | None, hi: float | None) -> str:
     return f"{lo:.3f}..{hi:.3f}"
 
 
-def _main_input(stage):  # noqa: ANN001, ANN202 - StageResult / StageInput
+def _main_input(stage: StageResult) -> StageInput | None:
+    """The input with the largest gain among the signal (non-rail) inputs."""
     signals = [i for i in stage.inputs if i.source.kind not in ("rail", "vsource")]
-    return max(signals, key=lambda i: abs(i.gain), default=None) if signals else None
+    return max(signals, key=lambda i: abs(i.gain), default=None)
 
 
-def _gain(main) -> str:  # noqa: ANN001 - StageInput or None
+def _gain(main: StageInput | None) -> str:
     """DC gain of the main input; for an AC-coupled input (no DC gain) its in-band gain, marked ``ac``."""
     if main is None:
         return "-"
@@ -80,7 +84,7 @@ def _gain(main) -> str:  # noqa: ANN001 - StageInput or None
     return _num(main.gain)
 
 
-def render_text(name: str, analysis) -> str:  # noqa: ANN001 - DesignAnalysis, imported lazily
+def render_text(name: str, analysis: DesignAnalysis) -> str:
     """One row per stage, then each stage's inputs, then what could not be evaluated."""
     from afecheck.model.units import format_si
 

@@ -116,8 +116,9 @@ def _signal_terminals(circuit: Circuit, region: Region, group: tuple[str, ...], 
     return found
 
 
-def classify(circuit: Circuit, ref: str, plus: Region, minus: Region, group: tuple[str, ...]) -> tuple[Topology,
-                                                                                                       tuple[str, ...]]:
+def classify(
+    circuit: Circuit, ref: str, plus: Region, minus: Region, group: tuple[str, ...]
+) -> tuple[Topology, tuple[str, ...]]:
     """Topology of op-amp ``ref`` (criteria in the module docstring) and its feedback parts."""
     pins = circuit.pins[ref]
     inp, inm, out = pins.get("in+"), pins.get("in-"), pins.get("out")
