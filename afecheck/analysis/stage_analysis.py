@@ -3,7 +3,8 @@
 The local circuit is the op-amps with their macromodels, the stage's passives, a Thevenin source on every
 input (declared signal, signal source, rail, divider, upstream stage output with its closed-loop output
 resistance) and the loads on its nets; other op-amps' outputs it reaches hold their nets, other op-amps'
-``in-`` nets it reaches are virtual grounds. Cost grows with the stage, not the design.
+``in-`` nets it reaches are virtual grounds (following their ``in+`` net when the stage reaches it, else held at
+its fixed voltage). Cost grows with the stage, not the design.
 
 Every input is a unit column of one DC solve (superposition): its gain, the voltage it leaves at its own net
 (so ideal gain = gain / that voltage, loading error = 1 − that voltage, input resistance = voltage / current
@@ -28,6 +29,7 @@ from afecheck.analysis.netlist import (
     Netlist,
     NetlistOptions,
     Resistor,
+    Vcvs,
     VoltageSource,
     netlist_from_design,
 )
@@ -181,8 +183,12 @@ def _holding_elements(circuit: Circuit, stages: list[Stage], nets: set[str], see
             continue
         for ref, pin in circuit.net_pins.get(net, ()):
             if pin == "in-" and circuit.kinds[ref] == "opamp" and ref not in unit:
-                vp = circuit.fixed.get(circuit.pins[ref].get("in+", ""))
-                extra.append(VoltageSource(f"{net}#vg", _node(circuit, net), GROUND, dc=float(vp or 0.0)))
+                plus = circuit.pins[ref].get("in+", "")
+                if plus in nets and plus not in circuit.fixed:
+                    extra.append(Vcvs(f"{net}#vg", _node(circuit, net), GROUND, _node(circuit, plus), GROUND, 1.0))
+                else:
+                    vp = circuit.fixed.get(plus)
+                    extra.append(VoltageSource(f"{net}#vg", _node(circuit, net), GROUND, dc=float(vp or 0.0)))
                 break
     for net in sorted(nets - set(circuit.fixed)):
         for ref, pin in circuit.net_pins.get(net, ()):
