@@ -143,7 +143,8 @@ def test_grouped_instrumentation_amplifier_matches_ngspice(tmp_path, v_brp):
     a = analyse(load_design(FIXTURES / "instrumentation.yaml"))
     out = a.nets["OUT"]
     # the same three op-amps by hand: A0 = 110 dB VCVS, Ro = 50 Ω, Rdiff and Rcm 10 GΩ, sources with 350 Ω
-    amp = "E{n} {n}o 0 {p} {m} 316227.766016838\nRO{n} {n}o {o} 50\nRD{n} {p} {m} 10G\nRCP{n} {p} 0 10G\nRCM{n} {m} 0 10G\n"
+    amp = ("E{n} {n}o 0 {p} {m} 316227.766016838\nRO{n} {n}o {o} 50\n"
+           "RD{n} {p} {m} 10G\nRCP{n} {p} 0 10G\nRCM{n} {m} 0 10G\n")
     deck = (
         "grouped instrumentation amplifier\n"
         f"VP sp 0 DC {v_brp}\nRSP sp brp 350\nVN sn 0 DC 2.5\nRSN sn brn 350\n"
