@@ -1,11 +1,13 @@
 """Loop gain as Bode's return ratio at an op-amp's controlled source (RULES-REFERENCE 0.4).
 
-Every independent source is zeroed, the op-amp's gain VCVS is replaced by a test source vt, and
-T(jω) = −A0·(v+ − v−)/vt. This is exact for a VCVS and includes Ro, loads, input capacitance and source
-impedances; other op-amps in the same netlist keep their gain, so stages tied in a loop work. From T:
-crossover (smallest f with |T| = 1, bracketed on the grid then refined on the exact solve), phase margin
-180° + ∠T(fc) with the phase unwrapped from DC, gain margin at the first −180° crossing, the DC sign of the
-feedback, and the noise gain A/T.
+Every independent source is zeroed, the op-amp's controlled source (its core, A(jω) with both poles) is
+replaced by a test source vt, and T(jω) = −A(jω)·(v+ − v−)/vt. This is exact for a VCVS and includes Ro,
+loads, input capacitance and source impedances; other op-amps in the same netlist keep their gain, so stages
+tied in a loop work. From T: crossover (the smallest f where |T| falls through 1, bracketed on the grid then
+refined on the exact solve), phase margin 180° + ∠T(fc) with the phase unwrapped from DC, gain margin at the
+first −180° crossing, the DC sign of the feedback (|T(0)| < 1e-6·A0 counts as none), and the noise gain A/T.
+The grid should start below the dominant pole so that the unwrapped phase starts on the right branch;
+:func:`default_loop_grid` does.
 """
 
 from __future__ import annotations
