@@ -245,3 +245,12 @@ def test_small_systems_in_closed_form_match_numpy() -> None:
         assert np.allclose(_solve_small(y, rhs), np.linalg.solve(y, rhs[..., None])[..., 0], rtol=1e-9)
     with pytest.raises(SingularCircuitError):
         _solve_small(np.zeros((1, 2, 2)), np.ones((1, 2)))
+
+
+def test_subset_brings_the_load_reference_rail(soil) -> None:
+    # U1 alone: its output load returns to VREF, so VREF gets its rail source (V1 is not in the subset)
+    nl = netlist_from_design(soil, ["U1"])
+    names = {e.name for e in nl.elements}
+    assert {"OUT#load.r", "OUT#load.c", "VREF#rail", "VCC#rail"} <= names
+    assert "SENSE#signal" not in names
+    assert nl.element("OUT#load.r").b == "VREF"
