@@ -254,3 +254,13 @@ def test_subset_brings_the_load_reference_rail(soil) -> None:
     assert {"OUT#load.r", "OUT#load.c", "VREF#rail", "VCC#rail"} <= names
     assert "SENSE#signal" not in names
     assert nl.element("OUT#load.r").b == "VREF"
+
+
+def test_ntc_at_absolute_zero_is_input_error(tmp_path) -> None:
+    from afecheck.model.load import load_design
+
+    path = tmp_path / "cold.yaml"
+    path.write_text(DESIGN.replace("temperature: [0 °C, 50 °C]", "temperature: [-273.15 °C, -273.15 °C]"),
+                    encoding="utf-8")
+    with pytest.raises(InputError, match="RT1"):
+        netlist_from_design(load_design(path))

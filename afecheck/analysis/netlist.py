@@ -306,7 +306,16 @@ def netlist_from_design(
             t = opts.ntc_temperature_c.get(ref, opts.temperature_c)
             if t is None:
                 t = 0.5 * (comp.temperature[0] + comp.temperature[1])
-            elements.append(Resistor(ref, pin(ref, "1"), pin(ref, "2"), ntc_resistance(comp.r25, comp.beta, t)))
+            try:
+                r_t = ntc_resistance(comp.r25, comp.beta, t)
+            except (ZeroDivisionError, OverflowError):
+                r_t = math.nan
+            if not (math.isfinite(r_t) and r_t > 0):
+                file, line, col = loaded.position("components", ref, "temperature")
+                problems.append(Problem(file, line, col, f"components.{ref}.temperature",
+                                        f"the Beta model gives no finite resistance at {t:g} °C"))
+                continue
+            elements.append(Resistor(ref, pin(ref, "1"), pin(ref, "2"), r_t))
         elif kind == "vsource":
             p, n = pin(ref, "p"), pin(ref, "n")
             elements.append(VoltageSource(ref, p, n, dc=float(comp.value)))
