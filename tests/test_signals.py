@@ -160,3 +160,27 @@ components:
     x = analyse(load_design(path)).nets["X"]
     # 5 V · (1 ± 2 %) · 10k/40k [FR] RULES-REFERENCE R1 divider formula
     assert (x.dc_min, x.dc_max) == (pytest.approx(1.225), pytest.approx(1.275))
+
+
+def test_loop_gain_memo_gives_the_same_results_and_tells_circuits_apart(tmp_path, monkeypatch):
+    import itertools
+
+    import afecheck.analysis.stage_analysis as sa
+
+    channel = """  U{n}: {{kind: opamp, part: P, pins: {{in+: IN{n}, in-: F{n}, out: O{n}, v+: VP, v-: VN}}}}
+  RF{n}: {{kind: resistor, value: {rf}, pins: {{1: O{n}, 2: F{n}}}}}
+  RG{n}: {{kind: resistor, value: 10k, pins: {{1: F{n}, 2: GND}}}}
+"""
+    body = CHAIN.split("components:")[0] + "components:\n" + "".join(
+        channel.format(n=n, rf=rf) for n, rf in ((1, "10k"), (2, "10k"), (3, "90k")))
+    body += "signals:\n" + "".join(f"  IN{n}: {{dc: [0, 0.1 V]}}\n" for n in (1, 2, 3))
+    body += "loads:\n" + "".join(f"  O{n}: {{resistance: 10k}}\n" for n in (1, 2, 3))
+    path = tmp_path / "channels.yaml"
+    path.write_text(body, encoding="utf-8")
+    memo = analyse(load_design(path))
+    counter = itertools.count()
+    monkeypatch.setattr(sa, "_circuit_key", lambda netlist, probed: next(counter))
+    fresh = analyse(load_design(path))
+    assert memo.stages == fresh.stages
+    pm = {s.opamp: s.phase_margin_deg for s in memo.stages}
+    assert pm["U1"] == pm["U2"] != pm["U3"]  # NG 2 and NG 10 differ [GHLM] R2(a)

@@ -40,8 +40,9 @@ def propagate(circuit: Circuit, plan: StagePlan) -> tuple[dict[str, StageResult]
         (loop, f"stages {', '.join(loop)} form a feedback loop larger than can be solved as one group")
         for loop in plan.unsolved_loops
     ]
+    cache: dict = {}
     for unit in plan.units:
-        res = analyse_unit(circuit, plan, unit, results)
+        res = analyse_unit(circuit, plan, unit, results, cache)
         for r in res.stages:
             results[r.opamp] = r
         for ns in res.nets:

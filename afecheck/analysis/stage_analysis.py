@@ -28,9 +28,12 @@ from afecheck.analysis.netlist import (
     Element,
     Netlist,
     NetlistOptions,
+    OpAmpCore,
     Resistor,
+    Vccs,
     Vcvs,
     VoltageSource,
+    element_nodes,
     netlist_from_design,
 )
 from afecheck.analysis.results import NetSignal, SourceEquivalent, StageInput, StageResult
@@ -203,8 +206,11 @@ def _holding_elements(circuit: Circuit, stages: list[Stage], nets: set[str], see
 
 
 def analyse_unit(circuit: Circuit, plan: StagePlan, unit: tuple[str, ...],
-                 done: Mapping[str, StageResult]) -> UnitResult:
-    """Solve the op-amps of ``unit`` together and return their StageResults and net signals."""
+                 done: Mapping[str, StageResult], cache: dict | None = None) -> UnitResult:
+    """Solve the op-amps of ``unit`` together and return their StageResults and net signals.
+
+    ``cache`` (one dict per design) memoises loop gains of stages whose local circuits are identical.
+    """
     stages = [plan.stages[r] for r in unit]
     for s in stages:
         if not s.out or not s.in_plus or not s.in_minus:
@@ -232,7 +238,7 @@ def analyse_unit(circuit: Circuit, plan: StagePlan, unit: tuple[str, ...],
     names = {e.name for e in netlist.elements}
     inputs = [i for i in inputs if i.branch in names]
     try:
-        return _solve_unit(circuit, stages, netlist, inputs, notes)
+        return _solve_unit(circuit, stages, netlist, inputs, notes, cache)
     except SingularCircuitError as exc:
         reason = f"singular circuit: {exc}"
     except (AnalysisError, np.linalg.LinAlgError, ValueError, ArithmeticError) as exc:
@@ -241,7 +247,7 @@ def analyse_unit(circuit: Circuit, plan: StagePlan, unit: tuple[str, ...],
 
 
 def _solve_unit(circuit: Circuit, stages: list[Stage], netlist: Netlist, inputs: list[_Input],
-                notes: list[str]) -> UnitResult:
+                notes: list[str], cache: dict | None = None) -> UnitResult:
     check_connectivity(netlist, dc=True)
     system = assemble(netlist)
     n = system.size
@@ -278,7 +284,7 @@ def _solve_unit(circuit: Circuit, stages: list[Stage], netlist: Netlist, inputs:
     results = []
     for s in stages:
         results.append(_stage_result(circuit, s, netlist, system, inputs, x_unit, per_input, lo, hi,
-                                     ac, notes))
+                                     ac, notes, cache))
     fixed = set(circuit.fixed)
     net_signals = []
     for net in sorted(set().union(*(set(s.nets) for s in stages)) - fixed):
@@ -369,7 +375,7 @@ def _band(inp: _Input) -> list[float]:
 
 def _stage_result(circuit: Circuit, s: Stage, netlist: Netlist, system: MnaSystem, inputs: list[_Input],
                   x_unit: np.ndarray, per_input: list[tuple[np.ndarray, np.ndarray, np.ndarray]], lo: np.ndarray,
-                  hi: np.ndarray, ac: AcResult, notes: list[str]) -> StageResult:
+                  hi: np.ndarray, ac: AcResult, notes: list[str], cache: dict | None = None) -> StageResult:
     """Fill one op-amp's StageResult from the unit's DC solutions, AC amplitudes and its own loop gain."""
     ac_amp, fmax, ac_mid, ac_peak = ac
     idx = system.node_index
@@ -422,30 +428,9 @@ def _stage_result(circuit: Circuit, s: Stage, netlist: Netlist, system: MnaSyste
         iout_peak += vac / load_r if load_r else 0.0
         iout_peak += 2 * math.pi * f_max * load_c * vac
 
-    fb: str = "none"
-    t_dc = fc = pm = gm = t_fmax = ng_dc = ng_fc = ng_hf = None
-    try:
-        lg = loop_gain(netlist, s.opamp)
-        fb = lg.sign
-        t_dc = lg.t_dc
-        if fb == "none":
-            reasons.append("no DC feedback: the loop gain at DC is negligible (output range not evaluated)")
-        else:
-            fc, pm, gm = lg.crossover_hz, lg.phase_margin_deg, lg.gain_margin_db
-            ng_dc = lg.noise_gain_dc
-            ng_dc = abs(ng_dc) if ng_dc is not None else None
-            f_hf = HF_FACTOR * max(op.open_loop_gain * op.pole1_hz, op.pole2_hz)
-            probe = np.array([f_hf, fc or f_hf, f_max if f_max > 0 else f_hf])
-            t_probe = lg.at(probe)
-            ng = np.abs(op.open_loop_response(probe) / t_probe)
-            ng_hf = float(ng[0])
-            ng_fc = float(ng[1]) if fc else None
-            if f_max > 0:
-                t_fmax = float(abs(t_probe[2]))
-            if fc is None:
-                reasons.append("no crossover: |T| never falls through 1 on the grid")
-    except SingularCircuitError as exc:
-        reasons.append(f"loop gain: singular circuit: {exc}")
+    loop = _loop_numbers(netlist, s.opamp, f_max, cache)
+    fb, t_dc, fc, pm, gm, ng_dc, ng_fc, ng_hf, t_fmax = loop.numbers
+    reasons += loop.reasons
 
     rout = None
     if out >= 0 and fb == "negative":
@@ -468,13 +453,13 @@ def _stage_result(circuit: Circuit, s: Stage, netlist: Netlist, system: MnaSyste
     return StageResult(
         opamp=s.opamp, part=part, topology=s.topology, refs=s.refs, in_plus=s.in_plus, in_minus=s.in_minus,
         out=s.out, group=s.group, inputs=tuple(stage_inputs),
-        noise_gain_dc=_f(ng_dc), noise_gain_at_crossover=_f(ng_fc), noise_gain_hf=_f(ng_hf),
+        noise_gain_dc=ng_dc, noise_gain_at_crossover=ng_fc, noise_gain_hf=ng_hf,
         output_resistance=rout, vcm_min=None if floating or inp_i < 0 else float(lo[inp_i]),
         vcm_max=None if floating or inp_i < 0 else float(hi[inp_i]), vout_min=None if open_loop else vout_min,
         vout_max=None if open_loop else vout_max, iout_peak=None if open_loop else iout_peak,
         vout_ac_peak=vac, f_max=f_max, load_resistance=load_r, load_capacitance=load_c,
-        feedback=fb, loop_gain_dc=_f(t_dc), crossover_hz=_f(fc), phase_margin_deg=_f(pm), gain_margin_db=_f(gm),
-        loop_gain_at_fmax=_f(t_fmax), required_slew_rate=float(2 * math.pi * f_max * vpk),
+        feedback=fb, loop_gain_dc=t_dc, crossover_hz=fc, phase_margin_deg=pm, gain_margin_db=gm,
+        loop_gain_at_fmax=t_fmax, required_slew_rate=float(2 * math.pi * f_max * vpk),
         rail_plus=vp, rail_minus=vm, assumed=tuple(op.assumed), estimated="second_pole" in op.assumed,
         not_evaluated=tuple(reasons),
     )
@@ -510,6 +495,78 @@ def _series_path(circuit: Circuit, start: str, goal: str, refs: frozenset[str], 
                         return tuple(reversed(path))
                     queue.append(nxt)
     return ()
+
+
+@dataclass(frozen=True)
+class _Loop:
+    """Loop-gain numbers of one op-amp: sign, T(0), fc, PM, GM, NG at DC/fc/HF, |T(f_max)|; and the notes."""
+
+    numbers: tuple
+    reasons: tuple[str, ...]
+
+
+def _loop_numbers(netlist: Netlist, ref: str, f_max: float, cache: dict | None) -> _Loop:
+    """Return-ratio numbers of op-amp ``ref``, memoised on the local circuit's shape and values.
+
+    Stages repeated channel after channel have the same local circuit up to names; the loop gain depends only on
+    the elements (sources zeroed), so one solve serves them all.
+    """
+    key = None
+    if cache is not None:
+        key = (_circuit_key(netlist, netlist.opamps[ref].loop_element), f_max)
+        if key in cache:
+            return cache[key]
+    op = netlist.opamps[ref]
+    fb: str = "none"
+    t_dc = fc = pm = gm = t_fmax = ng_dc = ng_fc = ng_hf = None
+    reasons: list[str] = []
+    try:
+        lg = loop_gain(netlist, ref)
+        fb = lg.sign
+        t_dc = lg.t_dc
+        if fb == "none":
+            reasons.append("no DC feedback: the loop gain at DC is negligible (output range not evaluated)")
+        else:
+            fc, pm, gm = lg.crossover_hz, lg.phase_margin_deg, lg.gain_margin_db
+            ng_dc = lg.noise_gain_dc
+            ng_dc = abs(ng_dc) if ng_dc is not None else None
+            f_hf = HF_FACTOR * max(op.open_loop_gain * op.pole1_hz, op.pole2_hz)
+            probe = np.array([f_hf, fc or f_hf, f_max if f_max > 0 else f_hf])
+            t_probe = lg.at(probe)
+            ng = np.abs(op.open_loop_response(probe) / t_probe)
+            ng_hf = float(ng[0])
+            ng_fc = float(ng[1]) if fc else None
+            if f_max > 0:
+                t_fmax = float(abs(t_probe[2]))
+            if fc is None:
+                reasons.append("no crossover: |T| never falls through 1 on the grid")
+    except SingularCircuitError as exc:
+        reasons.append(f"loop gain: singular circuit: {exc}")
+    result = _Loop((fb, _f(t_dc), _f(fc), _f(pm), _f(gm), _f(ng_dc), _f(ng_fc), _f(ng_hf), _f(t_fmax)),
+                   tuple(reasons))
+    if key is not None:
+        cache[key] = result
+    return result
+
+
+def _circuit_key(netlist: Netlist, probed: str) -> tuple:
+    """The netlist with names replaced by first-seen node numbers, source values dropped, and the probed element
+    marked: equal keys mean the same circuit, so the same loop gain."""
+    numbers: dict[str, int] = {GROUND: -1}
+    key: list[tuple] = []
+    for e in netlist.elements:
+        nodes = tuple(numbers.setdefault(n, len(numbers)) for n in element_nodes(e))
+        if isinstance(e, (Resistor, Capacitor)):
+            key.append((type(e).__name__, nodes, e.value))
+        elif isinstance(e, OpAmpCore):
+            key.append(("core", nodes, e.a0, e.fp1, e.fp2, e.name == probed))
+        elif isinstance(e, Vcvs):
+            key.append(("vcvs", nodes, e.gain, e.name == probed))
+        elif isinstance(e, Vccs):
+            key.append(("vccs", nodes, e.gm))
+        else:
+            key.append((type(e).__name__, nodes))
+    return tuple(key)
 
 
 def _f(v: float | None) -> float | None:
