@@ -25,6 +25,7 @@ from afecheck.errors import SingularCircuitError
 
 FeedbackSign = Literal["negative", "positive", "none"]
 NO_FEEDBACK_FRACTION = 1e-6
+MAX_CROSSOVERS = 8
 _ROUNDS = 2
 _SUBGRID = 24
 _FRACTIONS = np.linspace(0.0, 1.0, _SUBGRID)
@@ -36,6 +37,9 @@ class LoopGain:
 
     ``t`` is T(jf) at ``freqs``; ``t_dc`` is T at 0 Hz (None when the circuit has no DC solution);
     ``gain_margin`` is 1/|T| at the first −180° crossing (None if the phase never gets there).
+    ``crossovers_hz`` / ``phase_margins_deg`` list every fall of |T| through 1 on the grid (up to eight) with the
+    margin at each: a loop whose |T| dips below 1 in a notch and rises again has more than one, and the first
+    (``crossover_hz``) is then not the one that decides stability.
     """
 
     opamp: OpAmpInstance
@@ -49,6 +53,8 @@ class LoopGain:
     phase_crossover_hz: float | None
     gain_margin: float | None
     probe: LoopProbe
+    crossovers_hz: tuple[float, ...] = ()
+    phase_margins_deg: tuple[float, ...] = ()
 
     @property
     def gain_margin_db(self) -> float | None:
@@ -162,9 +168,7 @@ def loop_gain(netlist: Netlist, refdes: str, freqs: Sequence[float] | np.ndarray
     phase = _unwrap_from(raw, start)
     mag = np.abs(t)
     brackets: list[_Bracket] = []
-    falls = np.nonzero((mag[:-1] > 1.0) & (mag[1:] <= 1.0))[0]
-    if falls.size:
-        i = int(falls[0])
+    for i in np.nonzero((mag[:-1] > 1.0) & (mag[1:] <= 1.0))[0][:MAX_CROSSOVERS]:
         brackets.append(_Bracket("magnitude", f[i], f[i + 1], t[i:i + 2], phase[i:i + 2]))
     if sign != "positive":
         below = np.nonzero((phase[:-1] > -180.0) & (phase[1:] <= -180.0))[0]
@@ -172,14 +176,19 @@ def loop_gain(netlist: Netlist, refdes: str, freqs: Sequence[float] | np.ndarray
             i = int(below[0])
             brackets.append(_Bracket("phase", f[i], f[i + 1], t[i:i + 2], phase[i:i + 2]))
     found = _refine_brackets(probe, brackets)
+    crossings = [(fx, ph) for b, (fx, _, ph) in zip(brackets, found, strict=True) if b.kind == "magnitude"]
     fc = pm = f180 = gm = None
-    if "magnitude" in found:
-        fc, _, ph = found["magnitude"]
-        pm = None if sign == "positive" else float(180.0 + ph)
-    if "phase" in found:
-        f180, m180, _ = found["phase"]
+    margins: tuple[float, ...] = ()
+    if crossings:
+        fc = crossings[0][0]
+        if sign != "positive":
+            margins = tuple(float(180.0 + ph) for _, ph in crossings)
+            pm = margins[0]
+    if brackets and brackets[-1].kind == "phase":
+        f180, m180, _ = found[-1]
         gm = 1.0 / m180 if m180 > 0 else None
-    return LoopGain(op, f, t, phase, t_dc, sign, fc, pm, f180, gm, probe)
+    return LoopGain(op, f, t, phase, t_dc, sign, fc, pm, f180, gm, probe,
+                    tuple(fx for fx, _ in crossings), margins)
 
 
 def _unwrap_from(phase_deg: np.ndarray, start_deg: float) -> np.ndarray:
@@ -209,15 +218,15 @@ class _Bracket:
         return np.log(np.abs(t)) if self.kind == "magnitude" else phase + 180.0
 
 
-def _refine_brackets(probe: LoopProbe, brackets: list[_Bracket]) -> dict[str, tuple[float, float, float]]:
+def _refine_brackets(probe: LoopProbe, brackets: list[_Bracket]) -> list[tuple[float, float, float]]:
     """Narrow every bracket together: each round solves a sub-grid of every bracket in one batched solve.
 
     After the rounds the root is interpolated linearly in ln f on the last sub-interval (about 1e-4 decade
     wide: relative error in f of order 1e-8, far below the figures' precision).
-    Returns kind -> (f, |T|, unwrapped phase in degrees).
+    Returns (f, |T|, unwrapped phase in degrees) for each bracket, in order.
     """
     if not brackets:
-        return {}
+        return []
     for _ in range(_ROUNDS):
         grids = [b.f_lo * np.exp(math.log(b.f_hi / b.f_lo) * _FRACTIONS) for b in brackets]
         t_all = probe.t(np.concatenate(grids))
@@ -229,13 +238,13 @@ def _refine_brackets(probe: LoopProbe, brackets: list[_Bracket]) -> dict[str, tu
             j = int(changes[0]) if changes.size else 0
             b.f_lo, b.f_hi = float(grids[k][j]), float(grids[k][j + 1])
             b.t, b.phase = t[j:j + 2], phase[j:j + 2]
-    out: dict[str, tuple[float, float, float]] = {}
+    out: list[tuple[float, float, float]] = []
     for b in brackets:
         h = b.h(b.t, b.phase)
         x0, x1 = math.log(b.f_lo), math.log(b.f_hi)
         w = 0.0 if h[1] == h[0] else float(h[0] / (h[0] - h[1]))
         w = min(max(w, 0.0), 1.0)
         lm = np.log(np.abs(b.t))
-        out[b.kind] = (math.exp(x0 + w * (x1 - x0)), float(math.exp(lm[0] + w * (lm[1] - lm[0]))),
-                       float(b.phase[0] + w * (b.phase[1] - b.phase[0])))
+        out.append((math.exp(x0 + w * (x1 - x0)), float(math.exp(lm[0] + w * (lm[1] - lm[0]))),
+                    float(b.phase[0] + w * (b.phase[1] - b.phase[0]))))
     return out
