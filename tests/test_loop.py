@@ -25,6 +25,7 @@ def test_follower_matches_ngspice_figure() -> None:
     assert lg.phase_margin_deg == pytest.approx(72.376, abs=1e-3)
     assert lg.sign == "negative"
     assert lg.gain_margin is None  # two poles: the phase never reaches -180°
+    assert lg.crossovers_hz == (lg.crossover_hz,) and lg.phase_margins_deg == (lg.phase_margin_deg,)
     assert isinstance(lg.crossover_hz, float) and isinstance(lg.phase_margin_deg, float)
 
 
