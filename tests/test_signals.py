@@ -106,30 +106,6 @@ loads: {OUT: {resistance: 10k}}
     assert a.not_evaluated and a.not_evaluated[0][0] == ("U1",)
 
 
-@pytest.mark.slow
-def test_analysis_cost_grows_linearly_with_channels(tmp_path):
-    import math
-    import time
-
-    from tests.tools.generate import write_design
-
-    def seconds(channels: int) -> float:
-        loaded = load_design(write_design(tmp_path / f"d{channels}.json", channels))
-        best = math.inf
-        for _ in range(2):
-            t0 = time.perf_counter()
-            a = analyse(loaded)
-            best = min(best, time.perf_counter() - t0)
-        assert len(a.stages) == 2 * channels and a.not_evaluated == ()
-        return best
-
-    seconds(5)  # warm the imports
-    small, large = seconds(20), seconds(160)
-    # eight times the channels: linear cost gives about 8x, quadratic about 64x; the bound leaves room for a
-    # busy machine (common practice)
-    assert large / small < 20.0
-
-
 def test_capacitive_divider_on_the_output_does_not_stop_the_analysis(tmp_path):
     # the node between two series capacitors has no DC path; its DC value is immaterial to the stage
     path = tmp_path / "capdiv.yaml"

@@ -528,6 +528,10 @@ def _loop_numbers(netlist: Netlist, ref: str, f_max: float, cache: dict | None) 
             reasons.append("no DC feedback: the loop gain at DC is negligible (output range not evaluated)")
         else:
             fc, pm, gm = lg.crossover_hz, lg.phase_margin_deg, lg.gain_margin_db
+            if lg.phase_margins_deg:
+                # several crossings (a notch, a filter's feedback): the stage is only as stable as the worst one
+                worst = min(range(len(lg.phase_margins_deg)), key=lg.phase_margins_deg.__getitem__)
+                fc, pm = lg.crossovers_hz[worst], lg.phase_margins_deg[worst]
             ng_dc = lg.noise_gain_dc
             ng_dc = abs(ng_dc) if ng_dc is not None else None
             f_hf = HF_FACTOR * max(op.open_loop_gain * op.pole1_hz, op.pole2_hz)
