@@ -46,3 +46,17 @@ def test_wheel_package_list_covers_every_package_folder() -> None:
     }
     assert found <= listed, sorted(found - listed)
     assert "afecheck._catalogue" in listed
+
+
+def test_readme_design_example_loads_and_checks_clean(tmp_path: Path) -> None:
+    import io
+
+    from afecheck.cli import main
+
+    text = (ROOT / "README.md").read_text(encoding="utf-8")
+    example = re.findall(r"```yaml\n(.+?)```", text, re.S)[0]
+    path = tmp_path / "readme_example.yaml"
+    path.write_text(example, encoding="utf-8")
+    out, err = io.StringIO(), io.StringIO()
+    assert main(["check", str(path)], stdout=out, stderr=err) == 0, out.getvalue() + err.getvalue()
+    assert "0 errors, 0 warnings" in out.getvalue()
