@@ -20,7 +20,7 @@ class Severity(IntEnum):
         return self.name.lower()
 
     @classmethod
-    def parse(cls, text: str) -> "Severity":
+    def parse(cls, text: str) -> Severity:
         try:
             return cls[text.strip().upper()]
         except KeyError:

@@ -2,8 +2,9 @@
 
 from __future__ import annotations
 
+from collections.abc import Callable, Iterator
 from dataclasses import dataclass
-from typing import TYPE_CHECKING, Callable, Iterator
+from typing import TYPE_CHECKING
 
 from afecheck.engine.finding import Finding, Severity
 
@@ -52,4 +53,4 @@ class Rule:
     """A registered rule: its metadata and its check function."""
 
     meta: RuleMeta
-    check: Callable[["Context"], Iterator[Finding]]
+    check: Callable[[Context], Iterator[Finding]]
