@@ -336,7 +336,7 @@ def _ac_amplitudes(system: MnaSystem, inputs: list[_Input], n: int) -> AcResult:
             freqs.append(f)
             owners.append(j)
     f = np.asarray(freqs)
-    y = _admittance(system, f)
+    y = system.admittance(f)
     rhs = np.zeros((f.size, n, 1), dtype=complex)
     for row, j in enumerate(owners):
         rhs[row, system.branch_index(inputs[j].branch), 0] = 1.0
@@ -351,18 +351,6 @@ def _ac_amplitudes(system: MnaSystem, inputs: list[_Input], n: int) -> AcResult:
         amp += inp.source.ac_amplitude * h
         fmax = np.where(h > 1e-12, np.maximum(fmax, inp.source.f_max), fmax)
     return amp, fmax, mid, peak
-
-
-def _admittance(system: MnaSystem, f: np.ndarray) -> np.ndarray:
-    """(G + jωC) at every frequency with each op-amp core's frequency-dependent gain, shape (n_freq, n, n)."""
-    y = system.g[None, :, :] + (2j * math.pi * f)[:, None, None] * system.c[None, :, :]
-    for k, cp, cn, core in system.cores:
-        delta = core.gain(f) - core.a0
-        if cp >= 0:
-            y[:, k, cp] -= delta
-        if cn >= 0:
-            y[:, k, cn] += delta
-    return y
 
 
 def _band(inp: _Input) -> list[float]:
