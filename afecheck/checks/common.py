@@ -151,18 +151,7 @@ def stage_reason(stage: StageResult, default: str) -> str:
 
 def ac_ground_nets(loaded: LoadedDesign) -> frozenset[str]:
     """Nets held at a fixed voltage: ground, rails, and either end of a vsource tied to one of them."""
-    d = loaded.design
-    fixed = {d.ground, *d.rails}
-    changed = True
-    while changed:
-        changed = False
-        for comp in d.components.values():
-            if comp.kind == "vsource":
-                a, b = comp.pins.get("p"), comp.pins.get("n")
-                if (a in fixed) != (b in fixed) and a and b:
-                    fixed.update((a, b))
-                    changed = True
-    return frozenset(fixed)
+    return loaded.fixed_nets
 
 
 def rails_known(ctx: Context, opamp: str) -> bool:
@@ -176,18 +165,7 @@ def rails_known(ctx: Context, opamp: str) -> bool:
 
 def attached(loaded: LoadedDesign, net: str, kind: str | None = None) -> list[tuple[str, str]]:
     """(refdes, other net) for every two-pin component of ``kind`` with a pin on ``net``."""
-    out: list[tuple[str, str]] = []
-    for ref, comp in loaded.design.components.items():
-        if kind is not None and comp.kind != kind:
-            continue
-        if comp.kind not in ("resistor", "capacitor", "ntc"):
-            continue
-        a, b = comp.pins.get("1"), comp.pins.get("2")
-        if a == net and b is not None:
-            out.append((ref, b))
-        elif b == net and a is not None:
-            out.append((ref, a))
-    return out
+    return [(ref, other) for ref, other, k in loaded.two_pin_by_net.get(net, ()) if kind is None or k == kind]
 
 
 def parallel(*values: float) -> float:

@@ -4,6 +4,7 @@ from __future__ import annotations
 
 from collections.abc import Mapping
 from dataclasses import dataclass, field
+from functools import cached_property
 
 from afecheck.engine.finding import Location
 from afecheck.model.schema import Design
@@ -29,6 +30,35 @@ class LoadedDesign:
     """Where each part model was defined: ``file:line`` or ``built-in (file)``."""
     intent_files: tuple[str, ...] = ()
     """Intent files merged into ``design`` (their keys' positions point into them)."""
+
+    @cached_property
+    def two_pin_by_net(self) -> Mapping[str, tuple[tuple[str, str, str], ...]]:
+        """net -> (refdes, other net, kind) for every resistor, capacitor and NTC on it; built once per design."""
+        index: dict[str, list[tuple[str, str, str]]] = {}
+        for ref, comp in self.design.components.items():
+            if comp.kind not in ("resistor", "capacitor", "ntc"):
+                continue
+            a, b = comp.pins.get("1"), comp.pins.get("2")
+            if a is not None and b is not None:
+                index.setdefault(a, []).append((ref, b, comp.kind))
+                if b != a:
+                    index.setdefault(b, []).append((ref, a, comp.kind))
+        return {net: tuple(items) for net, items in index.items()}
+
+    @cached_property
+    def fixed_nets(self) -> frozenset[str]:
+        """Nets held at a fixed voltage: ground, rails, and either end of a vsource chain tied to one of them."""
+        d = self.design
+        fixed = {d.ground, *d.rails}
+        links = [(c.pins.get("p"), c.pins.get("n")) for c in d.components.values() if c.kind == "vsource"]
+        changed = True
+        while changed:
+            changed = False
+            for a, b in links:
+                if a and b and (a in fixed) != (b in fixed):
+                    fixed.update((a, b))
+                    changed = True
+        return frozenset(fixed)
 
     def position(self, *path: str | int) -> tuple[str, int | None, int | None]:
         """(file, line, column) of the deepest known key along ``path``; the design file if unknown."""

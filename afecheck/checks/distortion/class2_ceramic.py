@@ -52,8 +52,8 @@ def classify(ctx: Context, ref: str) -> tuple[str, float, float] | None:
     if a is None or b is None:
         return None
     grounds = ac_ground_nets(ctx.loaded)
-    outs, _ = _opamp_nets(ctx)
-    band = design_band(ctx.loaded)
+    outs, _ = ctx.memo("class2.opamp_nets", lambda: _opamp_nets(ctx))
+    band = ctx.memo("design_band", lambda: design_band(ctx.loaded))
     if band is None or (a in grounds and b in grounds):
         return None
     f_lo = band[0]
