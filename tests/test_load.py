@@ -19,7 +19,7 @@ from afecheck.model.load import load_design
 
 ROOT = Path(__file__).resolve().parent.parent
 FIXTURES = Path(__file__).resolve().parent / "fixtures" / "load"
-SAMPLES = sorted((ROOT / "sample_designs").glob("*.yaml"))
+SAMPLES = sorted(p for p in (ROOT / "sample_designs").glob("*.yaml") if not p.name.endswith(".intent.yaml"))
 
 
 def line_of(text: str, needle: str, start: int = 1) -> int:
