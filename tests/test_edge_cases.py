@@ -85,7 +85,6 @@ def test_floating_subnetwork_is_named(tmp_path: Path) -> None:
         assert "ISLAND" in err or "R1" in err or "U2" in err
 
 
-@pytest.mark.xfail(strict=True, reason="defect reported to the analysis owner: conflicting ideal sources pass silently")
 def test_loop_of_ideal_sources_is_named(tmp_path: Path) -> None:
     # Kirchhoff's voltage law: two ideal sources of different value across one net pair cannot both hold
     body = (
@@ -105,7 +104,6 @@ def test_loop_of_ideal_sources_is_named(tmp_path: Path) -> None:
         assert "V1" in err or "V2" in err or "SRC" in err, err
 
 
-@pytest.mark.xfail(strict=True, reason="defect reported to the analysis owner: conflicting ideal sources pass silently")
 def test_source_fighting_a_rail_is_named(tmp_path: Path) -> None:
     # Kirchhoff's voltage law: a 3.3 V source drawn across the 5 V rail is a loop of ideal sources
     body = (

@@ -233,6 +233,8 @@ def structure_problems(design: Design, parts: PartSet, locate: Callable[[PathKey
         elif rail.voltage is None:
             problems.append(locate(("rails", name), f"rail {name!r} has no voltage"))
 
+    problems += _source_conflicts(design, locate)
+
     used = set(connections) | {design.ground} | set(design.rails)
     for section in INTENT_SECTIONS:
         for net in getattr(design, section):
@@ -243,4 +245,47 @@ def structure_problems(design: Design, parts: PartSet, locate: Callable[[PathKey
         if load.reference is not None and load.reference not in used:
             problems.append(locate(("loads", net, "reference"),
                                    f"reference net {load.reference!r} is not a rail, the ground or a component net"))
+    return problems
+
+
+def _source_conflicts(design: Design, locate: Callable[[PathKey, str], Problem]) -> list[Problem]:
+    """Ideal voltage sources (rails, vsources) that set one net to two voltages: a loop no circuit can satisfy.
+
+    Kirchhoff's voltage law around a loop of ideal sources must sum to zero; the potentials are spread from
+    ground (and from an arbitrary root in a floating group) and each source that disagrees is named.
+    """
+    edges: dict[str, list[tuple[str, float, PathKey, str]]] = {}
+
+    def link(pos: str, neg: str, volts: float, key: PathKey, name: str) -> None:
+        edges.setdefault(neg, []).append((pos, volts, key, name))
+        edges.setdefault(pos, []).append((neg, -volts, key, name))
+
+    for name, rail in design.rails.items():
+        if name != design.ground and rail.voltage is not None:
+            link(name, design.ground, rail.voltage, ("rails", name, "voltage"), f"rail {name}")
+    for ref, comp in design.components.items():
+        if comp.kind == "vsource" and "p" in comp.pins and "n" in comp.pins and comp.pins["p"] != comp.pins["n"]:
+            link(comp.pins["p"], comp.pins["n"], comp.value, ("components", ref), ref)
+    potential: dict[str, float] = {}
+    problems: list[Problem] = []
+    reported: set[PathKey] = set()
+    roots = [design.ground] + sorted(n for n in edges if n != design.ground)
+    for root in roots:
+        if root in potential or root not in edges:
+            continue
+        potential[root] = 0.0
+        queue = [root]
+        while queue:
+            net = queue.pop()
+            for other, volts, key, name in edges[net]:
+                want = potential[net] + volts
+                if other not in potential:
+                    potential[other] = want
+                    queue.append(other)
+                elif abs(potential[other] - want) > 1e-9 * max(1.0, abs(want)) and key not in reported:
+                    reported.add(key)
+                    problems.append(locate(key, (
+                        f"{name} sets {other!r} to {want:.6g} V against {net!r}, but other ideal sources already "
+                        f"hold it at {potential[other]:.6g} V: ideal sources in a loop must agree (Kirchhoff's "
+                        "voltage law); remove one or put a resistance between them")))
     return problems
