@@ -66,7 +66,8 @@ def _message(error: dict[str, Any], model: type[BaseModel]) -> str:
     if kind == "missing":
         return f"required key {name!r} is missing"
     if kind == "extra_forbidden":
-        close = difflib.get_close_matches(name, _field_names(model), n=1, cutoff=0.75)
+        # the names come from the whole schema: a key valid elsewhere is no hint for this place
+        close = difflib.get_close_matches(name, [n for n in _field_names(model) if n != name], n=1, cutoff=0.75)
         hint = f"; did you mean {close[0]!r}?" if close else ""
         return f"unknown key {name!r}{hint}"
     if kind == "union_tag_invalid":
