@@ -3,8 +3,8 @@
 For each N it writes a generated design (tests/tools/generate.py), then measures in fresh processes:
   * wall time of ``afecheck check FILE`` from the shell, interpreter start included, and its peak
     resident memory (ru_maxrss of that child, from os.wait4);
-  * time per phase in one process: load, build/analyse, rules, report (report by difference:
-    a full in-process ``check`` run minus load and rules);
+  * time per phase in one process, each timed on its own: load, analyse, rules (given the analysis),
+    and rendering the text report;
   * where ngspice is installed, ngspice on the SPICE deck from ``afecheck spice`` computing only the
     operating point and a 201-point AC sweep, and the ratio of the two wall times.
 
@@ -54,36 +54,29 @@ def _run_measured(cmd: list[str], stdout_path: Path | None = None) -> tuple[floa
 
 def _phases_child(path: str) -> None:
     """In a fresh interpreter: time load, analyse, rules and report for one design; print JSON."""
-    import io
 
     times: dict[str, float | None] = {}
     t0 = time.perf_counter()
     import afecheck.api as api
-    from afecheck.cli import main
     from afecheck.model.load import load_design
 
     times["import"] = time.perf_counter() - t0
     t0 = time.perf_counter()
     loaded = load_design(path)
     times["load"] = time.perf_counter() - t0
-    try:
-        from afecheck.analysis import analyse
-    except ImportError:
-        analyse = None
-    if analyse is not None:
-        t0 = time.perf_counter()
-        analyse(loaded)
-        times["analyse"] = time.perf_counter() - t0
-    else:
-        times["analyse"] = None
+    from afecheck.analysis import analyse
+    from afecheck.report import render
+
     t0 = time.perf_counter()
-    report = api.check_design(loaded)
-    rules_and_analysis = time.perf_counter() - t0
-    times["rules"] = max(0.0, rules_and_analysis - (times["analyse"] or 0.0))
+    analysis = analyse(loaded)
+    times["analyse"] = time.perf_counter() - t0
     t0 = time.perf_counter()
-    main(["check", "--fail-on", "never", path], stdout=io.StringIO(), stderr=io.StringIO())
-    full = time.perf_counter() - t0
-    times["report"] = max(0.0, full - times["load"] - rules_and_analysis)
+    report = api.check_design(loaded, analysis=analysis)
+    times["rules"] = time.perf_counter() - t0
+    reviewed = api.review_files([path], fail_on="never")
+    t0 = time.perf_counter()
+    render(reviewed, "text", color=False)
+    times["report"] = time.perf_counter() - t0
     times["findings"] = len(report.findings)
     print(json.dumps(times))
 
