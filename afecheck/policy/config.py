@@ -19,7 +19,7 @@ from pathlib import Path
 from typing import Any
 
 from afecheck.engine.finding import Severity
-from afecheck.policy._yaml import Problems, load_yaml
+from afecheck.policy._yaml import Problems
 from afecheck.policy.rulesets import (
     Catalogue,
     RuleSet,
@@ -27,14 +27,12 @@ from afecheck.policy.rulesets import (
     find_ruleset,
     load_ruleset,
     merge,
-    parse_promote,
-    parse_rules_section,
+    read_policy_file,
 )
 
 CONFIG_NAME = ".afecheck.yaml"
 CONFIG_KEY = "afecheck-config"
 CONFIG_KEYS = {CONFIG_KEY, "ruleset", "fail-on", "waivers", "promote", "rules"}
-FAIL_ON_VALUES = ("error", "warning", "info", "never")
 DEFAULT_RULESET = "default"
 
 
@@ -84,20 +82,8 @@ def resolve_policy(catalogue: Catalogue, config: str | Path | None = None, rules
     if config is not None:
         cpath = Path(config)
         base_dir = cpath.parent
-        data, positions = load_yaml(cpath)
-        problems = Problems(str(cpath), positions)
-        if not isinstance(data, dict) or data.get(CONFIG_KEY) != 1:
-            problems.add((), f"a project config starts with '{CONFIG_KEY}: 1'")
-            problems.raise_if_any()
-        for k in data:
-            if k not in CONFIG_KEYS:
-                problems.add((k,), f"unknown key {k!r}; expected one of {', '.join(sorted(CONFIG_KEYS))}")
-        cfg_settings = parse_rules_section(data.get("rules"), catalogue, problems)
-        cfg_promote = parse_promote(data.get("promote"), problems)
-        if data.get("fail-on") is not None:
-            cfg_fail_on = str(data["fail-on"])
-            if cfg_fail_on not in FAIL_ON_VALUES:
-                problems.add(("fail-on",), f"read {cfg_fail_on!r}; expected {', '.join(FAIL_ON_VALUES)}")
+        data, problems, cfg_settings, cfg_promote, cfg_fail_on = read_policy_file(
+            cpath, CONFIG_KEY, CONFIG_KEYS, "a project config", catalogue)
         waivers = _waiver_paths(data.get("waivers"), cpath.parent, problems)
         if set_name is None and data.get("ruleset") is not None:
             set_name = str(data["ruleset"])

@@ -190,6 +190,31 @@ def merge(base: Mapping[str, RuleSetting], top: Mapping[str, RuleSetting]) -> di
     return out
 
 
+FAIL_ON_VALUES = ("error", "warning", "info", "never")
+
+
+def read_policy_file(path: Path, version_key: str, allowed: set[str], what: str, catalogue: Catalogue
+                     ) -> tuple[dict, Problems, dict[str, RuleSetting], dict[Severity, Severity], str | None]:
+    """The part rule sets and project configs share: version key, known keys, rules, promote, fail-on.
+
+    Returns the raw data and the problems collected so far (the caller adds its own keys' problems).
+    """
+    data, positions = load_yaml(path)
+    problems = Problems(str(path), positions)
+    if not isinstance(data, dict) or data.get(version_key) != 1:
+        problems.add((), f"{what} starts with '{version_key}: 1'")
+        problems.raise_if_any()
+    for k in data:
+        if k not in allowed:
+            problems.add((k,), f"unknown key {k!r}; expected one of {', '.join(sorted(allowed))}")
+    settings = parse_rules_section(data.get("rules"), catalogue, problems)
+    promote = parse_promote(data.get("promote"), problems)
+    fail_on = data.get("fail-on")
+    if fail_on is not None and str(fail_on) not in FAIL_ON_VALUES:
+        problems.add(("fail-on",), f"read {fail_on!r}; expected {', '.join(FAIL_ON_VALUES)}")
+    return data, problems, settings, promote, None if fail_on is None else str(fail_on)
+
+
 def builtin_ruleset_names() -> tuple[str, ...]:
     """Names of the rule sets shipped in the catalogue (rules/sets/*.yaml)."""
     folder = resources.files("afecheck._catalogue").joinpath("sets")
@@ -218,19 +243,8 @@ def load_ruleset(name: str, catalogue: Catalogue, base_dir: Path | None = None, 
         raise ConfigError([Problem(str(base_dir or "."), None, None, "ruleset", message)])
     if str(path) in _chain:
         raise ConfigError([Problem(str(path), None, None, "extends", "rule sets extend each other in a loop")])
-    data, positions = load_yaml(path)
-    problems = Problems(str(path), positions)
-    if not isinstance(data, dict) or data.get(RULESET_KEY) != 1:
-        problems.add((), f"a rule set starts with '{RULESET_KEY}: 1'")
-        problems.raise_if_any()
-    for k in data:
-        if k not in RULESET_KEYS:
-            problems.add((k,), f"unknown key {k!r}; expected one of {', '.join(sorted(RULESET_KEYS))}")
-    settings = parse_rules_section(data.get("rules"), catalogue, problems)
-    promote = parse_promote(data.get("promote"), problems)
-    fail_on = data.get("fail-on")
-    if fail_on is not None and str(fail_on) not in ("error", "warning", "info", "never"):
-        problems.add(("fail-on",), f"read {fail_on!r}; expected error, warning, info or never")
+    data, problems, settings, promote, fail_on = read_policy_file(path, RULESET_KEY, RULESET_KEYS, "a rule set",
+                                                                  catalogue)
     problems.raise_if_any()
     parent = None
     if data.get("extends"):
