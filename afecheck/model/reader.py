@@ -408,7 +408,7 @@ def _read_yaml(text: str, file: str) -> Document:
     return Document(file, builder.root, builder.keys, builder.values)
 
 
-_JSON_TOKEN = re.compile(r'"(?:[^"\\]|\\.)*"|[{}\[\]:,]|[^\s{}\[\]:,"]+')
+_JSON_TOKEN = re.compile(r'"(?:[^"\\]|\\.)*"(?:\s*:)?|[{}\[\]]|[^\s{}\[\]:,"]+')
 _NEWLINE = re.compile(r"\n")
 _JSON_CONSTANT = re.compile(r"(?<![\"\w])(?:-?Infinity|NaN)(?![\"\w])")
 
@@ -439,59 +439,51 @@ def _read_json(text: str, file: str) -> Document:
 def _json_positions(text: str, file: str) -> tuple[dict[PathKey, Position], dict[PathKey, Position], list[Problem]]:
     """Positions of keys and values in valid JSON ``text``; duplicate keys and over-deep nesting as problems.
 
-    Walks the tokens of text that ``json.loads`` has already accepted, so it only has to follow the structure.
+    Walks the tokens of text that ``json.loads`` has already accepted, so it only has to follow the structure:
+    a key is a string token carrying its colon, and commas never need a token since array items are counted.
     """
     starts = [0] + [m.end() for m in _NEWLINE.finditer(text)]
-
-    def pos(i: int) -> Position:
-        line = bisect.bisect_right(starts, i)
-        return line, i - starts[line - 1] + 1
-
+    ends = starts[1:] + [len(text) + 1]
+    line, line_start, line_end = 1, 0, ends[0]  # the line of the last token; bisect only when a token leaves it
     keys: dict[PathKey, Position] = {}
     values: dict[PathKey, Position] = {}
     problems: list[Problem] = []
     # one frame per open container: [path, is_object, next index (arrays) or seen keys (objects)]
     stack: list[list[Any]] = []
+    frame: list[Any] = [(), False, 0]
     here: PathKey = ()
-    want_key = False
     for token in _JSON_TOKEN.finditer(text):
         t = token.group()
         c = t[0]
-        if c == ":" or c == ",":
-            if c == "," and stack:
-                frame = stack[-1]
-                if frame[1]:
-                    want_key = True
-                else:
-                    frame[2] += 1
-                    here = frame[0] + (frame[2],)
-            continue
         if c == "}" or c == "]":
             stack.pop()
-            want_key = False
+            frame = stack[-1] if stack else frame
             continue
-        if want_key:
+        i = token.start()
+        if i >= line_end:
+            line = bisect.bisect_right(starts, i, line)
+            line_start, line_end = starts[line - 1], ends[line - 1]
+        column = i - line_start + 1
+        if c == '"' and t[-1] == ":":
+            t = t[:t.rindex('"') + 1]
             key = json.loads(t) if "\\" in t else t[1:-1]
-            frame = stack[-1]
             here = frame[0] + (key,)
-            line, column = pos(token.start())
             if key in frame[2]:
                 problems.append(Problem(file, line, column, ".".join(map(str, here)),
                                         f"duplicate key {key!r} (first at line {frame[2][key]}); each name once"))
             else:
                 frame[2][key] = line
                 keys[here] = (line, column)
-            want_key = False
             continue
-        values[here] = pos(token.start())
+        if stack and not frame[1]:
+            here = frame[0] + (frame[2],)
+            frame[2] += 1
+        values[here] = (line, column)
         if c == "{" or c == "[":
             if len(stack) >= MAX_DEPTH:
-                line, column = values[here]
                 problems.append(Problem(file, line, column, "", f"nesting deeper than {MAX_DEPTH} levels"))
                 return keys, values, problems
             is_object = c == "{"
-            stack.append([here, is_object, {} if is_object else 0])
-            want_key = is_object
-            if not is_object:
-                here = here + (0,)
+            frame = [here, is_object, {} if is_object else 0]
+            stack.append(frame)
     return keys, values, problems
