@@ -10,10 +10,12 @@ from __future__ import annotations
 from collections.abc import Mapping
 from dataclasses import dataclass
 from functools import cached_property
-
-import networkx as nx
+from typing import TYPE_CHECKING
 
 from afecheck.model.loaded import LoadedDesign
+
+if TYPE_CHECKING:
+    import networkx as nx
 
 PASSIVE_KINDS = frozenset({"resistor", "capacitor", "ntc"})
 CONDUCTIVE_KINDS = frozenset({"resistor", "ntc"})
@@ -34,7 +36,12 @@ class Circuit:
 
     @cached_property
     def graph(self) -> nx.MultiGraph:
-        """Bipartite multigraph of nets and components; each edge is one pin (attribute ``pin``)."""
+        """Bipartite multigraph of nets and components; each edge is one pin (attribute ``pin``).
+
+        networkx is imported here, when the graph is first asked for, so a plain check does not pay for it.
+        """
+        import networkx as nx
+
         g = nx.MultiGraph()
         for net in self.net_pins:
             g.add_node(("net", net), kind="net")

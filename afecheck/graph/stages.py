@@ -26,9 +26,8 @@ in the walked network (on the ``in-`` side not one touching the pin: that is a t
 
 from __future__ import annotations
 
+import heapq
 from dataclasses import dataclass
-
-import networkx as nx
 
 from afecheck.analysis.results import Topology
 from afecheck.graph.build import Circuit
@@ -163,22 +162,17 @@ def find_stages(circuit: Circuit) -> StagePlan:
     opamps = circuit.opamps
     order = {r: i for i, r in enumerate(opamps)}
     regions = {r: _input_regions(circuit, r) for r in opamps}
-    deps = nx.DiGraph()
-    deps.add_nodes_from(opamps)
     upstream: dict[str, tuple[str, ...]] = {}
     for r, (plus, minus) in regions.items():
-        ups = sorted({circuit.opamp_outputs[n] for n in plus.boundary | minus.boundary
-                      if n in circuit.opamp_outputs and circuit.opamp_outputs[n] != r}, key=order.__getitem__)
-        upstream[r] = tuple(ups)
-        deps.add_edges_from((u, r) for u in ups)
-    group_of: dict[str, tuple[str, ...]] = {}
-    loops: list[tuple[str, ...]] = []
-    for scc in nx.strongly_connected_components(deps):
-        members = tuple(sorted(scc, key=order.__getitem__))
-        if len(members) > MAX_GROUP:
-            loops.append(members)
-        for m in members:
-            group_of[m] = members if len(members) <= MAX_GROUP else (m,)
+        upstream[r] = tuple(sorted({circuit.opamp_outputs[n] for n in plus.boundary | minus.boundary
+                                    if n in circuit.opamp_outputs and circuit.opamp_outputs[n] != r},
+                                   key=order.__getitem__))
+    signal_order = _acyclic_order(opamps, upstream, order)
+    if signal_order is None:
+        group_of, units, loops = _loop_units(opamps, upstream, order)
+    else:
+        group_of = {r: (r,) for r in opamps}
+        units, loops = tuple(group_of[r] for r in signal_order), []
     minus_nets: dict[str, list[str]] = {}
     for o in opamps:
         if "in-" in circuit.pins[o]:
@@ -209,6 +203,51 @@ def find_stages(circuit: Circuit) -> StagePlan:
             plus_region=plus, minus_region=minus, output_region=out_region, feedback=feedback,
             upstream=upstream[r], group=group, topology=topology,
         )
+    return StagePlan(stages=stages, units=units, unsolved_loops=tuple(loops))
+
+
+def _acyclic_order(opamps: tuple[str, ...] | list[str], upstream: dict[str, tuple[str, ...]],
+                   order: dict[str, int]) -> list[str] | None:
+    """Op-amps in signal order, the earliest-listed ready one first; None when the stages feed back in a loop.
+
+    The same order as a lexicographical topological sort keyed by ``order``, without importing networkx for the
+    loop-free designs that make up nearly every check.
+    """
+    downstream: dict[str, list[str]] = {r: [] for r in opamps}
+    waiting = {r: len(upstream[r]) for r in opamps}
+    for r in opamps:
+        for u in upstream[r]:
+            downstream[u].append(r)
+    ready = [(order[r], r) for r in opamps if not waiting[r]]
+    heapq.heapify(ready)
+    result: list[str] = []
+    while ready:
+        _, r = heapq.heappop(ready)
+        result.append(r)
+        for d in downstream[r]:
+            waiting[d] -= 1
+            if not waiting[d]:
+                heapq.heappush(ready, (order[d], d))
+    return result if len(result) == len(opamps) else None
+
+
+def _loop_units(opamps: tuple[str, ...] | list[str], upstream: dict[str, tuple[str, ...]], order: dict[str, int]
+                ) -> tuple[dict[str, tuple[str, ...]], tuple[tuple[str, ...], ...], list[tuple[str, ...]]]:
+    """Groups of op-amps in loops, solve units in signal order and the loops too big to solve, via networkx."""
+    import networkx as nx
+
+    deps = nx.DiGraph()
+    deps.add_nodes_from(opamps)
+    for r in opamps:
+        deps.add_edges_from((u, r) for u in upstream[r])
+    group_of: dict[str, tuple[str, ...]] = {}
+    loops: list[tuple[str, ...]] = []
+    for scc in nx.strongly_connected_components(deps):
+        members = tuple(sorted(scc, key=order.__getitem__))
+        if len(members) > MAX_GROUP:
+            loops.append(members)
+        for m in members:
+            group_of[m] = members if len(members) <= MAX_GROUP else (m,)
     units_graph = nx.DiGraph()
     unit_of = {r: group_of[r] for r in opamps}
     units_graph.add_nodes_from(set(unit_of.values()))
@@ -219,4 +258,4 @@ def find_stages(circuit: Circuit) -> StagePlan:
         units = tuple(nx.lexicographical_topological_sort(units_graph, key=lambda g: order[g[0]]))
     else:
         units = tuple(sorted(units_graph.nodes, key=lambda g: order[g[0]]))
-    return StagePlan(stages=stages, units=units, unsolved_loops=tuple(loops))
+    return group_of, units, loops
