@@ -34,7 +34,7 @@ from afecheck.errors import ConfigError, Problem
 ENTRY_POINT_GROUP = "afecheck.rules"
 
 CRASH_META = RuleMeta(
-    id="AFE000", slug="rule-crashed", severity=Severity.ERROR, family="engine", needs=(),
+    id="AFE000", slug="rule-crashed", severity=Severity.ERROR, family="coverage", needs=(),
     summary="a rule stopped with an internal error, so its check did not run",
     fix="report the error with the design file; meanwhile review what the rule covers by hand",
 )
