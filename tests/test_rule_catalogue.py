@@ -16,7 +16,9 @@ from afecheck.engine.runner import run_rules
 from afecheck.model.load import load_design
 
 CATALOGUE = resources.files("afecheck._catalogue")
-SECTIONS = ["In the circuit", "On the bench", "Flagged and passing", "Limits and their sources", "Blind spots", "Sources"]
+SECTIONS = [
+    "In the circuit", "On the bench", "Flagged and passing", "Limits and their sources", "Blind spots", "Sources",
+]
 METAS = default_registry().metas()
 WITH_EXAMPLES = [r.meta for r in BUILTIN_RULES]
 
@@ -82,7 +84,7 @@ def test_good_example_triggers_nothing(meta) -> None:
     assert run_rules(load_design(path)) == ()
 
 
-def test_explain_prints_every_page_by_id_and_by_slug() -> None:
+def test_rules_name_prints_every_page_by_id_and_by_slug() -> None:
     import io
 
     from afecheck.cli import main
@@ -90,5 +92,5 @@ def test_explain_prints_every_page_by_id_and_by_slug() -> None:
     for meta in METAS:
         for key in (meta.id, meta.slug):
             out = io.StringIO()
-            assert main(["explain", key], stdout=out, stderr=io.StringIO()) == 0
+            assert main(["rules", key], stdout=out, stderr=io.StringIO()) == 0
             assert out.getvalue() == page(meta)

@@ -65,6 +65,11 @@ class Registry:
                 return rule
         return None
 
+    def find_meta(self, key: str) -> RuleMeta | None:
+        """Metadata of the rule (or the engine's crash finding) whose id or slug is ``key``."""
+        k = key.strip()
+        return next((m for m in self.metas() if m.id.upper() == k.upper() or m.slug == k.lower()), None)
+
     def metas(self) -> tuple[RuleMeta, ...]:
         """Metadata of every rule plus the engine's own crash finding, sorted by id."""
         return tuple(sorted((CRASH_META, *(r.meta for r in self.rules)), key=lambda m: m.id))

@@ -21,7 +21,7 @@ def _entry_lines(entry: Entry, color: bool) -> list[str]:
     lines = [f"{where(entry)}: {sev}: {rule_label(entry)}: {message(f)}{tag}"]
     if entry.status == "fixed":
         return lines
-    lines.append(f"    fix: {f.fix or 'see the rule documentation (afecheck explain ' + f.rule + ')'}")
+    lines.append(f"    fix: {f.fix or 'see the rule page (afecheck rules ' + f.rule + ')'}")
     if f.assumed:
         lines.append(f"    assumed: {', '.join(f.assumed)}")
     if entry.waiver is not None:
