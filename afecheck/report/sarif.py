@@ -177,6 +177,7 @@ def sarif_dict(report: Report) -> dict[str, Any]:
             "hazards": list(report.hazards()),
             "cautions": list(cautions(report.hazards())),
             "fixed": fixed,
+            "policies": [{"design": d.file, "ruleset": d.ruleset, "config": d.config} for d in report.designs],
         },
     }
     return {"$schema": SARIF_SCHEMA_URI, "version": SARIF_VERSION, "runs": [run]}
