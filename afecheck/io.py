@@ -85,7 +85,7 @@ def check_outputs(paths: Sequence[str | Path], inputs: Iterable[str | Path] = ()
     seen: dict[object, str] = {}
     for given in map(str, paths):
         target = _target(given)
-        ident = _identity(target.final) if not target.direct else None
+        ident = _identity(given)  # after every link, /dev/fd/N and /proc/self/fd/N included
         if ident is not None and ident in read:
             raise OutputError(f"--output {given} is an input file of this run (the same file, however it is named); "
                               "afecheck never writes to its inputs")
