@@ -41,6 +41,7 @@ def render_text(report: Report, color: bool = False) -> str:
         out.append("")
     for design in report.designs:
         out.append(_paint(f"== {design.file} ({design.name}) ==", "head", color))
+        out.append(f"rule set {design.ruleset}, " + (f"config {design.config}" if design.config else "no config file"))
         if design.hazards:
             out.append(f"hazards: {', '.join(design.hazards)}: see the cautions above")
         if not design.entries:
