@@ -22,8 +22,13 @@ from afecheck.errors import AnalysisError, ConfigError, InputError
 LOW_PM = DesignAnalysis(stages=(stage(phase_margin_deg=50.0),), nets={})
 
 
+# U1's inputs get DC paths (in- to the output, in+ to ground) so that only the injected analysis decides
+WIRED = {"RF": {"kind": "resistor", "value": 1e4, "pins": {"1": "INM", "2": "OUT"}},
+         "RB": {"kind": "resistor", "value": 1e4, "pins": {"1": "INP", "2": "GND"}}}
+
+
 def run(**options):
-    return run_rules(design(), analysis=options.pop("analysis", LOW_PM), **options)
+    return run_rules(design(WIRED), analysis=options.pop("analysis", LOW_PM), **options)
 
 
 def test_all_rules_run_by_default_and_select_accepts_ids_and_slugs() -> None:

@@ -194,3 +194,22 @@ def design_band(loaded: LoadedDesign) -> tuple[float, float] | None:
     if not bands:
         return None
     return min(b[0] for b in bands), max(b[1] for b in bands)
+
+
+def stage_role(loaded: LoadedDesign, opamp: str) -> str:
+    """The declared role of op-amp ``opamp`` (amplifier, comparator, schmitt, integrator); amplifier if undeclared."""
+    comp = loaded.design.components.get(opamp)
+    role = getattr(comp, "role", None) if comp is not None else None
+    return role or "amplifier"
+
+
+def switching(loaded: LoadedDesign, opamp: str) -> bool:
+    """True for a stage declared as a comparator or Schmitt trigger: it switches on purpose, it is not linear."""
+    return stage_role(loaded, opamp) in ("comparator", "schmitt")
+
+
+def intended_gain(loaded: LoadedDesign, opamp: str) -> float | None:
+    """The declared intended DC gain of ``opamp``'s stage (V/V, signed), None when not declared."""
+    comp = loaded.design.components.get(opamp)
+    value = getattr(comp, "intended_gain", None) if comp is not None else None
+    return None if value is None else float(value)

@@ -24,7 +24,7 @@ from afecheck.checks.distortion import (
     slew_rate,
     transition_region,
 )
-from afecheck.checks.headroom import input_common_mode, output_current, output_swing
+from afecheck.checks.headroom import floating_input, input_common_mode, output_current, output_swing, supply_rail
 from afecheck.checks.loading import bias_current_offset, input_divider_error, inverting_source_loading
 from afecheck.checks.stability import feedback_sign, gain_margin, min_stable_gain, phase_margin
 from afecheck.engine.finding import Severity
@@ -46,6 +46,7 @@ _BUILTIN_MODULES: tuple[ModuleType, ...] = (
     input_common_mode, output_swing, output_current,
     transition_region, common_mode_swing, loop_gain_at_fmax, slew_rate, output_near_limit, class2_ceramic,
     input_impedance_imbalance,
+    floating_input, supply_rail,
 )
 
 BUILTIN_RULES: tuple[Rule, ...] = tuple(Rule(m.META, m.check) for m in _BUILTIN_MODULES)

@@ -44,7 +44,15 @@ def run_rules(loaded: LoadedDesign, **options: Any) -> tuple[Finding, ...]:
     for rule in rules:
         for f in _run_one(rule, base.for_rule(rule.meta, bound.get(rule.meta.id, {}))):
             found.append(_apply_policy(f, severities.get(f.rule)))
-    return tuple(sorted(found, key=Finding.sort_key))
+    return tuple(sorted(_grouped(base, found), key=Finding.sort_key))
+
+
+def _grouped(base: Context, found: list[Finding]) -> tuple[Finding, ...] | list[Finding]:
+    """Findings with ``caused_by`` linking downstream ones to their root, when the analysis was computed."""
+    from afecheck.engine.causes import link_causes
+
+    analysis = base.computed("analysis")
+    return found if analysis is None else link_causes(found, analysis)
 
 
 def _run_one(rule: Rule, ctx: Context) -> list[Finding]:
