@@ -49,8 +49,10 @@ def test_same_thermistor_into_non_inverting_stage_is_not_a_loading_problem() -> 
 
 
 @pytest.mark.parametrize(("rs", "expected"), [
-    (10.00, None), (10.02, Severity.WARNING),  # 0.1 % at Rs = Ri·0.001/0.999 = 10.010 Ω [DER]
-    (101.0, Severity.WARNING), (101.1, Severity.ERROR),  # 1 % at Rs = Ri/99 = 101.01 Ω [DER]
+    # 0.1 % at Rs = Ri·0.001/0.999 = 10.010 Ω [DER]; 10.02 Ω gives 0.1001 %, which prints as the limit (item 7)
+    (10.00, None), (10.02, None), (10.1, Severity.WARNING),
+    # 1 % at Rs = Ri/99 = 101.01 Ω [DER]; 101.1 Ω gives 1.0009 %, printed "1.00 %": still the warning
+    (101.0, Severity.WARNING), (101.1, Severity.WARNING), (102.0, Severity.ERROR),
 ])
 def test_inverting_loading_thresholds_both_sides(rs: float, expected: Severity | None) -> None:
     found = run(inverting_source_loading, design(RG_RF), [inverting(rs, rs)])
@@ -80,7 +82,7 @@ def test_printed_loading_error_is_the_analysis_value() -> None:
 
 
 def test_inverting_loading_parameters_move_the_thresholds() -> None:
-    found = run(inverting_source_loading, design(RG_RF), [inverting(101.1, 101.1)], params={"error_fraction": 0.02})
+    found = run(inverting_source_loading, design(RG_RF), [inverting(102.0, 102.0)], params={"error_fraction": 0.02})
     assert [f.severity for f in found] == [Severity.WARNING]
 
 

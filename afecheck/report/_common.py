@@ -48,14 +48,16 @@ def by_stage(design: DesignResult) -> Iterator[tuple[str, tuple[Entry, ...]]]:
 def _roots_first(group: tuple[Entry, ...]) -> tuple[Entry, ...]:
     prints = {e.finding.fingerprint for e in group}
     out: list[Entry] = []
+    placed: set[int] = set()
     for e in group:
-        if not e.finding.caused_by or e.finding.caused_by not in prints:
-            out.append(e)
-            out.extend(d for d in group if d.finding.caused_by == e.finding.fingerprint and d is not e)
-    out.extend(e for e in group if e not in out)
+        if id(e) in placed or (e.finding.caused_by and e.finding.caused_by in prints):
+            continue
+        for item in (e, *(d for d in group if d.finding.caused_by == e.finding.fingerprint)):
+            if id(item) not in placed:
+                placed.add(id(item))
+                out.append(item)
+    out.extend(e for e in group if id(e) not in placed)
     return tuple(out)
-
-
 def waiver_text(w: WaiverNote) -> str:
     until = f", until {w.expires}" if w.expires else ""
     return f"{w.justification} (accepted by {w.accepted_by}{until}; {w.file}:{w.line or 0})"
