@@ -142,7 +142,10 @@ components:
 """, extra=rri)
     [f] = findings(follower, "AFE401")
     assert f.ctx["window_low"] == pytest.approx(3.3) and f.ctx["window_high"] == pytest.approx(4.1)
-    assert f.confidence == "estimated" and f.severity == Severity.WARNING  # window from assumed defaults
+    # window from assumed defaults, but the swing crosses it anywhere in their plausible range: the assumption does not
+    # decide the verdict, so the finding is computed (sensitivity, docs/CONFIDENCE.md)
+    assert f.confidence == "computed" and f.severity == Severity.WARNING
+    assert "transition_below_vplus" in f.ctx["assumptions_checked"]
     inverting = write(tmp_path, """  VMID: {voltage: 2.5 V}
 signals:
   SIG: {dc: [2.5 V, 2.5 V], ac_amplitude: 1.5 V, band: [10 Hz, 1 kHz]}

@@ -14,7 +14,7 @@ from importlib import metadata
 from types import ModuleType
 from typing import Any
 
-from afecheck.checks import coverage
+from afecheck.checks import coverage, declared
 from afecheck.checks.distortion import (
     class2_ceramic,
     common_mode_swing,
@@ -40,7 +40,7 @@ CRASH_META = RuleMeta(
 )
 
 _BUILTIN_MODULES: tuple[ModuleType, ...] = (
-    coverage,
+    coverage, declared,
     inverting_source_loading, input_divider_error, bias_current_offset,
     phase_margin, min_stable_gain, gain_margin, feedback_sign,
     input_common_mode, output_swing, output_current,
