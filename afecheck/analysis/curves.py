@@ -57,7 +57,6 @@ def design_curves(loaded: LoadedDesign, per_decade: int = PER_DECADE) -> tuple[D
     """Analyse ``loaded`` once and sweep every stage's local circuit: (the analysis, op-amp -> its curves)."""
     circuits: dict[str, tuple[Netlist, dict[str, str]]] = {}
     analysis = analyse_design(loaded, circuits)
-    low = _lowest_band_edge(loaded)
     out: dict[str, StageCurves] = {}
     for stage in analysis.stages:
         if stage.opamp not in circuits:
@@ -65,7 +64,7 @@ def design_curves(loaded: LoadedDesign, per_decade: int = PER_DECADE) -> tuple[D
             out[stage.opamp] = StageCurves(stage.opamp, not_evaluated=(reason,))
             continue
         netlist, branches = circuits[stage.opamp]
-        out[stage.opamp] = stage_curves(stage, netlist, branches, low, per_decade)
+        out[stage.opamp] = stage_curves(stage, netlist, branches, _lowest_band_edge(loaded, stage), per_decade)
     return analysis, out
 
 
@@ -136,10 +135,22 @@ def _response(label: str, freqs: np.ndarray, h: np.ndarray, phase_deg: np.ndarra
                     tuple(float(p) for p in phase))
 
 
-def _lowest_band_edge(loaded: LoadedDesign) -> float | None:
-    """The lowest lower edge of every declared signal band (None when no signal declares one)."""
+def _lowest_band_edge(loaded: LoadedDesign, stage: StageResult) -> float | None:
+    """The lowest lower band edge declared by the signals driving ``stage`` directly, else by any signal of the
+    design (a stage fed by another stage inherits the design's band); None when no signal declares one."""
     d = loaded.design
-    bands = [s.band for s in d.signals.values() if s.band]
-    bands += [c.band for c in d.components.values() if getattr(c, "kind", "") == "signal_source" and c.band]
+
+    def band_of(kind: str, net: str, refs: tuple[str, ...]) -> tuple[float, float] | None:
+        if kind == "signal" and net in d.signals:
+            return d.signals[net].band
+        if kind == "signal-source" and refs and refs[0] in d.components:
+            return getattr(d.components[refs[0]], "band", None)
+        return None
+
+    own = [band_of(i.source.kind, i.net, i.source.refs) for i in stage.inputs]
+    bands = [b for b in own if b]
+    if not bands:
+        bands = [s.band for s in d.signals.values() if s.band]
+        bands += [c.band for c in d.components.values() if getattr(c, "kind", "") == "signal_source" and c.band]
     edges = [float(b[0]) for b in bands if float(b[0]) > 0]
     return min(edges) if edges else None

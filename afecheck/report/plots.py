@@ -64,18 +64,19 @@ def _svg(fig: Any, plot_id: str) -> str:
     text = re.sub(r'xlink:href="#([^"]+)"',
                   lambda m: f'xlink:href="#{plot_id}-{m.group(1)}"' if m.group(1) in ids else m.group(0), text)
     text = re.sub(r'<svg ([^>]*?)width="[^"]*" height="[^"]*"', r'<svg \1', text, count=1)
+    text = re.sub(r'\s+xmlns(:xlink)?="[^"]*"', "", text)  # HTML gives inline SVG its namespaces
     return text.replace("<svg ", f'<svg role="img" aria-labelledby="{plot_id}-caption" class="plot" ', 1).strip()
 
 
 def _log_axis(ax: Any) -> None:
     """Decade ticks labelled with SI prefixes (10 Hz, 1 kHz), unlabelled minor ticks, grid and legend."""
-    from matplotlib.ticker import FuncFormatter, LogLocator, NullFormatter
+    from matplotlib.ticker import FuncFormatter, LogLocator, NullLocator
 
     from afecheck.model.units import format_si
 
     ax.xaxis.set_major_locator(LogLocator(base=10.0, numticks=9))
     ax.xaxis.set_major_formatter(FuncFormatter(lambda x, _pos: format_si(x, "Hz", 1)))
-    ax.xaxis.set_minor_formatter(NullFormatter())
+    ax.xaxis.set_minor_locator(NullLocator())
     ax.grid(True, which="major", color=GRID, lw=0.6)
     ax.legend(loc="lower left")
 
@@ -92,7 +93,8 @@ def loop_plot(view: StageView, plot_id: str) -> str | None:
         return None
     plt = _pyplot()
     with plt.rc_context(_style(plot_id)):
-        fig, (ax_m, ax_p) = plt.subplots(2, 1, sharex=True, figsize=(7.0, 4.6), layout="constrained")
+        fig, (ax_m, ax_p) = plt.subplots(2, 1, sharex=True, figsize=(7.0, 4.6))
+        fig.subplots_adjust(left=0.1, right=0.98, top=0.94, bottom=0.1, hspace=0.08)
         f, m = _finite(t, t.magnitude_db)
         ax_m.semilogx(f, m, color=LOOP, lw=1.6, label="|T| loop gain")
         ax_m.axhline(0.0, color=INK, lw=0.8, ls="-")
@@ -132,7 +134,8 @@ def closed_loop_plot(view: StageView, plot_id: str) -> str | None:
         return None
     plt = _pyplot()
     with plt.rc_context(_style(plot_id)):
-        fig, ax = plt.subplots(figsize=(7.0, 2.9), layout="constrained")
+        fig, ax = plt.subplots(figsize=(7.0, 2.9))
+        fig.subplots_adjust(left=0.1, right=0.98, top=0.9, bottom=0.16)
         if view.band_hz is not None:
             lo, hi = view.band_hz
             ax.axvspan(lo, hi, color=BAND, lw=0, label=f"signal band {_hz(lo)} to {_hz(hi)}")
@@ -155,7 +158,9 @@ def headroom_plot(view: StageView, plot_id: str) -> str | None:
     plt = _pyplot()
     rows = list(reversed(view.headroom))
     with plt.rc_context(_style(plot_id)):
-        fig, ax = plt.subplots(figsize=(7.0, 0.55 + 0.75 * len(rows)), layout="constrained")
+        height = 0.9 + 0.75 * len(rows)
+        fig, ax = plt.subplots(figsize=(7.0, height))
+        fig.subplots_adjust(left=0.19, right=0.98, top=1 - 0.3 / height, bottom=0.5 / height)
         values = [v for h in rows for v in (h.rail_low, h.rail_high, h.limit_low, h.limit_high, h.signal_low,
                                              h.signal_high) if v is not None]
         span = (max(values) - min(values)) or 1.0
