@@ -87,7 +87,9 @@ def outline(text: str) -> _Outline:
 
 @pytest.fixture(scope="module")
 def pages() -> dict[str, str]:
-    return {p.name: html_of(p) for p in SAMPLES}
+    pages = {p.name: html_of(p) for p in SAMPLES}
+    pages["all samples"] = html_of(*SAMPLES)  # several designs in one page: ids stay unique, links resolve
+    return pages
 
 
 def test_page_is_self_contained_and_structured(pages: dict[str, str]) -> None:

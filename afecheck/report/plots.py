@@ -160,7 +160,7 @@ def headroom_plot(view: StageView, plot_id: str) -> str | None:
     with plt.rc_context(_style(plot_id)):
         height = 0.9 + 0.75 * len(rows)
         fig, ax = plt.subplots(figsize=(7.0, height))
-        fig.subplots_adjust(left=0.19, right=0.98, top=1 - 0.3 / height, bottom=0.5 / height)
+        fig.subplots_adjust(left=0.21, right=0.98, top=1 - 0.3 / height, bottom=0.5 / height)
         values = [v for h in rows for v in (h.rail_low, h.rail_high, h.limit_low, h.limit_high, h.signal_low,
                                              h.signal_high) if v is not None]
         span = (max(values) - min(values)) or 1.0
