@@ -162,3 +162,20 @@ def _compare(f: np.ndarray, resp: Response, f_spice: np.ndarray, h_spice: np.nda
     assert np.max(np.abs(np.asarray(resp.magnitude_db[:n])[keep] - ref_db[keep])) < 0.05, what
     dphase = np.asarray(resp.phase_deg[:n]) - np.degrees(np.angle(h_spice[:n]))
     assert np.max(np.abs((dphase[keep] + 180.0) % 360.0 - 180.0)) < 0.2, what
+
+
+def test_report_data_carries_the_same_arrays_as_stages_curves() -> None:
+    from afecheck.api import review_files
+
+    sample = ROOT / "sample_designs" / "soil_probe_reader.yaml"
+    out = io.StringIO()
+    assert main(["stages", "--curves", str(sample)], out, io.StringIO()) == 0
+    stages = {s["opamp"]: s["curves"] for s in json.loads(out.getvalue())["stages"]}
+    (design,) = review_files([str(sample)], detail="curves", discover=False).designs
+    assert [v.opamp for v in design.stage_views] == list(stages)
+    for v in design.stage_views:
+        assert list(v.loop_gain.magnitude_db) == stages[v.opamp]["loop_gain"]["magnitude_db"]
+        assert list(v.loop_gain.phase_deg) == stages[v.opamp]["loop_gain"]["phase_deg"]
+        assert [list(t.magnitude_db) for t in v.closed_loop] == [c["magnitude_db"]
+                                                                 for c in stages[v.opamp]["closed_loop"]]
+        assert list(v.band_hz) == stages[v.opamp]["band_hz"]

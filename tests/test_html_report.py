@@ -212,3 +212,36 @@ def test_rule_page_markup_escapes_before_it_formats() -> None:
     assert "<code>&lt;b&gt;</code>" in out and "<em>soft</em>" in out and "<strong>hard</strong>" in out
     assert "<td>&lt;i&gt;</td>" in out and "<li>one &lt;u&gt; two</li>" in out
     assert "<pre><code>k: &lt;v&gt;</code></pre>" in out
+
+
+def _luminance(hex_colour: str) -> float:
+    """Relative luminance (W3C, WCAG 2.1, definition of relative luminance for sRGB)."""
+    def channel(c: int) -> float:
+        s = c / 255
+        return s / 12.92 if s <= 0.04045 else ((s + 0.055) / 1.055) ** 2.4
+
+    r, g, b = (int(hex_colour[i:i + 2], 16) for i in (1, 3, 5))
+    return 0.2126 * channel(r) + 0.7152 * channel(g) + 0.0722 * channel(b)
+
+
+def contrast(a: str, b: str) -> float:
+    """WCAG 2.1 contrast ratio (L1 + 0.05) / (L2 + 0.05)."""
+    hi, lo = sorted((_luminance(a), _luminance(b)), reverse=True)
+    return (hi + 0.05) / (lo + 0.05)
+
+
+def test_text_colours_have_sufficient_contrast() -> None:
+    from afecheck.report import plots
+
+    assert contrast("#000000", "#ffffff") == pytest.approx(21.0)  # the formula's own end points (WCAG 2.1)
+    template = (ROOT / "afecheck" / "report" / "templates" / "report.html.j2").read_text(encoding="utf-8")
+    colours = dict(re.findall(r"--([a-z]+): (#[0-9a-f]{6})", template))
+    tints = re.findall(r"background: (#[0-9a-f]{6})", template)
+    for name in ("ink", "muted", "error", "warning", "info", "pass", "link"):
+        for background in ("#ffffff", *tints):
+            # WCAG 2.1 success criterion 1.4.3: 4.5:1 for body text
+            assert contrast(colours[name], background) >= 4.5, (name, background)
+    for colour in (plots.INK, plots.LOOP, plots.PHASE, plots.LIMIT_WARN, plots.LIMIT_ERROR, plots.SIGNAL,
+                   *(c for c, _ in plots.SERIES)):
+        # WCAG 2.1 success criterion 1.4.11: 3:1 for graphical objects; the plot lines and labels meet 4.5:1
+        assert contrast(colour, "#ffffff") >= 4.5, colour
