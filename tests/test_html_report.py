@@ -245,3 +245,24 @@ def test_text_colours_have_sufficient_contrast() -> None:
                    *(c for c, _ in plots.SERIES)):
         # WCAG 2.1 success criterion 1.4.11: 3:1 for graphical objects; the plot lines and labels meet 4.5:1
         assert contrast(colour, "#ffffff") >= 4.5, colour
+
+
+def test_plots_stop_after_the_page_limit_but_numbers_stay(monkeypatch: pytest.MonkeyPatch) -> None:
+    from afecheck.report import html
+
+    monkeypatch.setattr(html, "MAX_PLOTTED_STAGES", 1)
+    text = html_of(ROOT / "sample_designs" / "soil_probe_reader.yaml")
+    assert 'id="stage-1-1-loop"' in text and 'id="stage-1-2-loop"' not in text
+    assert text.count("Plots are drawn for the first 1 stages") == 1
+    assert "<dt>phase margin</dt><dd>69.0°</dd>" in text  # U2's numbers are still on its card
+
+
+def test_markdown_stage_lines_are_capped_for_a_comment() -> None:
+    from afecheck.report import render
+    from afecheck.report.data import DesignResult, Report, StageView
+    from afecheck.report.markdown import MAX_ROWS
+
+    views = tuple(StageView(f"U{k}", "P", "follower", (), "A", "B", "B", (f"U{k}",), "negative", phase_margin_deg=70.0,
+                            crossover_hz=1e6) for k in range(MAX_ROWS + 3))
+    md = render(Report(designs=(DesignResult("x.yaml", "d", stage_views=views),)), "markdown")
+    assert md.count("phase margin 70.0° at 1.00 MHz") == MAX_ROWS and "…and 3 more stages" in md

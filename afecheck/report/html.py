@@ -22,6 +22,7 @@ from afecheck.report.stage_lines import headroom_text, loop_text, si
 
 DEPENDENCIES = (("jinja2", "Jinja2"), ("matplotlib", "matplotlib"))
 SHAPES = {"error": "■", "warning": "▲", "info": "●"}
+MAX_PLOTTED_STAGES = 40  # a page of thousands of channels keeps its numbers but not thousands of plots
 _SI_UNITS = {"V", "A", "Hz", "Ω", "F", "W", "s", "V/s", "V/√Hz", "A/√Hz"}
 
 
@@ -63,11 +64,14 @@ def _page(report: Report) -> dict[str, Any]:
         for e in d.entries:
             n += 1
             findings.append(_finding(e, n, i, stage_ids, rule_ids, report))
+    plotted = 0
     for i, d in enumerate(report.designs, 1):
         stages = []
         for j, v in enumerate(d.stage_views, 1):
             sid = f"stage-{i}-{j}"
-            stages.append(_stage(v, sid, [f for f in findings if f["stage_id"] == sid], plots))
+            draw = plotted < MAX_PLOTTED_STAGES
+            plotted += 1
+            stages.append(_stage(v, sid, [f for f in findings if f["stage_id"] == sid], plots if draw else None))
         designs.append({
             "id": f"design-{i}", "name": d.name, "file": d.file, "ruleset": d.ruleset, "config": d.config,
             "hazards": d.hazards, "stages": stages, "opamps": d.stages,
@@ -97,6 +101,7 @@ def _page(report: Report) -> dict[str, Any]:
         "stage_gaps": stage_gaps, "version": report.tool_version, "fail_on": fail_level_label(report.fail_on),
         "baseline": report.baseline, "statuses": STATUS_MEANING, "shapes": SHAPES,
         "unused_waivers": report.unused_waivers, "expired_waivers": report.expired_waivers,
+        "max_plotted": MAX_PLOTTED_STAGES,
     }
 
 
@@ -164,7 +169,7 @@ def number(value: Any, unit: str = "") -> str:
 
 
 def _stage(v: StageView, sid: str, findings: list[dict[str, Any]], plots: Any) -> dict[str, Any]:
-    """A stage card: names, numbers, plots with their text alternatives, and its findings."""
+    """A stage card: names, numbers, plots with their text alternatives (none when ``plots`` is None), findings."""
     rows = [("topology", v.topology), ("part", v.part), ("feedback", v.feedback)]
     for i in v.inputs:
         gain = f"{i.gain:.4g}" + (f" (in band {i.band_gain:.4g})" if i.band_gain is not None else "")
@@ -192,7 +197,10 @@ def _stage(v: StageView, sid: str, findings: list[dict[str, Any]], plots: Any) -
              ("load", f"{si(v.load_resistance, 'Ω')}, {si(v.load_capacitance, 'F')}")]
     if v.assumed:
         rows.append(("assumed part defaults", ", ".join(v.assumed)))
-    figures = []
+    figures: list[dict[str, Any]] = []
+    if plots is None:
+        return {"id": sid, "view": v, "rows": rows, "figures": figures, "findings": findings,
+                "parts": ", ".join((v.opamp, *v.refs)), "unplotted": True}
     loop = plots.loop_plot(v, f"{sid}-loop")
     if loop is not None:
         text = f"Loop gain |T| and phase of {v.opamp} against frequency: {loop_text(v)}."
@@ -216,7 +224,7 @@ def _stage(v: StageView, sid: str, findings: list[dict[str, Any]], plots: Any) -
                         "caption": f"Headroom of {v.opamp} between rails {v.rail_minus:g} V and {v.rail_plus:g} V: "
                                    f"{text}."})
     return {"id": sid, "view": v, "rows": rows, "figures": figures, "findings": findings,
-            "parts": ", ".join((v.opamp, *v.refs))}
+            "parts": ", ".join((v.opamp, *v.refs)), "unplotted": False}
 
 
 def _opt(value: float | None, fmt: str) -> str:

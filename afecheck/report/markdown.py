@@ -60,7 +60,9 @@ def render_markdown(report: Report) -> str:
     if stages:
         several = len(report.designs) > 1
         out += ["**Stages**", ""]
-        out += [f"- {_cell(d.name) + ': ' if several else ''}{_cell(stage_line(v))}" for d, v in stages]
+        out += [f"- {_cell(d.name) + ': ' if several else ''}{_cell(stage_line(v))}" for d, v in stages[:MAX_ROWS]]
+        if len(stages) > MAX_ROWS:
+            out.append(f"- …and {len(stages) - MAX_ROWS} more stages: see `afecheck stages` or the HTML report.")
         out.append("")
     for status, title in (("waived", "waived"), ("unchanged", "already in the baseline"), ("fixed", "fixed")):
         group = [e for e in entries if e.status == status]
