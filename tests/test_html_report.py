@@ -113,8 +113,9 @@ def test_every_finding_links_to_its_stage_card_and_rule_page(pages: dict[str, st
         assert f'<article class="rule" id="{rule}">' in text
         stage = re.search(r'class="to-stage" href="#(stage-[^"]+)"', article).group(1)
         assert f'<section class="stage" id="{stage}"' in text
-    # AFE301 on U2 (the follower) points at U2's card, the second stage of the first design
-    afe301 = next(a for a in re.findall(r'<article class="finding.*?</article>', text, re.S) if "AFE301" in a)
+    # the common-mode finding on U2 (the follower) points at U2's card, the second stage of the first design
+    afe301 = next(a for a in re.findall(r'<article class="finding.*?</article>', text, re.S)
+                  if "headroom.input-common-mode" in a)
     assert 'href="#stage-1-2">stage U2' in afe301
 
 
@@ -130,7 +131,7 @@ def test_plots_carry_text_alternatives_with_the_key_numbers(pages: dict[str, str
     captions = re.findall(r'<figcaption id="([^"]+)-caption">(.*?)</figcaption>', text, re.S)
     assert {c[0].rsplit("-", 1)[1] for c in captions} == {"loop", "closed", "headroom"}
     headroom = next(c for i, c in captions if i == "stage-1-2-headroom")
-    # AFE301: 3.80 V against the 3.25 V limit (part AFE-GP1 input_cm_high 1.5 V below the 4.75 V worst-case rail)
+    # headroom.input-common-mode: 3.80 V against the 3.25 V limit (part AFE-GP1 input_cm_high 1.5 V below the 4.75 V worst-case rail)
     assert "550 mV BEYOND high" in headroom and "3.80 V" in headroom and "3.25 V" in headroom
 
 
@@ -195,7 +196,7 @@ def test_markdown_names_a_bypassed_gate_and_summarises_each_stage() -> None:
     assert "PASS" not in md
     lines = [ln for ln in md.splitlines() if ln.startswith("- U")]
     assert lines[0].startswith("- U1 (inverting, AFE-GP1): phase margin 70.6° at 577 kHz")
-    # AFE301 and AFE302 on U2 as margins: 3.80 V against 3.25 V (CM) and 3.75 V (swing)
+    # the common-mode and swing findings on U2 as margins: 3.80 V against 3.25 V (CM) and 3.75 V (swing)
     assert "input common mode 500 mV inside low, 550 mV BEYOND high" in lines[1]
     assert "output 180 mV inside low, 54.2 mV BEYOND high" in lines[1]
     gated = io.StringIO()
