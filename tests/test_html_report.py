@@ -131,7 +131,8 @@ def test_plots_carry_text_alternatives_with_the_key_numbers(pages: dict[str, str
     captions = re.findall(r'<figcaption id="([^"]+)-caption">(.*?)</figcaption>', text, re.S)
     assert {c[0].rsplit("-", 1)[1] for c in captions} == {"loop", "closed", "headroom"}
     headroom = next(c for i, c in captions if i == "stage-1-2-headroom")
-    # headroom.input-common-mode: 3.80 V against the 3.25 V limit (part AFE-GP1 input_cm_high 1.5 V below the 4.75 V worst-case rail)
+    # as the headroom.input-common-mode finding says: 3.80 V against the 3.25 V limit (AFE-GP1's input_cm_high
+    # 1.5 V below the 4.75 V worst-case rail)
     assert "550 mV BEYOND high" in headroom and "3.80 V" in headroom and "3.25 V" in headroom
 
 
