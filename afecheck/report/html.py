@@ -64,6 +64,9 @@ def _page(report: Report) -> dict[str, Any]:
         for e in d.entries:
             n += 1
             findings.append(_finding(e, n, i, stage_ids, rule_ids, report))
+    by_stage: dict[str | None, list[dict[str, Any]]] = {}
+    for f in findings:
+        by_stage.setdefault(f["stage_id"], []).append(f)
     plotted = 0
     for i, d in enumerate(report.designs, 1):
         stages = []
@@ -71,11 +74,11 @@ def _page(report: Report) -> dict[str, Any]:
             sid = f"stage-{i}-{j}"
             draw = plotted < MAX_PLOTTED_STAGES
             plotted += 1
-            stages.append(_stage(v, sid, [f for f in findings if f["stage_id"] == sid], plots if draw else None))
+            stages.append(_stage(v, sid, by_stage.get(sid, []), plots if draw else None))
         designs.append({
             "id": f"design-{i}", "name": d.name, "file": d.file, "ruleset": d.ruleset, "config": d.config,
             "hazards": d.hazards, "stages": stages, "opamps": d.stages,
-            "wide": [f for f in findings if f["design"] == i and f["stage_id"] is None],
+            "wide": [f for f in by_stage.get(None, []) if f["design"] == i],
             "counts": _counts(d.entries),
         })
     used = [r for r in report.rules if any(f["rule"] == r.id for f in findings)]
