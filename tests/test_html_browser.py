@@ -63,6 +63,7 @@ def test_sample_report_in_the_browser(browser: Browser, sample: Path, tmp_path: 
     assert page.console_errors() == []
 
 
+@pytest.mark.slow
 def test_filter_hides_findings_by_severity(browser: Browser, tmp_path: Path) -> None:
     page_file = tmp_path / "hydrophone.html"
     page_file.write_text(html_of(next(p for p in SAMPLES if p.stem == "hydrophone_preamp")), encoding="utf-8")
