@@ -35,8 +35,9 @@ def check(ctx: Context) -> Iterator[Finding]:
             src = inp.source
             if ri is None or ri <= 0 or src.r_max <= 0:
                 continue
-            e_max = src.r_max / (src.r_max + ri)
-            e_min = src.r_min / (src.r_min + ri)
+            # the analysis's loading error (1 - loaded/unloaded source voltage = Rs/(Rs + Ri)), never the declared
+            # resistance alone, so the rule cannot drift from the netlist the stage was solved on
+            e_max, e_min = inp.loading_error_max, inp.loading_error_min
             severity = grade_above(e_max, warn, err)
             if severity is None:
                 continue
