@@ -196,8 +196,8 @@ def _headroom_row(ax: Any, y: int, h: Headroom, left: float, right: float) -> No
             ax.plot([value], [y], marker="X", ms=10, color=BEYOND, ls="none")
             ax.annotate("beyond", xy=(value, y), xytext=(0, 9), textcoords="offset points", ha="center",
                         color=BEYOND, fontweight="bold")
-    for x in (h.rail_low, h.rail_high):
-        ax.annotate(f"rail {x:.3g} V", xy=(x, y - 0.25), xytext=(0, -9), textcoords="offset points", ha="center",
+    for x, align, shift in ((h.rail_low, "left", 2), (h.rail_high, "right", -2)):
+        ax.annotate(f"rail {x:.3g} V", xy=(x, y - 0.25), xytext=(shift, -9), textcoords="offset points", ha=align,
                     fontsize=7.0)
 
 
