@@ -150,9 +150,13 @@ def review_files(
     baseline: str | Path | None = None,
     today: dt.date | None = None,
     registry: Any = None,
+    input_format: str | None = None,
+    netlist_map: str | Path | None = None,
+    on_note: Any = None,
 ) -> Report:
     """Check every design under its policy (``config``, else a discovered ``.afecheck.yaml`` when ``discover``),
-    apply waivers and the baseline, and return the report data. Bad input of any file raises one InputError."""
+    apply waivers and the baseline, and return the report data. Bad input of any file raises one InputError.
+    ``input_format``/``netlist_map`` say how to read SPICE netlists; ``on_note(text)`` hears what a reader skipped."""
     from afecheck import __version__
     from afecheck.engine.runner import run_rules
     from afecheck.model.load import load_design
@@ -193,7 +197,10 @@ def review_files(
                 policies[key] = resolve_policy(catalogue, cfg, ruleset)
             policy = policies[key]
             levels.add(policy.fail_on)
-            loaded = load_design(path, intent=intent, libraries=libraries)
+            loaded = load_design(path, intent=intent, libraries=libraries, input_format=input_format,
+                                 netlist_map=netlist_map)
+            for note in loaded.notes if on_note is not None else ():
+                on_note(note)
             findings = promote(run_rules(loaded, registry=reg, **policy.run_options(runnable)), policy.promote)
             inline = inline_waivers(loaded, catalogue)
             inline_all.extend(inline)

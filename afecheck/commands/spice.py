@@ -8,17 +8,20 @@ import tempfile
 from pathlib import Path
 from typing import TextIO
 
+from afecheck.commands.netlist_options import add_netlist_arguments, netlist_options
+
 HELP = "write a design (or one stage) as a SPICE netlist"
 
 
 def add_arguments(p: argparse.ArgumentParser) -> None:
-    p.add_argument("file", metavar="FILE", help="design file (YAML or JSON)")
+    p.add_argument("file", metavar="FILE", help="design file (YAML, JSON or SPICE netlist)")
     p.add_argument("--stage", metavar="REFDES", help="only the stage of this op-amp (with the op-amps tied to it)")
     p.add_argument("--output", "-o", metavar="PATH", help="write the deck here instead of standard output")
     p.add_argument("--ac", action="store_true",
                    help="add a .control block: operating point, then an AC sweep written to a binary raw file")
     p.add_argument("--intent", help="design-intent file (signals, loads, budgets keyed by net)")
     p.add_argument("--parts", action="append", default=[], metavar="LIB", help="extra part library file")
+    add_netlist_arguments(p)
 
 
 def run(args: argparse.Namespace, stdout: TextIO, stderr: TextIO) -> int:
@@ -26,7 +29,7 @@ def run(args: argparse.Namespace, stdout: TextIO, stderr: TextIO) -> int:
     from afecheck.errors import InputError, Problem
     from afecheck.model.load import load_design
 
-    loaded = load_design(args.file, intent=args.intent, libraries=tuple(args.parts))
+    loaded = load_design(args.file, intent=args.intent, libraries=tuple(args.parts), **netlist_options(args))
     if args.stage:
         netlist, title = _stage_netlist(loaded, args.stage), f"{loaded.design.name}: stage {args.stage}"
     else:
