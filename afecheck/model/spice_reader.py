@@ -165,6 +165,8 @@ class NetlistReader:
         self.unmapped: dict[str, tuple[tuple[str, ...] | None, list[str]]] = {}
         self.count = 0
         self.all_names: frozenset[str] = frozenset()
+        self.aliases: dict[str, str] = {}
+        """Op-amp instance name as written (``XU1``) -> its refdes (``U1``)."""
 
     # ---- positions -------------------------------------------------------------------------------------
     def at(self, path: PathKey, token: Token, key: bool = True) -> None:
@@ -468,6 +470,7 @@ class NetlistReader:
         ref = self.refdes(toks[0], scope, card, strip_x=True)
         if ref is None:
             return
+        self.aliases[self._full(scope, toks[0].text).lower()] = ref
         path = ("components", ref)
         connected = {pin: (self.net(t, scope), t) for pin, t in zip(pins, node_toks, strict=True) if pin is not None}
         self.components[ref] = {"kind": "opamp", "part": part, "pins": {p: n for p, (n, _) in connected.items()}}
@@ -513,7 +516,7 @@ class NetlistReader:
     # ---- the whole netlist -----------------------------------------------------------------------------
     def refine(self) -> None:
         """Apply the map's ``components:`` and ``rails:`` refinements at their own positions."""
-        by_low = {ref.lower(): ref for ref in self.components}
+        by_low = {ref.lower(): ref for ref in self.components} | self.aliases
         for low, (name, r) in self.map.components.items():
             ref = by_low.get(low)
             if ref is None:
