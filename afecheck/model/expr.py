@@ -175,7 +175,9 @@ class _Parser:
             exponent = self.unary()
             try:
                 return self.checked(math.pow(base, exponent))
-            except (ValueError, OverflowError):
+            except OverflowError:
+                raise self.fail(f"{base:g} ^ {exponent:g}: the result is out of range") from None
+            except ValueError:
                 raise self.fail(f"{base:g} ^ {exponent:g} has no real value") from None
         return base
 

@@ -10,8 +10,10 @@ a hostile netlist from taking long: the input file size limit, at most :data:`MA
 from __future__ import annotations
 
 import re
+from collections.abc import Iterator
 from dataclasses import dataclass
 from pathlib import Path
+from typing import NamedTuple
 
 from afecheck.errors import InputError, Problem
 from afecheck.model.reader import MAX_FILE_BYTES
@@ -30,18 +32,20 @@ _ANALYSES = (".op", ".ac", ".dc", ".tran", ".noise", ".tf", ".sens", ".pz", ".di
              ".nodeset", ".width", ".csparam", ".step")
 
 
-@dataclass(frozen=True)
-class Token:
-    """One token of a card and where it stands."""
+class Token(NamedTuple):
+    """One token of a card and where it stands (a named tuple: a netlist has hundreds of thousands)."""
 
     text: str
     file: str
     line: int
     column: int
+    low: str
+    """The text lower-cased (SPICE names are not case-sensitive)."""
 
-    @property
-    def low(self) -> str:
-        return self.text.lower()
+
+def token(text: str, file: str, line: int, column: int) -> Token:
+    """A Token with its lower-cased text filled in."""
+    return Token(text, file, line, column, text.lower())
 
 
 @dataclass(frozen=True)
@@ -49,6 +53,12 @@ class Card:
     """One logical line of a netlist (continuations joined), as tokens."""
 
     tokens: tuple[Token, ...]
+    key: str = ""
+    """The first token, lower-cased: the element name or the dot command."""
+
+    def __post_init__(self) -> None:
+        if not self.key:
+            object.__setattr__(self, "key", self.tokens[0].low)
 
     @property
     def file(self) -> str:
@@ -57,11 +67,6 @@ class Card:
     @property
     def line(self) -> int:
         return self.tokens[0].line
-
-    @property
-    def key(self) -> str:
-        """The first token, lower-cased: the element name or the dot command."""
-        return self.tokens[0].low
 
     def problem(self, message: str, token: Token | None = None) -> Problem:
         t = token or self.tokens[0]
@@ -111,28 +116,34 @@ class _Reader:
         except UnicodeDecodeError:
             return raw.decode("latin-1")
 
-    def lines(self, text: str, display: str, title: bool) -> list[tuple[int, str]]:
-        """Logical lines (continuations joined) as (first line number, text), comments removed."""
-        out: list[tuple[int, list[tuple[int, int, str]]]] = []
+    def lines(self, text: str, display: str, title: bool) -> Iterator[tuple[int, list[tuple[int, int, str]]]]:
+        """Logical lines (continuations joined) as (first line number, [(line, column offset, text)]), comments
+        removed; yielded one by one, so that a limit stops reading early."""
+        current: tuple[int, list[tuple[int, int, str]]] | None = None
+        size = 0
         for number, raw in enumerate(text.splitlines(), start=1):
             if title and number == 1:
                 continue
             stripped = raw.strip()
-            if not stripped or stripped.startswith("*"):
+            if not stripped or stripped[0] == "*":
                 continue
-            body = _strip_comment(raw)
+            body = _strip_comment(raw) if (";" in raw or "$" in raw) else raw
             if not body.strip():
                 continue
-            if stripped.startswith("+"):
-                if not out:
+            if stripped[0] == "+":
+                if current is None:
                     raise self.stop(display, number, "a continuation line ('+') with no card before it")
                 cut = body.index("+")
-                out[-1][1].append((number, cut + 1, body[cut + 1:]))
-                if sum(len(p[2]) for p in out[-1][1]) > MAX_CARD_CHARS:
-                    raise self.stop(display, out[-1][0], f"card longer than {MAX_CARD_CHARS} characters")
+                current[1].append((number, cut + 1, body[cut + 1:]))
+                size += len(body)
+                if size > MAX_CARD_CHARS:
+                    raise self.stop(display, current[0], f"card longer than {MAX_CARD_CHARS} characters")
                 continue
-            out.append((number, [(number, 0, body)]))
-        return out  # type: ignore[return-value]
+            if current is not None:
+                yield current
+            current, size = (number, [(number, 0, body)]), len(body)
+        if current is not None:
+            yield current
 
     def read(self, path: Path, display: str, title: bool, where: tuple[str, int] | None = None,
              section: str | None = None) -> str:
@@ -250,7 +261,7 @@ def _tokens(parts: list[tuple[int, int, str]], display: str) -> list[Token]:
             if t in ("{", "}", "'"):
                 raise InputError([Problem(display, number, offset + m.start() + 1, "",
                                           f"unbalanced {t!r}: an expression is written {{...}} or '...' on one line")])
-            tokens.append(Token(t, display, number, offset + m.start() + 1))
+            tokens.append(Token(t, display, number, offset + m.start() + 1, t.lower()))
     return tokens
 
 

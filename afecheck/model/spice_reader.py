@@ -24,7 +24,7 @@ from afecheck.errors import InputError, Problem
 from afecheck.model.expr import ExpressionError, evaluate, parse_number
 from afecheck.model.netlist_map import OpAmpMap, Refinement, infer_pins, read_map, skeleton
 from afecheck.model.reader import Document, PathKey
-from afecheck.model.spice_cards import Card, Token, read_netlist_cards
+from afecheck.model.spice_cards import Card, Token, read_netlist_cards, token
 
 SPICE_SUFFIXES = (".cir", ".net", ".sp", ".spice", ".ckt")
 """File name endings read as SPICE netlists (any other name with ``--input-format spice``)."""
@@ -67,11 +67,22 @@ class _Subckt:
     body: list[Card] = field(default_factory=list)
     local: dict[str, _Subckt] = field(default_factory=dict)
     parent: _Subckt | None = None
+    size: int | None = None
+    """Elements one instance adds once flattened (counted before flattening, to stop trees that multiply)."""
 
     @property
     def readable(self) -> bool:
         """True when every element of the body is one afecheck reads (R, C, L, V, X): a block to flatten."""
         return all(c.key[0] in _READABLE for c in self.body if not c.key.startswith("."))
+
+    def find(self, name: str, top: dict[str, _Subckt]) -> _Subckt | None:
+        """The definition ``name`` as seen from inside this one: its own, its parents', then the top level."""
+        owner: _Subckt | None = self
+        while owner is not None:
+            if name.lower() in owner.local:
+                return owner.local[name.lower()]
+            owner = owner.parent
+        return top.get(name.lower())
 
 
 class _Params:
@@ -423,12 +434,27 @@ class NetlistReader:
         return f"{scope.prefix}.{name}" if scope.prefix else name
 
     def find_subckt(self, name: str, scope: _Instance) -> _Subckt | None:
-        owner = scope.owner
-        while owner is not None:
-            if name.lower() in owner.local:
-                return owner.local[name.lower()]
-            owner = owner.parent
-        return self.subckts.get(name.lower())
+        return scope.owner.find(name, self.subckts) if scope.owner is not None else self.subckts.get(name.lower())
+
+    def size(self, d: _Subckt, visiting: frozenset[str] = frozenset()) -> int:
+        """Elements an instance of ``d`` adds when flattened (a recursive definition counts once; it is refused
+        when expanded)."""
+        if d.size is not None:
+            return d.size
+        total = 0
+        for card in d.body:
+            if card.key.startswith("."):
+                continue
+            total += 1
+            if card.key[0] == "x":
+                args, _ = _split_params(list(card.tokens[1:]))
+                inner = d.find(args[-1].text, self.subckts) if args else None
+                if inner is not None and inner.readable and inner.name.lower() not in visiting:
+                    total += self.size(inner, visiting | {d.name.lower()})
+            if total > MAX_ELEMENTS:
+                break
+        d.size = total
+        return total
 
     def instance(self, card: Card, scope: _Instance) -> None:
         toks = card.tokens
@@ -497,6 +523,9 @@ class NetlistReader:
                                      "never ends"))
         if len(scope.stack) >= MAX_SUBCIRCUIT_DEPTH:
             raise _StopError(card.problem(f"subcircuits nested deeper than {MAX_SUBCIRCUIT_DEPTH} levels"))
+        if self.count + self.size(d) > MAX_ELEMENTS:
+            raise _StopError(card.problem(f"more than {MAX_ELEMENTS} elements after flattening subcircuits "
+                                          f"({d.name} alone would add {self.size(d)})"))
         params = _Params(self.params, d.name)
         for pname, value in d.params:
             params.define(pname, value)
@@ -504,7 +533,7 @@ class NetlistReader:
             if pname.low not in params.exprs:
                 self.problem(pname, f"{name.text}: subcircuit {d.name!r} has no parameter {pname.text!r}")
                 continue
-            params.exprs[pname.low] = (Token(repr(number(value, scope.params, bare_expression=True)), value.file,
+            params.exprs[pname.low] = (token(repr(number(value, scope.params, bare_expression=True)), value.file,
                                               value.line, value.column), params)
         ports = {}
         for port, t in zip(d.ports, node_toks, strict=True):
