@@ -2,7 +2,7 @@
 
 Numbers follow SPICE 3: an optional scale factor (``f p n u m k meg g t``, ``mil``; any case, so ``M`` is
 milli) and any unit letters after it, which are ignored. Expressions are parsed by recursive descent:
-numbers, parameter names, ``+ - * /``, ``^`` or ``**`` (power, right-associative), unary signs, parentheses
+numbers, parameter names, ``+ - * /``, ``^`` or ``**`` (power, left to right as in ngspice), unary signs, parentheses
 and the functions in :data:`FUNCTIONS`. Nothing is ever handed to Python's ``eval``.
 """
 
@@ -58,8 +58,6 @@ FUNCTIONS: dict[str, tuple[int, Callable[..., float]]] = {
     "pow": (2, _finite(math.pow)),
 }
 """Functions an expression may call: name -> (number of arguments, function). ``log`` is natural, as in ngspice."""
-
-CONSTANTS = {"pi": math.pi}
 
 
 def parse_number(text: str) -> float:
@@ -170,11 +168,18 @@ class _Parser:
         return self.power()
 
     def power(self) -> float:
+        """``a ^ b ^ c`` is ``(a ^ b) ^ c``, left to right, as ngspice evaluates it; an exponent may carry a sign."""
         base = self.atom()
-        if self.take("^") or self.take("**"):
-            exponent = self.unary()
+        while self.take("^") or self.take("**"):
+            sign = 1.0
+            while True:
+                if self.take("-"):
+                    sign = -sign
+                elif not self.take("+"):
+                    break
+            exponent = sign * self.atom()
             try:
-                return self.checked(math.pow(base, exponent))
+                base = self.checked(math.pow(base, exponent))
             except OverflowError:
                 raise self.fail(f"{base:g} ^ {exponent:g}: the result is out of range") from None
             except ValueError:
@@ -218,8 +223,6 @@ class _Parser:
         self.pos = m.end()
         if self.take("("):
             return self.call(name)
-        if name in CONSTANTS:
-            return CONSTANTS[name]
         return self.lookup(name)
 
     def call(self, name: str) -> float:
