@@ -91,6 +91,7 @@ class _Reader:
         self.skipped: dict[str, str] = {}
         self.includes = 0
         self.stack: list[Path] = []
+        self.analyses: list[str] = []
 
     def stop(self, file: str, line: int | None, message: str) -> InputError:
         return InputError([Problem(file, line, None, "", message)])
@@ -188,8 +189,7 @@ class _Reader:
                 self.include(tokens, display)
                 continue
             if head in _ANALYSES:
-                self.skip(head, f"{display}:{number}: {head} is an analysis or output command; afecheck runs its "
-                          "own analyses and ignores it")
+                self.analyses.append(f"{head} ({Path(display).name}:{number})")
                 continue
             if head == ".title":
                 first = " ".join(t.text for t in tokens[1:])
@@ -270,4 +270,8 @@ def read_netlist_cards(path: Path, display: str | None = None) -> Netlist:
     shown = display or str(path)
     reader = _Reader(path, shown)
     title = reader.read(path, shown, title=True)
-    return Netlist(title=title, cards=tuple(reader.cards), notes=tuple(reader.notes))
+    notes = list(reader.notes)
+    if reader.analyses:
+        listed = ", ".join(reader.analyses[:8]) + (" ..." if len(reader.analyses) > 8 else "")
+        notes.append(f"{shown}: analysis and output commands read and ignored (afecheck runs its own): {listed}")
+    return Netlist(title=title, cards=tuple(reader.cards), notes=tuple(notes))

@@ -526,7 +526,7 @@ class NetlistReader:
         if self.count + self.size(d) > MAX_ELEMENTS:
             raise _StopError(card.problem(f"more than {MAX_ELEMENTS} elements after flattening subcircuits "
                                           f"({d.name} alone would add {self.size(d)})"))
-        params = _Params(self.params, d.name)
+        params = _Params(scope.params if d.parent is not None else self.params, d.name)  # lexical scope
         for pname, value in d.params:
             params.define(pname, value)
         for pname, value in pairs:
