@@ -140,8 +140,12 @@ _DESIGN_KEY = re.compile(r'^(afecheck|\s*"afecheck")\s*:', re.M)
 
 
 def is_design_file(path: str | Path) -> bool:
-    """True when ``path`` has a top-level ``afecheck:`` key (YAML or JSON); unreadable files count as designs
-    so that the loader reports them."""
+    """True when ``path`` has a top-level ``afecheck:`` key (YAML or JSON) or a SPICE netlist's name; unreadable
+    files count as designs so that the loader reports them."""
+    from afecheck.model.spice_reader import is_netlist
+
+    if is_netlist(path):
+        return True
     try:
         text = Path(path).read_text(encoding="utf-8")
     except (OSError, UnicodeDecodeError):
