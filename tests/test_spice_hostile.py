@@ -150,6 +150,10 @@ def test_map_file_errors_point_into_the_map(tmp_path: Path) -> None:
                       encoding="utf-8")
     code, err, _ = check(path, "--map", str(netmap))
     assert code == 2 and f"{netmap}:5" in err and "no element 'R9'" in err, err
+    netmap.write_text("afecheck-map: 1\nsubcircuits:\n  OPX: {part: AFE-GP1}\ncomponents:\n  v1: {tolerance: 1%}\n",
+                      encoding="utf-8")
+    code, err, _ = check(path, "--map", str(netmap))
+    assert code == 2 and f"{netmap}:5" in err and "v1 is read as the rail 'vcc'" in err, err
     netmap.write_text("afecheck-map: 1\nsubcircuits:\n  OPX: {part: NO-SUCH}\n", encoding="utf-8")
     code, err, _ = check(path, "--map", str(netmap))
     assert code == 2 and f"{netmap}:3" in err and "unknown part model 'NO-SUCH'" in err, err

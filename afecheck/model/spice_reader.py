@@ -21,10 +21,10 @@ from pathlib import Path
 from typing import Any
 
 from afecheck.errors import InputError, Problem
-from afecheck.model.expr import ExpressionError, evaluate, parse_number
 from afecheck.model.netlist_map import OpAmpMap, Refinement, infer_pins, read_map, skeleton
 from afecheck.model.reader import Document, PathKey
 from afecheck.model.spice_cards import Card, Token, read_netlist_cards, token
+from afecheck.model.spice_values import CardError, NetlistStop, Params, number, source_spec, split_params
 
 SPICE_SUFFIXES = (".cir", ".net", ".sp", ".spice", ".ckt")
 """File name endings read as SPICE netlists (any other name with ``--input-format spice``)."""
@@ -41,21 +41,8 @@ _ELEMENT_NAMES = {"d": "diode", "q": "bipolar transistor", "m": "MOSFET", "j": "
                   "inductor", "t": "transmission line", "s": "switch", "w": "switch", "u": "RC line", "o": "lossy "
                   "line", "a": "XSPICE model", "z": "MESFET", "y": "transmission line", "p": "coupled line",
                   "n": "device model"}
-_TRANSIENT = ("sin", "pulse", "pwl", "exp", "sffm", "am", "trnoise", "trrandom")
 _IGNORED_PARAMS = {"tc", "tc1", "tc2", "temp", "dtemp", "noisy", "ic", "scale"}
 _MILLI_TRAP = re.compile(r"^[0-9.]+M(?:ohm|Ω)?$")
-
-
-class _StopError(Exception):
-    """Reading cannot go on (a limit, a loop); carries the problem."""
-
-    def __init__(self, problem: Problem):
-        super().__init__(str(problem))
-        self.problem = problem
-
-
-class _BadCardError(_StopError):
-    """One card cannot be read; reading goes on with the next card."""
 
 
 @dataclass
@@ -85,70 +72,13 @@ class _Subckt:
         return top.get(name.lower())
 
 
-class _Params:
-    """Parameter scope: lazily evaluated expressions with loop detection, then the enclosing scope."""
-
-    def __init__(self, parent: _Params | None, where: str):
-        self.parent = parent
-        self.where = where
-        self.exprs: dict[str, tuple[Token, _Params]] = {}
-        self.values: dict[str, float] = {}
-        self.busy: list[str] = []
-
-    def define(self, name: Token, value: Token, scope: _Params | None = None) -> None:
-        self.exprs[name.low] = (value, scope or self)
-        self.values.pop(name.low, None)
-
-    def lookup(self, name: str) -> float:
-        scope: _Params | None = self
-        while scope is not None:
-            if name in scope.exprs:
-                return scope.value(name)
-            scope = scope.parent
-        raise ExpressionError(f"unknown parameter {name!r}")
-
-    def value(self, name: str) -> float:
-        if name in self.values:
-            return self.values[name]
-        token, scope = self.exprs[name]
-        if name in self.busy:
-            chain = " -> ".join(self.busy[self.busy.index(name):] + [name])
-            raise _StopError(Problem(token.file, token.line, token.column, "",
-                                f"parameter {name!r} depends on itself ({chain})"))
-        self.busy.append(name)
-        try:
-            v = number(token, scope, bare_expression=True)
-        finally:
-            self.busy.pop()
-        self.values[name] = v
-        return v
-
-
-def number(token: Token, scope: _Params, bare_expression: bool = False) -> float:
-    """A value token: a SPICE number, ``{expr}``, ``'expr'`` (or, in ``.param``, a bare expression)."""
-    text = token.text
-    try:
-        if text[:1] in "{'":
-            return evaluate(text[1:-1], scope.lookup)
-        try:
-            return parse_number(text)
-        except ExpressionError:
-            if bare_expression:
-                return evaluate(text, scope.lookup)
-            if re.fullmatch(r"[A-Za-z_][A-Za-z0-9_]*", text):
-                raise ExpressionError(f"{text!r} is not a number; to use parameter {text} write {{{text}}}") from None
-            raise
-    except ExpressionError as exc:
-        raise _BadCardError(Problem(token.file, token.line, token.column, "", str(exc))) from None
-
-
 @dataclass
 class _Instance:
     """Where flattening stands: name prefix, port -> outer net, parameter scope, definitions in reach, depth."""
 
     prefix: str
     ports: dict[str, str]
-    params: _Params
+    params: Params
     owner: _Subckt | None
     stack: tuple[str, ...]
 
@@ -162,7 +92,7 @@ class NetlistReader:
         self.part_names = part_names
         self.subckts: dict[str, _Subckt] = {}
         self.globals: set[str] = {"0", "gnd"}
-        self.params = _Params(None, "top level")
+        self.params = Params(None, "top level")
         self.nets: dict[str, str] = {}
         self.components: dict[str, dict[str, Any]] = {}
         self.rails: dict[str, dict[str, Any]] = {}
@@ -176,6 +106,8 @@ class NetlistReader:
         self.unmapped: dict[str, tuple[tuple[str, ...] | None, list[str]]] = {}
         self.count = 0
         self.all_names: frozenset[str] = frozenset()
+        self.absorbed: dict[str, str] = {}
+        """V source name -> the rail or signal it became."""
         self.aliases: dict[str, str] = {}
         """Op-amp instance name as written (``XU1``) -> its refdes (``U1``)."""
 
@@ -188,7 +120,7 @@ class NetlistReader:
     def problem(self, token: Token, message: str) -> None:
         self.problems.append(Problem(token.file, token.line, token.column, "", message))
         if len(self.problems) >= MAX_PROBLEMS:
-            raise _StopError(Problem(token.file, token.line, None, "", f"more than {MAX_PROBLEMS} problems; stopping"))
+            raise NetlistStop(Problem(token.file, token.line, None, "", f"more than {MAX_PROBLEMS} problems; stopping"))
 
     def note(self, text: str) -> None:
         if text not in self.notes:
@@ -223,7 +155,7 @@ class NetlistReader:
             (open_defs[-1].body if open_defs else top).append(card)
         if open_defs:
             d = open_defs[-1]
-            raise _StopError(d.card.problem(f".subckt {d.name} has no .ends: the definition runs to the end"))
+            raise NetlistStop(d.card.problem(f".subckt {d.name} has no .ends: the definition runs to the end"))
         return top
 
     def definition(self, card: Card, parent: _Subckt | None) -> _Subckt | None:
@@ -231,7 +163,7 @@ class NetlistReader:
         if len(toks) < 2:
             self.problem(toks[0], ".subckt needs a name and its ports: .subckt NAME PORT...")
             return None
-        ports, params = _split_params(toks[2:])
+        ports, params = split_params(toks[2:])
         if params is None:
             self.problem(toks[0], "cannot read the parameters of this .subckt (expected NAME=VALUE pairs)")
             return None
@@ -240,7 +172,7 @@ class NetlistReader:
     def dot_card(self, card: Card, scope: _Instance) -> None:
         key, toks = card.key, card.tokens
         if key == ".param":
-            _, pairs = _split_params(toks[1:], params_only=True)
+            _, pairs = split_params(toks[1:], params_only=True)
             if pairs is None or not pairs:
                 self.problem(toks[0], "cannot read this .param (expected NAME=VALUE ...)")
                 return
@@ -285,7 +217,7 @@ class NetlistReader:
         self.refs[ref.lower()] = card
         self.count += 1
         if self.count > MAX_ELEMENTS:
-            raise _StopError(card.problem(f"more than {MAX_ELEMENTS} elements after flattening subcircuits"))
+            raise NetlistStop(card.problem(f"more than {MAX_ELEMENTS} elements after flattening subcircuits"))
         return ref
 
     def _taken(self, scope: _Instance, name: str) -> bool:
@@ -300,7 +232,7 @@ class NetlistReader:
         for name in list(scope.params.exprs):
             try:
                 scope.params.value(name)
-            except _BadCardError as bad:
+            except CardError as bad:
                 self.problems.append(bad.problem)
         for card in cards:
             key = card.key
@@ -326,13 +258,13 @@ class NetlistReader:
                     what = _ELEMENT_NAMES.get(letter, "element")
                     self.problem(card.tokens[0], f"{card.tokens[0].text}: a {what} is not something afecheck "
                                  "reads; op-amp internals belong in a .subckt mapped to a part model (--map)")
-            except _BadCardError as bad:
+            except CardError as bad:
                 self.problems.append(bad.problem)
 
     def passive(self, card: Card, scope: _Instance) -> None:
         toks = card.tokens
         kind = "resistor" if card.key[0] == "r" else "capacitor"
-        args, pairs = _split_params(list(toks[1:]))
+        args, pairs = split_params(list(toks[1:]))
         if pairs is None or len(args) < 2:
             self.problem(toks[0], f"{toks[0].text}: expected NAME NODE NODE VALUE")
             return
@@ -380,10 +312,9 @@ class NetlistReader:
         if len(toks) < 3:
             self.problem(toks[0], f"{toks[0].text}: expected NAME NODE+ NODE- [DC value] [AC mag] [SIN(...)]")
             return
-        spec = _source_spec(toks, scope.params, self)
-        if spec is None:
-            return
-        dc, ac, sine = spec
+        dc, ac, sine, notes = source_spec(toks, scope.params)
+        for text in notes:
+            self.note(text)
         pos, neg = self.net(toks[1], scope), self.net(toks[2], scope)
         name = toks[0]
         refine = self.map.components.get(self._full(scope, name.text).lower())
@@ -399,6 +330,7 @@ class NetlistReader:
                 self.problem(name, f"{name.text} holds net {net!r}, which another source already holds")
                 return
             self.refs[self._full(scope, name.text).lower()] = card
+            self.absorbed[self._full(scope, name.text).lower()] = f"rail {net!r}"
             self.rails[net] = {"voltage": sign * dc}
             self.at(("rails", net), name)
             self.at(("rails", net, "voltage"), toks[3] if len(toks) > 3 else name, key=False)
@@ -409,6 +341,7 @@ class NetlistReader:
                 self.problem(name, f"{name.text} drives net {net!r}, which another source already drives")
                 return
             self.refs[self._full(scope, name.text).lower()] = card
+            self.absorbed[self._full(scope, name.text).lower()] = f"signal on net {net!r}"
             entry: dict[str, Any] = {"dc": [sign * dc, sign * dc], "ac_amplitude": amplitude}
             if sine is not None and sine[2] > 0:
                 entry["band"] = [sine[2], sine[2]]
@@ -447,7 +380,7 @@ class NetlistReader:
                 continue
             total += 1
             if card.key[0] == "x":
-                args, _ = _split_params(list(card.tokens[1:]))
+                args, _ = split_params(list(card.tokens[1:]))
                 inner = d.find(args[-1].text, self.subckts) if args else None
                 if inner is not None and inner.readable and inner.name.lower() not in visiting:
                     total += self.size(inner, visiting | {d.name.lower()})
@@ -458,7 +391,7 @@ class NetlistReader:
 
     def instance(self, card: Card, scope: _Instance) -> None:
         toks = card.tokens
-        args, pairs = _split_params(list(toks[1:]))
+        args, pairs = split_params(list(toks[1:]))
         if pairs is None or len(args) < 2:
             self.problem(toks[0], f"{toks[0].text}: expected NAME NODE... SUBCIRCUIT [PARAM=VALUE ...]")
             return
@@ -519,14 +452,14 @@ class NetlistReader:
             return
         if d.name.lower() in scope.stack:
             chain = " -> ".join((*scope.stack, d.name.lower()))
-            raise _StopError(card.problem(f"subcircuit {d.name!r} contains itself ({chain}): a recursive definition "
+            raise NetlistStop(card.problem(f"subcircuit {d.name!r} contains itself ({chain}): a recursive definition "
                                      "never ends"))
         if len(scope.stack) >= MAX_SUBCIRCUIT_DEPTH:
-            raise _StopError(card.problem(f"subcircuits nested deeper than {MAX_SUBCIRCUIT_DEPTH} levels"))
+            raise NetlistStop(card.problem(f"subcircuits nested deeper than {MAX_SUBCIRCUIT_DEPTH} levels"))
         if self.count + self.size(d) > MAX_ELEMENTS:
-            raise _StopError(card.problem(f"more than {MAX_ELEMENTS} elements after flattening subcircuits "
+            raise NetlistStop(card.problem(f"more than {MAX_ELEMENTS} elements after flattening subcircuits "
                                           f"({d.name} alone would add {self.size(d)})"))
-        params = _Params(scope.params if d.parent is not None else self.params, d.name)  # lexical scope
+        params = Params(scope.params if d.parent is not None else self.params, d.name)  # lexical scope
         for pname, value in d.params:
             params.define(pname, value)
         for pname, value in pairs:
@@ -549,9 +482,10 @@ class NetlistReader:
         for low, (name, r) in self.map.components.items():
             ref = by_low.get(low)
             if ref is None:
-                if low in self.refs:
-                    continue  # a V source that became a rail or signal; its kind: said how to keep it
-                self.problems.append(_refinement_problem(r, name, f"no element {name!r} in the netlist"))
+                what = (f"{name} is read as the {self.absorbed[low]}: refine it under rails: or signals:, or give "
+                        "kind: vsource to keep it a component") if low in self.absorbed else (
+                        f"no element {name!r} in the netlist")
+                self.problems.append(_refinement_problem(r, name, what))
                 continue
             comp = self.components[ref]
             fields = dict(r.fields)
@@ -588,7 +522,7 @@ class NetlistReader:
             top = self.collect(cards)
             self.all_names = frozenset(c.key for c in cards if not c.key.startswith("."))
             self.expand(top, _Instance("", {}, self.params, None, ()))
-        except _StopError as stop:
+        except NetlistStop as stop:
             raise InputError([*self.problems, stop.problem]) from None
         if self.unmapped:
             for name, (_ports, users) in self.unmapped.items():
@@ -613,97 +547,6 @@ class NetlistReader:
 def _refinement_problem(r: Refinement, name: str, message: str) -> Problem:
     line, column = r.keys.get((), (None, None))
     return Problem(r.file, line, column, name, message)
-
-
-def _split_params(tokens: list[Token] | tuple[Token, ...], params_only: bool = False
-                  ) -> tuple[list[Token], list[tuple[Token, Token]] | None]:
-    """(leading plain tokens, NAME=VALUE pairs) of a card tail; ``params:`` is skipped; None on a bad pair."""
-    toks = [t for t in tokens if t.low != "params:"]
-    plain: list[Token] = []
-    pairs: list[tuple[Token, Token]] = []
-    i = 0
-    while i < len(toks):
-        if i + 1 < len(toks) and toks[i + 1].text == "=":
-            if i + 2 >= len(toks) or toks[i + 2].text in ("=", "(", ")", ","):
-                return plain, None
-            pairs.append((toks[i], toks[i + 2]))
-            i += 3
-            continue
-        if pairs or (params_only and toks[i].text != ","):
-            return plain, None
-        if toks[i].text != ",":
-            plain.append(toks[i])
-        i += 1
-    return plain, pairs
-
-
-def _source_spec(toks: list[Token], params: _Params, reader: NetlistReader
-                 ) -> tuple[float, float, tuple[float, float, float] | None] | None:
-    """(DC value, AC magnitude, SIN (offset, amplitude, frequency) or None) of a V card's tail."""
-    dc: float | None = None
-    ac = 0.0
-    sine: tuple[float, float, float] | None = None
-    i = 3
-    name = toks[0].text
-    while i < len(toks):
-        t = toks[i]
-        low = t.low
-        if low == "dc":
-            if i + 1 >= len(toks):
-                reader.problem(t, f"{name}: DC needs a value")
-                return None
-            dc = number(toks[i + 1], params)
-            i += 2
-        elif low == "ac":
-            i += 1
-            ac = 1.0
-            if i < len(toks) and _is_value(toks[i]):
-                ac = abs(number(toks[i], params))
-                i += 1
-                if i < len(toks) and _is_value(toks[i]):
-                    i += 1
-        elif low in _TRANSIENT or low.startswith(tuple(w + "(" for w in _TRANSIENT)):
-            args, i = _function_args(toks, i + 1)
-            values = [number(a, params) for a in args]
-            if low == "sin":
-                if len(values) < 2:
-                    reader.problem(t, f"{name}: SIN needs at least an offset and an amplitude")
-                    return None
-                sine = (values[0], abs(values[1]), values[2] if len(values) > 2 else 0.0)
-            else:
-                reader.note(f"{t.file}:{t.line}: {name}: the {t.text.upper()} waveform is ignored; its DC value is "
-                            "used")
-        elif low in ("distof1", "distof2"):
-            _, i = _function_args(toks, i + 1)
-        elif dc is None and i == 3 and _is_value(t):
-            dc = number(t, params)
-            i += 1
-        else:
-            reader.problem(t, f"{name}: unexpected {t.text!r}; expected DC value, AC magnitude or SIN(...)")
-            return None
-    if dc is None:
-        dc = sine[0] if sine is not None else 0.0
-    return dc, ac, sine
-
-
-def _is_value(t: Token) -> bool:
-    return t.text[:1] in "{'" or bool(re.match(r"[-+]?[0-9.]", t.text))
-
-
-def _function_args(toks: list[Token], i: int) -> tuple[list[Token], int]:
-    """Arguments of ``SIN(...)`` or of ``SIN a b c`` (values up to the next keyword)."""
-    args: list[Token] = []
-    if i < len(toks) and toks[i].text == "(":
-        i += 1
-        while i < len(toks) and toks[i].text != ")":
-            if toks[i].text != ",":
-                args.append(toks[i])
-            i += 1
-        return args, i + 1
-    while i < len(toks) and _is_value(toks[i]):
-        args.append(toks[i])
-        i += 1
-    return args, i
 
 
 def is_netlist(path: str | Path, input_format: str | None = None) -> bool:
