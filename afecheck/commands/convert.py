@@ -3,7 +3,6 @@
 from __future__ import annotations
 
 import argparse
-from pathlib import Path
 from typing import TextIO
 
 from afecheck.commands.netlist_options import add_netlist_arguments, netlist_options
@@ -20,28 +19,21 @@ def add_arguments(p: argparse.ArgumentParser) -> None:
 
 
 def run(args: argparse.Namespace, stdout: TextIO, stderr: TextIO) -> int:
-    from afecheck.errors import InputError, Problem
-    from afecheck.io import same_file, write_text_atomic
+    from afecheck.io import check_outputs, recording_reads, write_outputs
     from afecheck.model.load import load_design
     from afecheck.model.write_yaml import design_yaml
 
     options = netlist_options(args)
-    if args.output:
-        inputs = [args.file, args.intent, options["netlist_map"], *args.parts]
-        for source in (Path(s) for s in inputs if s):
-            if source.exists() and same_file(source, args.output):
-                raise InputError([Problem(str(args.output), None, None, "--output",
-                                          "is an input file; afecheck never writes to its inputs")])
-    loaded = load_design(args.file, intent=args.intent, libraries=tuple(args.parts), **options)
+    with recording_reads() as reads:  # every file read, includes too: none of them may be the output
+        if args.output:
+            check_outputs([args.output], [args.file, args.intent, options["netlist_map"], *args.parts])
+        loaded = load_design(args.file, intent=args.intent, libraries=tuple(args.parts), **options)
     for note in loaded.notes:
         print(f"note: {note}", file=stderr)
     text = design_yaml(loaded)
     if not args.output:
         stdout.write(text)
         return 0
-    try:
-        write_text_atomic(args.output, text)
-    except OSError as exc:
-        raise InputError([Problem(str(args.output), None, None, "", f"cannot write: {exc.strerror or exc}")]) from None
+    write_outputs([(args.output, text)], reads)
     print(f"wrote {args.output}", file=stderr)
     return 0

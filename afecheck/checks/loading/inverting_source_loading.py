@@ -1,4 +1,4 @@
-"""AFE101: a source's Thevenin resistance adds to an inverting (summing, difference) input resistor."""
+"""loading.inverting-input: a source's Thevenin resistance adds to an inverting (summing, difference) input resistor."""
 
 from __future__ import annotations
 
@@ -11,7 +11,7 @@ from afecheck.engine.finding import Finding, Severity
 from afecheck.engine.rule import Param, RuleMeta
 
 META = RuleMeta(
-    id="AFE101", slug="inverting-input-loads-source", severity=Severity.ERROR, family="loading",
+    id="loading.inverting-input", slug="inverting-input-loads-source", severity=Severity.ERROR, family="loading",
     summary="source resistance in series with an inverting-type input resistor changes the gain",
     params=(
         Param("warn_fraction", 1e-3, "1", "gain error Rs/(Rs+Ri) above which a warning is raised"),
@@ -35,8 +35,9 @@ def check(ctx: Context) -> Iterator[Finding]:
             src = inp.source
             if ri is None or ri <= 0 or src.r_max <= 0:
                 continue
-            e_max = src.r_max / (src.r_max + ri)
-            e_min = src.r_min / (src.r_min + ri)
+            # the analysis's loading error (1 - loaded/unloaded source voltage = Rs/(Rs + Ri)), never the declared
+            # resistance alone, so the rule cannot drift from the netlist the stage was solved on
+            e_max, e_min = inp.loading_error_max, inp.loading_error_min
             severity = grade_above(e_max, warn, err)
             if severity is None:
                 continue
