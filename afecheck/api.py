@@ -151,12 +151,16 @@ def review_files(
     today: dt.date | None = None,
     registry: Any = None,
     detail: str = "none",
+    input_format: str | None = None,
+    netlist_map: str | Path | None = None,
+    on_note: Any = None,
 ) -> Report:
     """Check every design under its policy (``config``, else a discovered ``.afecheck.yaml`` when ``discover``),
     apply waivers and the baseline, and return the report data. Bad input of any file raises one InputError.
 
     ``detail``: ``"stages"`` adds each stage's numbers and headroom to the report data, ``"curves"`` also its
-    frequency responses (for the reports that draw plots); ``"none"`` keeps the check path lean."""
+    frequency responses (for the reports that draw plots); ``"none"`` keeps the check path lean.
+    ``input_format``/``netlist_map`` say how to read SPICE netlists; ``on_note(text)`` hears what a reader skipped."""
     from afecheck import __version__
     from afecheck.engine.runner import run_rules
     from afecheck.model.load import load_design
@@ -197,7 +201,10 @@ def review_files(
                 policies[key] = resolve_policy(catalogue, cfg, ruleset)
             policy = policies[key]
             levels.add(policy.fail_on)
-            loaded = load_design(path, intent=intent, libraries=libraries)
+            loaded = load_design(path, intent=intent, libraries=libraries, input_format=input_format,
+                                 netlist_map=netlist_map)
+            for note in loaded.notes if on_note is not None else ():
+                on_note(note)
             options = policy.run_options(runnable)
             analysis, curves = None, {}
             if detail != "none":

@@ -8,6 +8,8 @@ import json
 import math
 from typing import TYPE_CHECKING, TextIO
 
+from afecheck.commands.netlist_options import add_netlist_arguments, netlist_options
+
 if TYPE_CHECKING:
     from afecheck.analysis.curves import StageCurves
     from afecheck.analysis.results import DesignAnalysis, StageInput, StageResult
@@ -17,20 +19,21 @@ JSON_SCHEMA_VERSION = 1
 
 
 def add_arguments(p: argparse.ArgumentParser) -> None:
-    p.add_argument("file", metavar="FILE", help="design file (YAML or JSON)")
+    p.add_argument("file", metavar="FILE", help="design file (YAML, JSON or SPICE netlist)")
     p.add_argument("--json", action="store_true", help="print every field of every stage as JSON")
     p.add_argument("--curves", action="store_true",
                    help="with the JSON (implies --json), add each stage's frequency responses: loop gain, noise gain,"
                    " open-loop gain and the closed-loop response from each signal input (dB and degrees)")
     p.add_argument("--intent", help="design-intent file (signals, loads, budgets keyed by net)")
     p.add_argument("--parts", action="append", default=[], metavar="LIB", help="extra part library file")
+    add_netlist_arguments(p)
 
 
 def run(args: argparse.Namespace, stdout: TextIO, stderr: TextIO) -> int:
     from afecheck.analysis import analyse
     from afecheck.model.load import load_design
 
-    loaded = load_design(args.file, intent=args.intent, libraries=tuple(args.parts))
+    loaded = load_design(args.file, intent=args.intent, libraries=tuple(args.parts), **netlist_options(args))
     if args.curves:
         from afecheck.analysis.curves import design_curves
 

@@ -91,6 +91,10 @@ CONSUMERS: dict[str, str | None] = {
     "budgets": "dc-accuracy.bias-offset", "budgets.*.offset": "dc-accuracy.bias-offset",
     "budgets.*.gain_accuracy": UNCHECKED,
     "budgets.*.noise": UNCHECKED,
+    # the op-amp map of a SPICE netlist, when it lives in the intent file
+    "netlist": "model.netlist_map", "netlist.components": "model.netlist_map", "netlist.rails": "model.netlist_map",
+    "netlist.subcircuits": "model.netlist_map", "netlist.subcircuits.*.part": "model.netlist_map",
+    "netlist.subcircuits.*.pins": "model.netlist_map",
 }
 
 

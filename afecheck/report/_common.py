@@ -33,7 +33,7 @@ def root_label(root: Entry) -> str:
     """How a downstream finding names the root it rests on: rule, stage and where it is reported."""
     f = root.finding
     stage = f" on stage {root.stage}" if root.stage else ""
-    return f"{f.rule}/{f.slug}{stage} ({where(root)})"
+    return f"{f.rule}{stage} ({where(root)})"
 
 
 def by_stage(design: DesignResult) -> Iterator[tuple[str, tuple[Entry, ...]]]:
