@@ -251,7 +251,26 @@ def summary_line(report: Report) -> str:
     extra = [f"{c[k]} {k}" for k in ("waived", "unchanged", "fixed") if c[k]]
     if extra:
         head += " (" + ", ".join(extra) + ")"
+    incomplete = not_evaluated_stages(report)
+    if incomplete:
+        why = "; ".join(f"{stage}: {reason}" for stage, reason in incomplete)
+        head += f"; {plural(len(incomplete), 'stage')} not fully evaluated ({why})"
     if report.fail_on is None:
         return f"{head}; fail level never: gate not applied"
     verdict = "FAIL" if report.failed() else "PASS"
     return f"{head}; fail level {fail_level_label(report.fail_on)}: {verdict}"
+
+
+INCOMPLETE_RULE = "coverage.not-evaluated"
+
+
+def not_evaluated_stages(report: Report) -> tuple[tuple[str, str], ...]:
+    """(stage, first reason) of every active analysis-incomplete finding, in report order, one per stage."""
+    seen: dict[str, str] = {}
+    for e in report.entries():
+        f = e.finding
+        if f.rule == INCOMPLETE_RULE and e.active:
+            stage = e.stage or ", ".join(f.location.refs) or "design"
+            reason = str(f.ctx.get("reason", f.message)).split("; ")[0]
+            seen.setdefault(stage, reason)
+    return tuple(seen.items())
