@@ -92,3 +92,19 @@ def test_script_text_in_a_design_shows_as_text_and_runs_nothing(browser: Browser
     assert "<script>window.__xss = 1</script>" in body and '<img src=x onerror="window.__xss=2">' in body
     assert page.evaluate("document.title").startswith("afecheck review: <script>")
     page.screenshot(tmp_path / "hostile.png")
+
+
+@pytest.mark.slow
+def test_page_reads_the_same_without_javascript(browser: Browser, tmp_path: Path) -> None:
+    page_file = tmp_path / "soil.html"
+    page_file.write_text(html_of(next(p for p in SAMPLES if p.stem == "soil_probe_reader")), encoding="utf-8")
+    page = browser.page()
+    page.send("Emulation.setScriptExecutionDisabled", {"value": True})
+    page.open(page_file)
+    page.send("Emulation.setScriptExecutionDisabled", {"value": False})  # to ask the page; it loaded without
+    state = page.evaluate("[document.getElementById('filters').hidden, "
+                          "Array.from(document.querySelectorAll('article.finding')).filter(a => a.hidden).length, "
+                          "document.querySelectorAll('article.finding').length, "
+                          "Array.from(document.querySelectorAll('svg.plot')).every(s => s.getBoundingClientRect()"
+                          ".height > 50)]")
+    assert state[0] is True and state[1] == 0 and state[2] == 3 and state[3] is True
