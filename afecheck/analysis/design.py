@@ -15,9 +15,11 @@ def analyse_design(loaded: LoadedDesign, circuits: dict | None = None) -> Design
     ``circuits``, when given, collects each op-amp's local netlist for frequency sweeps (analysis/curves.py)."""
     circuit = build_circuit(loaded)
     plan = find_stages(circuit)
-    results, nets, problems = propagate(circuit, plan, circuits)
+    run = propagate(circuit, plan, circuits)
+    results, nets, problems = run.results, run.nets, run.problems
     for r in results.values():
         if r.not_evaluated:
             problems.append(((r.opamp,), "; ".join(r.not_evaluated)))
     stages = tuple(results[r] for r in circuit.opamps if r in results)
-    return DesignAnalysis(stages=stages, nets=dict(sorted(nets.items())), not_evaluated=tuple(problems))
+    return DesignAnalysis(stages=stages, nets=dict(sorted(nets.items())), not_evaluated=tuple(problems),
+                          forms=dict(sorted(run.forms.items())), output_currents=run.output_currents)

@@ -8,18 +8,28 @@ from __future__ import annotations
 
 from collections.abc import Mapping
 from dataclasses import dataclass, field
-from typing import Literal
+from typing import TYPE_CHECKING, Literal
+
+if TYPE_CHECKING:
+    from afecheck.analysis.affine import SweptForm
 
 Topology = Literal[
     "follower", "non-inverting", "inverting", "summing", "difference", "transimpedance", "integrator",
     "active-filter", "general",
 ]
-SourceKind = Literal["signal", "signal-source", "divider", "ntc-divider", "rail", "vsource", "stage-output", "unknown"]
+SourceKind = Literal["signal", "signal-source", "divider", "ntc-divider", "rail", "vsource", "stage-output", "unknown",
+                     "current", "charge"]
+GainUnit = Literal["V/V", "V/A", "V/C"]
 
 
 @dataclass(frozen=True)
 class SourceEquivalent:
-    """Thevenin equivalent of what drives one stage input, over the declared range."""
+    """Thevenin equivalent of what drives one stage input, over the declared range.
+
+    For a ``current`` source (a photodiode) ``v_min``/``v_max`` hold its DC current range in amperes and
+    ``r_min``/``r_max`` its shunt resistance (infinite when not declared), ``ac_amplitude`` its AC current; for a
+    ``charge`` source ``r_min``/``r_max`` are its leakage resistance and ``ac_amplitude`` charge/capacitance volts.
+    """
 
     net: str
     kind: SourceKind
@@ -36,8 +46,10 @@ class SourceEquivalent:
 class StageInput:
     """One signal input of a stage: its source, the parts between it and the op-amp pin, gain and loading.
 
-    ``gain`` is the DC gain to the op-amp output; ``band_gain`` the largest |gain| over the source's band
-    (its upper edge, a hundredth of it and their geometric mean), None when the source declares no band.
+    ``gain`` is the DC gain to the op-amp output in ``gain_unit`` (V/V; V/A for a current source, the
+    transimpedance; V/C for a charge source, taken as the largest |gain| over its band, or at 1 kHz without one);
+    ``band_gain`` the largest |gain| over the source's band (its upper edge, a hundredth of it and their geometric
+    mean) in the same unit, None when the source declares no band.
     """
 
     net: str
@@ -50,6 +62,7 @@ class StageInput:
     loading_error_min: float
     loading_error_max: float
     band_gain: float | None = None
+    gain_unit: GainUnit = "V/V"
 
 
 @dataclass(frozen=True)
@@ -90,6 +103,7 @@ class StageResult:
     assumed: tuple[str, ...] = ()
     estimated: bool = False
     not_evaluated: tuple[str, ...] = ()
+    feedback_capacitance_for_margin: float | None = None
 
 
 @dataclass(frozen=True)
@@ -105,8 +119,15 @@ class NetSignal:
 
 @dataclass(frozen=True)
 class DesignAnalysis:
-    """All stages, the signal on every net, and what could not be evaluated (refs, reason)."""
+    """All stages, the signal on every net, and what could not be evaluated (refs, reason).
+
+    ``forms`` holds each solved net's DC value as a :class:`~afecheck.analysis.affine.SweptForm` over the
+    design's independent quantities (rails, signals, op-amp offsets, thermistor temperatures), and
+    ``output_currents`` each op-amp's DC output current the same way: the ranges in ``nets`` are their extremes.
+    """
 
     stages: tuple[StageResult, ...]
     nets: Mapping[str, NetSignal]
     not_evaluated: tuple[tuple[tuple[str, ...], str], ...] = field(default=())
+    forms: Mapping[str, SweptForm] = field(default_factory=dict, compare=False, repr=False)
+    output_currents: Mapping[str, SweptForm] = field(default_factory=dict, compare=False, repr=False)

@@ -10,6 +10,7 @@ Rail tolerance widens each rail to V·(1 ± t).
 
 from __future__ import annotations
 
+import math
 from collections.abc import Iterable
 from dataclasses import dataclass
 
@@ -59,8 +60,10 @@ def rail_range(circuit: Circuit, net: str) -> tuple[float, float] | None:
     return (min(a, b), max(a, b))
 
 
-def find_dividers(circuit: Circuit, nets: Iterable[str], refs: frozenset[str]) -> dict[str, Divider]:
-    """Divider nodes among ``nets`` whose legs are among ``refs`` (see the module docstring for the test)."""
+def find_dividers(circuit: Circuit, nets: Iterable[str], refs: frozenset[str],
+                  memo: dict | None = None) -> dict[str, Divider]:
+    """Divider nodes among ``nets`` whose legs are among ``refs`` (see the module docstring for the test);
+    ``memo`` keeps each divider once per design."""
     found: dict[str, Divider] = {}
     for net in sorted(nets):
         if net in circuit.fixed or net in circuit.signal_nets or net in circuit.opamp_outputs:
@@ -74,7 +77,13 @@ def find_dividers(circuit: Circuit, nets: Iterable[str], refs: frozenset[str]) -
                 legs.append((ref, far))
         if len(legs) < 2 or len({far for _, far in legs}) < 2:
             continue
-        found[net] = divider(circuit, net, legs)
+        if memo is None:
+            found[net] = divider(circuit, net, legs)
+            continue
+        key = (net, tuple(legs))
+        if key not in memo:
+            memo[key] = divider(circuit, net, legs)
+        found[net] = memo[key]
     return found
 
 
@@ -110,6 +119,13 @@ def boundary_source(circuit: Circuit, net: str, upstream: StageResult | None = N
     d = circuit.loaded.design
     if net == circuit.ground:
         return None
+    if net in d.signals and d.signals[net].kind != "voltage":
+        sig = d.signals[net]
+        lo, hi = sig.dc_range
+        r = sig.shunt_resistance if sig.kind == "current" else sig.leakage_resistance
+        r = math.inf if r is None else float(r)
+        return SourceEquivalent(net=net, kind=sig.kind, refs=(), v_min=min(lo, hi), v_max=max(lo, hi), r_min=r,
+                                r_max=r, ac_amplitude=sig.ac_value, f_max=float(sig.band[1]) if sig.band else 0.0)
     if net in d.signals:
         sig = d.signals[net]
         return SourceEquivalent(net=net, kind="signal", refs=(), v_min=float(min(sig.dc)), v_max=float(max(sig.dc)),

@@ -44,6 +44,8 @@ def check(ctx: Context) -> Iterator[Finding]:
                 continue
             ri = inp.input_resistance
             src = inp.source
+            if src.kind in ("current", "charge"):
+                continue  # a current or charge sensor is meant to work into a low impedance
             if ri is None or ri <= 0 or src.r_max <= 0 or src.kind in ("rail", "vsource"):
                 continue
             e_min, e_max = inp.loading_error_min, inp.loading_error_max
