@@ -259,7 +259,8 @@ def test_a_photodiode_is_a_current_source_into_a_transimpedance_stage(tmp_path) 
     # in band the feedback is Rf || Cf: |Z| = Rf/sqrt(1 + (2π f Rf Cf)²), largest at the low edge
     assert pd.band_gain == pytest.approx(100e3 / math.sqrt(1 + (2 * math.pi * 10 * 100e3 * 10e-12) ** 2), rel=1e-5)
     report = check_design(loaded)
-    assert not [f for f in report.findings if f.rule in ("loading.inverting-input", "loading.input-divider", "dc-accuracy.bias-offset")]
+    loading = ("loading.inverting-input", "loading.input-divider", "dc-accuracy.bias-offset")
+    assert not [f for f in report.findings if f.rule in loading]
 
 
 def test_a_charge_amplifier_reports_volts_per_coulomb(tmp_path) -> None:
