@@ -13,9 +13,11 @@ def analyse_design(loaded: LoadedDesign) -> DesignAnalysis:
     """Every op-amp stage's StageResult (in file order), the signal on every net, and what was not evaluated."""
     circuit = build_circuit(loaded)
     plan = find_stages(circuit)
-    results, nets, problems = propagate(circuit, plan)
+    run = propagate(circuit, plan)
+    results, nets, problems = run.results, run.nets, run.problems
     for r in results.values():
         if r.not_evaluated:
             problems.append(((r.opamp,), "; ".join(r.not_evaluated)))
     stages = tuple(results[r] for r in circuit.opamps if r in results)
-    return DesignAnalysis(stages=stages, nets=dict(sorted(nets.items())), not_evaluated=tuple(problems))
+    return DesignAnalysis(stages=stages, nets=dict(sorted(nets.items())), not_evaluated=tuple(problems),
+                          forms=dict(sorted(run.forms.items())), output_currents=run.output_currents)

@@ -8,7 +8,10 @@ from __future__ import annotations
 
 from collections.abc import Mapping
 from dataclasses import dataclass, field
-from typing import Literal
+from typing import TYPE_CHECKING, Literal
+
+if TYPE_CHECKING:
+    from afecheck.analysis.affine import SweptForm
 
 Topology = Literal[
     "follower", "non-inverting", "inverting", "summing", "difference", "transimpedance", "integrator",
@@ -105,8 +108,15 @@ class NetSignal:
 
 @dataclass(frozen=True)
 class DesignAnalysis:
-    """All stages, the signal on every net, and what could not be evaluated (refs, reason)."""
+    """All stages, the signal on every net, and what could not be evaluated (refs, reason).
+
+    ``forms`` holds each solved net's DC value as a :class:`~afecheck.analysis.affine.SweptForm` over the
+    design's independent quantities (rails, signals, op-amp offsets, thermistor temperatures), and
+    ``output_currents`` each op-amp's DC output current the same way: the ranges in ``nets`` are their extremes.
+    """
 
     stages: tuple[StageResult, ...]
     nets: Mapping[str, NetSignal]
     not_evaluated: tuple[tuple[tuple[str, ...], str], ...] = field(default=())
+    forms: Mapping[str, SweptForm] = field(default_factory=dict, compare=False, repr=False)
+    output_currents: Mapping[str, SweptForm] = field(default_factory=dict, compare=False, repr=False)

@@ -9,6 +9,10 @@ gets its Thevenin voltage range.
 
 from __future__ import annotations
 
+from dataclasses import dataclass
+
+from afecheck.analysis.affine import SweptForm
+from afecheck.analysis.corners import Corners
 from afecheck.analysis.results import NetSignal, StageResult
 from afecheck.analysis.sources import find_dividers, rail_range
 from afecheck.analysis.stage_analysis import analyse_unit
@@ -31,26 +35,62 @@ def seed_signals(circuit: Circuit) -> dict[str, NetSignal]:
     return nets
 
 
-def propagate(circuit: Circuit, plan: StagePlan) -> tuple[dict[str, StageResult], dict[str, NetSignal],
-                                                          list[tuple[tuple[str, ...], str]]]:
+@dataclass(frozen=True)
+class Propagated:
+    """Stage results, net signals, what was not evaluated, and the forms behind the DC ranges."""
+
+    results: dict[str, StageResult]
+    nets: dict[str, NetSignal]
+    problems: list[tuple[tuple[str, ...], str]]
+    forms: dict[str, SweptForm]
+    output_currents: dict[str, SweptForm]
+
+
+def seed_forms(circuit: Circuit, corners: Corners) -> dict[str, SweptForm]:
+    """Forms of the fixed nets and declared signals."""
+    forms: dict[str, SweptForm] = {}
+    for net in circuit.fixed:
+        f = corners.fixed_form(net)
+        if f is not None:
+            forms[net] = f
+    d = circuit.loaded.design
+    for net, ref in circuit.signal_nets.items():
+        forms[net] = corners.signal_form(net) if net in d.signals else corners.source_form(ref)
+    return forms
+
+
+def propagate(circuit: Circuit, plan: StagePlan) -> Propagated:
     """Analyse every solve unit in signal order; return stage results, net signals and what was not evaluated."""
     results: dict[str, StageResult] = {}
     nets = seed_signals(circuit)
+    corners = Corners(circuit)
+    forms = seed_forms(circuit, corners)
+    currents: dict[str, SweptForm] = {}
     problems: list[tuple[tuple[str, ...], str]] = [
         (loop, f"stages {', '.join(loop)} form a feedback loop larger than can be solved as one group")
         for loop in plan.unsolved_loops
     ]
     cache: dict = {}
     for unit in plan.units:
-        res = analyse_unit(circuit, plan, unit, results, cache)
+        res = analyse_unit(circuit, plan, unit, results, cache, forms, corners)
         for r in res.stages:
             results[r.opamp] = r
         for ns in res.nets:
             if ns.net not in circuit.fixed and ns.net not in circuit.signal_nets:
                 nets[ns.net] = ns
+                forms[ns.net] = res.forms[ns.net]
+        currents.update(res.output_currents)
     rest = [n for n in circuit.net_pins if n not in nets]
     for net, dv in find_dividers(circuit, rest, frozenset(circuit.kinds)).items():
         if len(circuit.net_pins[net]) == len(dv.legs):
-            eq = dv.equivalent()
-            nets[net] = NetSignal(net=net, dc_min=eq.v_min, dc_max=eq.v_max)
-    return results, nets, problems
+            legs = [(r, circuit.other_pin_net(r, net) or "") for r in dv.legs]
+            grid = corners.grid({r for r in dv.legs if r in corners.thermistors})
+            _rth, form = corners.divider_form(legs, grid)
+            if form is None:
+                eq = dv.equivalent()
+                nets[net] = NetSignal(net=net, dc_min=eq.v_min, dc_max=eq.v_max)
+                continue
+            lo, hi = form.extremes()
+            nets[net] = NetSignal(net=net, dc_min=lo, dc_max=hi)
+            forms[net] = form
+    return Propagated(results, nets, problems, forms, currents)

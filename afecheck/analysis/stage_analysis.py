@@ -16,15 +16,18 @@ from __future__ import annotations
 
 import math
 from collections.abc import Mapping
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 
 import numpy as np
 
+from afecheck.analysis.affine import SweptForm, constant_form
+from afecheck.analysis.corners import Corners, UnitGrid
 from afecheck.analysis.loop import loop_gain
 from afecheck.analysis.mna import MnaSystem, assemble, check_connectivity
 from afecheck.analysis.netlist import (
     GROUND,
     Capacitor,
+    CurrentSource,
     Element,
     Netlist,
     NetlistOptions,
@@ -36,6 +39,7 @@ from afecheck.analysis.netlist import (
     element_nodes,
     netlist_from_design,
 )
+from afecheck.analysis.ranges import solve_forms
 from afecheck.analysis.results import NetSignal, SourceEquivalent, StageInput, StageResult
 from afecheck.analysis.sources import Divider, boundary_source, find_dividers
 from afecheck.errors import AnalysisError, InputError, SingularCircuitError
@@ -51,23 +55,32 @@ LEAK_RESISTANCE = 1e15
 
 @dataclass(frozen=True)
 class _Input:
-    """One input of the local circuit: its equivalent, the branch that drives it, and its temperature grid."""
+    """One input of the local circuit: its equivalent, the branch that drives it, and the op-amp pin it reaches."""
 
     source: SourceEquivalent
     branch: str
     series: str | None
-    rth: tuple[float, ...]
-    vmin: tuple[float, ...]
-    vmax: tuple[float, ...]
     pin: str
+
+
+@dataclass
+class _Sources:
+    """What the unit's independent sources stand for: a form per source element, the divider legs behind each
+    Thevenin source (its form and resistance depend on the grid), and the resistors that move with temperature."""
+
+    forms: dict[str, SweptForm]
+    dividers: dict[str, tuple[str, list[tuple[str, str]]]]
 
 
 @dataclass(frozen=True)
 class UnitResult:
-    """The results of one solve unit: a StageResult per op-amp and the signal on each net it solved."""
+    """The results of one solve unit: a StageResult per op-amp, the signal on each net it solved, each net's DC
+    value as a form over the design's quantities, and each op-amp's DC output current as a form."""
 
     stages: tuple[StageResult, ...]
     nets: tuple[NetSignal, ...]
+    forms: Mapping[str, SweptForm] = field(default_factory=dict)
+    output_currents: Mapping[str, SweptForm] = field(default_factory=dict)
 
 
 def _node(circuit: Circuit, net: str) -> str:
@@ -102,8 +115,10 @@ def _rails(circuit: Circuit, stage: Stage) -> tuple[float, float, list[str]]:
 
 def _collect_inputs(
     circuit: Circuit, stages: list[Stage], dividers: Mapping[str, Divider], done: Mapping[str, StageResult],
-) -> tuple[list[_Input], list[Element], list[str]]:
-    """Inputs of the unit, extra elements that realise them, and the notes on anything left unknown."""
+    corners: Corners, forms: Mapping[str, SweptForm],
+) -> tuple[list[_Input], list[Element], list[str], _Sources]:
+    """Inputs of the unit, extra elements that realise them, the notes on anything left unknown, and what each
+    source element stands for."""
     unit = {s.opamp for s in stages}
     legs = {r for dv in dividers.values() for r in dv.legs}
     side_refs = set().union(*(s.plus_region.refs | s.minus_region.refs for s in stages))
@@ -111,6 +126,7 @@ def _collect_inputs(
     extra: list[Element] = []
     notes: list[str] = []
     seen: set[str] = set()
+    sources = _Sources({}, {})
     pin_of: dict[str, str] = {}
     for s in stages:
         for net in s.plus_region.boundary | s.plus_region.nets | {s.in_plus}:
@@ -126,8 +142,8 @@ def _collect_inputs(
         k = dv.nominal_index
         extra += [VoltageSource(f"{net}#thev", inner, GROUND, dc=0.0),
                   Resistor(f"{net}#thev.rs", inner, _node(circuit, net), dv.rth[k])]
-        inputs.append(_Input(dv.equivalent(), f"{net}#thev", f"{net}#thev.rs", dv.rth, dv.vth_min, dv.vth_max,
-                             pin_of.get(net, "in+")))
+        inputs.append(_Input(dv.equivalent(), f"{net}#thev", f"{net}#thev.rs", pin_of.get(net, "in+")))
+        sources.dividers[f"{net}#thev"] = (f"{net}#thev.rs", _divider_legs(circuit, net, dv))
         seen.add(net)
     for net in boundary:
         if net in seen or net == circuit.ground or circuit.opamp_outputs.get(net) in unit:
@@ -153,6 +169,9 @@ def _collect_inputs(
             branch, series = (f"{net}#rail", None) if src.kind == "rail" else (f"{net}#fixed", None)
             if src.kind == "vsource":
                 extra.append(VoltageSource(branch, _node(circuit, net), GROUND, dc=0.0))
+                fixed = corners.fixed_form(net)
+                if fixed is not None:
+                    sources.forms[branch] = fixed
         else:
             branch = f"{net}#stage"
             series = f"{net}#stage.rs" if src.r_max > 0 else None
@@ -161,13 +180,19 @@ def _collect_inputs(
                           Resistor(series, f"{net}#stage.s", _node(circuit, net), src.r_max)]
             else:
                 extra.append(VoltageSource(branch, _node(circuit, net), GROUND, dc=0.0))
-        inputs.append(_Input(src, branch, series, (src.r_max,), (src.v_min,), (src.v_max,), pin))
+            sources.forms[branch] = forms.get(net, constant_form(0.0))
+        inputs.append(_Input(src, branch, series, pin))
         seen.add(net)
-    return inputs, extra, notes
+    return inputs, extra, notes, sources
+
+
+def _divider_legs(circuit: Circuit, net: str, dv: Divider) -> list[tuple[str, str]]:
+    """(leg, far net) of each leg of a divider node."""
+    return [(r, circuit.other_pin_net(r, net) or "") for r in dv.legs]
 
 
 def _holding_elements(circuit: Circuit, stages: list[Stage], nets: set[str], seen_inputs: set[str],
-                      done: Mapping[str, StageResult]) -> list[Element]:
+                      corners: Corners, forms: Mapping[str, SweptForm], sources: _Sources) -> list[Element]:
     """Sources for other op-amps' outputs and virtual grounds the output walk stopped at; input loads of others."""
     unit = {s.opamp for s in stages}
     extra: list[Element] = []
@@ -177,12 +202,14 @@ def _holding_elements(circuit: Circuit, stages: list[Stage], nets: set[str], see
             if (net in circuit.fixed and net != circuit.ground and net not in circuit.loaded.design.rails
                     and circuit.fixed[net] is not None):
                 extra.append(VoltageSource(f"{net}#fixed", _node(circuit, net), GROUND, dc=float(circuit.fixed[net])))
+                fixed = corners.fixed_form(net)
+                if fixed is not None:
+                    sources.forms[f"{net}#fixed"] = fixed
             continue
         owner = circuit.opamp_outputs.get(net)
         if owner is not None and owner not in unit:
-            res = done.get(owner)
-            v = 0.0 if res is None or res.vout_min is None else 0.5 * (res.vout_min + res.vout_max)
-            extra.append(VoltageSource(f"{net}#held", _node(circuit, net), GROUND, dc=v))
+            extra.append(VoltageSource(f"{net}#held", _node(circuit, net), GROUND, dc=0.0))
+            sources.forms[f"{net}#held"] = forms.get(net, constant_form(0.0))
             continue
         for ref, pin in circuit.net_pins.get(net, ()):
             if pin == "in-" and circuit.kinds[ref] == "opamp" and ref not in unit:
@@ -192,6 +219,8 @@ def _holding_elements(circuit: Circuit, stages: list[Stage], nets: set[str], see
                 else:
                     vp = circuit.fixed.get(plus)
                     extra.append(VoltageSource(f"{net}#vg", _node(circuit, net), GROUND, dc=float(vp or 0.0)))
+                    fixed = corners.fixed_form(plus) if plus in circuit.fixed else None
+                    sources.forms[f"{net}#vg"] = fixed if fixed is not None else constant_form(float(vp or 0.0))
                 break
     for net in sorted(nets - set(circuit.fixed)):
         for ref, pin in circuit.net_pins.get(net, ()):
@@ -206,11 +235,15 @@ def _holding_elements(circuit: Circuit, stages: list[Stage], nets: set[str], see
 
 
 def analyse_unit(circuit: Circuit, plan: StagePlan, unit: tuple[str, ...],
-                 done: Mapping[str, StageResult], cache: dict | None = None) -> UnitResult:
-    """Solve the op-amps of ``unit`` together and return their StageResults and net signals.
+                 done: Mapping[str, StageResult], cache: dict | None = None,
+                 forms: Mapping[str, SweptForm] | None = None, corners: Corners | None = None) -> UnitResult:
+    """Solve the op-amps of ``unit`` together and return their StageResults, net signals and net forms.
 
-    ``cache`` (one dict per design) memoises loop gains of stages whose local circuits are identical.
+    ``cache`` (one dict per design) memoises loop gains of stages whose local circuits are identical;
+    ``forms`` holds the forms of nets solved so far (upstream outputs), ``corners`` the design's quantities.
     """
+    corners = corners or Corners(circuit)
+    forms = forms or {}
     stages = [plan.stages[r] for r in unit]
     for s in stages:
         if not s.out or not s.in_plus or not s.in_minus:
@@ -222,8 +255,8 @@ def analyse_unit(circuit: Circuit, plan: StagePlan, unit: tuple[str, ...],
     dividers = find_dividers(circuit, input_nets, passives)
     legs = {r for dv in dividers.values() for r in dv.legs}
     nets = set().union(*(set(s.nets) for s in stages))
-    inputs, extra, notes = _collect_inputs(circuit, stages, dividers, done)
-    extra += _holding_elements(circuit, stages, nets, {i.source.net for i in inputs}, done)
+    inputs, extra, notes, sources = _collect_inputs(circuit, stages, dividers, done, corners, forms)
+    extra += _holding_elements(circuit, stages, nets, {i.source.net for i in inputs}, corners, forms, sources)
     extra += [Resistor(f"{net}#leak", _node(circuit, net), GROUND, LEAK_RESISTANCE)
               for net in sorted(nets) if net not in circuit.fixed and not has_dc_path(circuit, net)]
     d = circuit.loaded.design
@@ -237,8 +270,9 @@ def analyse_unit(circuit: Circuit, plan: StagePlan, unit: tuple[str, ...],
         return UnitResult(tuple(_empty_result(s, circuit, tuple(p.message for p in exc.problems)) for s in stages), ())
     names = {e.name for e in netlist.elements}
     inputs = [i for i in inputs if i.branch in names]
+    ntcs = tuple(r for r in comps if circuit.kinds.get(r) == "ntc")
     try:
-        return _solve_unit(circuit, stages, netlist, inputs, notes, cache)
+        return _solve_unit(circuit, stages, netlist, inputs, notes, cache, corners, sources, ntcs)
     except SingularCircuitError as exc:
         reason = f"singular circuit: {exc}"
     except (AnalysisError, np.linalg.LinAlgError, ValueError, ArithmeticError) as exc:
@@ -247,73 +281,95 @@ def analyse_unit(circuit: Circuit, plan: StagePlan, unit: tuple[str, ...],
 
 
 def _solve_unit(circuit: Circuit, stages: list[Stage], netlist: Netlist, inputs: list[_Input],
-                notes: list[str], cache: dict | None = None) -> UnitResult:
+                notes: list[str], cache: dict | None, corners: Corners, sources: _Sources,
+                ntcs: tuple[str, ...]) -> UnitResult:
     check_connectivity(netlist, dc=True)
     system = assemble(netlist)
-    n = system.size
-    g = system.g
-    b_const = system.b_dc.copy()
-    cols = np.zeros((n, len(inputs)))
-    for j, inp in enumerate(inputs):
-        k = system.branch_index(inp.branch)
-        b_const[k] = 0.0
-        cols[k, j] = 1.0
-    try:
-        x = np.linalg.solve(g, np.column_stack([b_const, cols]))
-    except np.linalg.LinAlgError:
-        raise SingularCircuitError("the DC nodal matrix is singular") from None
-    if not np.all(np.isfinite(x)):
-        raise SingularCircuitError("the DC solution is not finite")
-    x_const, x_unit = x[:, 0], x[:, 1:]
+    forms, varying, grid = _unit_sources(circuit, netlist, system, corners, sources, ntcs)
+    dc = solve_forms(system, forms, varying, grid)
+    col = {name: j for j, name in enumerate(dc.sources)}
+    mid = dc.x.shape[0] // 2
+    x_unit = dc.x[mid][:, [col[i.branch] for i in inputs]] if inputs else np.zeros((system.size, 0))
+    per_input = [dc.x[:, :, col[i.branch]] for i in inputs]
+    lo, hi = dc.bounds()
 
-    lo = x_const.copy()
-    hi = x_const.copy()
-    per_input: list[tuple[np.ndarray, np.ndarray, np.ndarray]] = []
-    for j, inp in enumerate(inputs):
-        xs = _grid_solutions(system, g, inp, x_unit[:, j])
-        vth_lo = np.asarray(inp.vmin)[:, None]
-        vth_hi = np.asarray(inp.vmax)[:, None]
-        contrib = np.concatenate([xs * vth_lo, xs * vth_hi])
-        lo += contrib.min(axis=0)
-        hi += contrib.max(axis=0)
-        per_input.append((xs, vth_lo, vth_hi))
-
-    ac = _ac_amplitudes(system, inputs, n)
+    ac = _ac_amplitudes(system, inputs, system.size)
     ac_amp, fmax = ac[0], ac[1]
     idx = system.node_index
     results = []
+    currents: dict[str, SweptForm] = {}
     for s in stages:
         results.append(_stage_result(circuit, s, netlist, system, inputs, x_unit, per_input, lo, hi,
                                      ac, notes, cache))
+        currents[s.opamp] = dc.form(system.branch_index(netlist.opamps[s.opamp].loop_element), -1.0)
     fixed = set(circuit.fixed)
     net_signals = []
+    net_forms: dict[str, SweptForm] = {}
     for net in sorted(set().union(*(set(s.nets) for s in stages)) - fixed):
         node = _node(circuit, net)
         if node not in system.index:
             continue
         i = idx(node)
+        net_forms[net] = dc.form(i)
         net_signals.append(NetSignal(net=net, dc_min=float(lo[i]), dc_max=float(hi[i]),
                                      ac_amplitude=float(ac_amp[i]), f_max=float(fmax[i])))
-    return UnitResult(tuple(results), tuple(net_signals))
+    return UnitResult(tuple(results), tuple(net_signals), net_forms, currents)
 
 
-def _grid_solutions(system: MnaSystem, g: np.ndarray, inp: _Input, base: np.ndarray) -> np.ndarray:
-    """Unit-source solutions at each grid point of the input's Thevenin resistance, shape (points, n)."""
-    if len(inp.rth) == 1 or inp.series is None:
-        return base[None, :]
-    el = system.netlist.element(inp.series)
-    a, b = system.node_index(el.a), system.node_index(el.b)
-    k = system.branch_index(inp.branch)
-    nominal = el.value
-    mats = np.repeat(g[None, :, :], len(inp.rth), axis=0)
-    for p, r in enumerate(inp.rth):
-        dg = 1.0 / r - 1.0 / nominal
-        for i, jj, v in ((a, a, dg), (b, b, dg), (a, b, -dg), (b, a, -dg)):
-            if i >= 0 and jj >= 0:
-                mats[p, i, jj] += v
-    rhs = np.zeros((len(inp.rth), system.size, 1))
-    rhs[:, k, 0] = 1.0
-    return np.linalg.solve(mats, rhs)[..., 0]
+def _unit_sources(circuit: Circuit, netlist: Netlist, system: MnaSystem, corners: Corners, sources: _Sources,
+                  ntcs: tuple[str, ...]) -> tuple[dict[str, SweptForm], dict[str, np.ndarray], UnitGrid]:
+    """The form of every independent source in the unit's netlist, the resistors that move over the unit's
+    temperature grid (thermistors and divider Thevenin resistances), and that grid."""
+    forms: dict[str, SweptForm] = dict(sources.forms)
+    for e in netlist.elements:
+        name = e.name
+        if name in forms or name in sources.dividers:
+            continue
+        if isinstance(e, OpAmpCore):
+            ref = name.split("#", 1)[0]
+            op = netlist.opamps.get(ref)
+            forms.update(_offsets(circuit, corners, ref) if op is not None else {})
+        elif isinstance(e, (VoltageSource, CurrentSource)):
+            forms[name] = _element_form(circuit, corners, e)
+    present = {e.name for e in netlist.elements}
+    for name in [n for n in forms if n not in present]:
+        del forms[name]
+    swept = {t for f in forms.values() for t in f.swept}
+    swept |= {t for t in ntcs if t in corners.thermistors}
+    swept |= {r for _, legs in sources.dividers.values() for r, _ in legs if r in corners.thermistors}
+    grid = corners.grid(swept)
+    varying: dict[str, np.ndarray] = {}
+    for ref in ntcs:
+        if ref in corners.thermistors:
+            varying[ref] = corners.ntc_resistances(ref, grid)
+    for branch, (series, legs) in sources.dividers.items():
+        rth, form = corners.divider_form(legs, grid)
+        varying[series] = rth
+        forms[branch] = form if form is not None else constant_form(0.0)
+    return forms, varying, grid
+
+
+def _offsets(circuit: Circuit, corners: Corners, ref: str) -> dict[str, SweptForm]:
+    model = circuit.loaded.parts.get(circuit.loaded.design.components[ref].part)  # type: ignore[union-attr]
+    if model is None:
+        return {}
+    return corners.offset_forms(ref, model.value("offset_voltage"), model.value("bias_current"),
+                                model.value("offset_current"))
+
+
+def _element_form(circuit: Circuit, corners: Corners, e: VoltageSource | CurrentSource) -> SweptForm:
+    """The form of a source the netlist made from the design: a rail, a declared signal or a signal source."""
+    name = e.name
+    d = circuit.loaded.design
+    if name.endswith("#rail"):
+        form = corners.rail_form(name[:-5])
+        if form is not None:
+            return form
+    elif name.endswith("#signal") and name[:-7] in d.signals:
+        return corners.signal_form(name[:-7])
+    elif name in d.components and d.components[name].kind == "signal_source":
+        return corners.source_form(name)
+    return constant_form(float(e.dc))
 
 
 AcResult = tuple[np.ndarray, np.ndarray, dict[int, np.ndarray], dict[int, np.ndarray]]
@@ -362,7 +418,7 @@ def _band(inp: _Input) -> list[float]:
 
 
 def _stage_result(circuit: Circuit, s: Stage, netlist: Netlist, system: MnaSystem, inputs: list[_Input],
-                  x_unit: np.ndarray, per_input: list[tuple[np.ndarray, np.ndarray, np.ndarray]], lo: np.ndarray,
+                  x_unit: np.ndarray, per_input: list[np.ndarray], lo: np.ndarray,
                   hi: np.ndarray, ac: AcResult, notes: list[str], cache: dict | None = None) -> StageResult:
     """Fill one op-amp's StageResult from the unit's DC solutions, AC amplitudes and its own loop gain."""
     ac_amp, fmax, ac_mid, ac_peak = ac
@@ -378,7 +434,7 @@ def _stage_result(circuit: Circuit, s: Stage, netlist: Netlist, system: MnaSyste
     stage_inputs = []
     best = None
     for j, inp in enumerate(inputs):
-        xs, _vl, _vh = per_input[j]
+        xs = per_input[j]
         src_node = _node(circuit, inp.source.net)
         a = idx(src_node)
         vatt = xs[:, a] if a >= 0 else np.ones(len(xs))
@@ -433,6 +489,7 @@ def _stage_result(circuit: Circuit, s: Stage, netlist: Netlist, system: MnaSyste
     floating = [pin for pin, net in (("in+", s.in_plus), ("in-", s.in_minus)) if not has_dc_path(circuit, net)]
     for pin in floating:
         reasons.append(f"{pin} has no DC path to a defined voltage with capacitors open (DC ranges not evaluated)")
+    vcm = (float(lo[inp_i]), float(hi[inp_i])) if inp_i >= 0 else (0.0, 0.0)
     vpk = vac if vac > 0 else 0.5 * (vout_max - vout_min)
     open_loop = fb != "negative" or bool(floating)
     if open_loop:
@@ -442,8 +499,8 @@ def _stage_result(circuit: Circuit, s: Stage, netlist: Netlist, system: MnaSyste
         opamp=s.opamp, part=part, topology=s.topology, refs=s.refs, in_plus=s.in_plus, in_minus=s.in_minus,
         out=s.out, group=s.group, inputs=tuple(stage_inputs),
         noise_gain_dc=ng_dc, noise_gain_at_crossover=ng_fc, noise_gain_hf=ng_hf,
-        output_resistance=rout, vcm_min=None if floating or inp_i < 0 else float(lo[inp_i]),
-        vcm_max=None if floating or inp_i < 0 else float(hi[inp_i]), vout_min=None if open_loop else vout_min,
+        output_resistance=rout, vcm_min=None if floating else vcm[0],
+        vcm_max=None if floating else vcm[1], vout_min=None if open_loop else vout_min,
         vout_max=None if open_loop else vout_max, iout_peak=None if open_loop else iout_peak,
         vout_ac_peak=vac, f_max=f_max, load_resistance=load_r, load_capacitance=load_c,
         feedback=fb, loop_gain_dc=t_dc, crossover_hz=fc, phase_margin_deg=pm, gain_margin_db=gm,
