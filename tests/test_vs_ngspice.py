@@ -246,8 +246,9 @@ def test_ac_matches_ngspice(cases, ngspice_main) -> None:
             assert dphase.max() <= 0.5, (c.name, c.topology, node, float(dphase.max()))
 
 
-def _pms_from_samples(f: np.ndarray, t: np.ndarray) -> list[tuple[float, bool]]:
-    """Phase margin at every fall of sampled |T| through 1 (log-log interpolation), 180° + unwrapped phase.
+def _pms_from_samples(f: np.ndarray, t: np.ndarray) -> list[tuple[float, bool, float]]:
+    """Phase margin at every crossing of sampled |T| through 1, falling or rising (log-log interpolation),
+    180° + unwrapped phase.
 
     Each comes with whether the samples resolve the phase there: when T passes next to the origin (a notch) the
     phase turns by nearly 180° between two samples and which way it turned cannot be read from them.
@@ -256,11 +257,11 @@ def _pms_from_samples(f: np.ndarray, t: np.ndarray) -> list[tuple[float, bool]]:
     phase = np.degrees(np.unwrap(np.angle(t)))
     phase -= 360.0 * round(phase[0] / 360.0)
     out = []
-    for i in np.nonzero((mag[:-1] > 1) & (mag[1:] <= 1))[0][:8]:
+    for i in np.nonzero((mag[:-1] > 1) != (mag[1:] > 1))[0][:8]:
         lf, lm = np.log(f[i:i + 2]), np.log(mag[i:i + 2])
         x = lf[0] + (0 - lm[0]) * (lf[1] - lf[0]) / (lm[1] - lm[0])
         resolved = bool(np.all(np.abs(np.diff(phase[max(i - 1, 0):i + 3])) < 90.0))
-        out.append((float(180.0 + np.interp(x, lf, phase[i:i + 2])), resolved))
+        out.append((float(180.0 + np.interp(x, lf, phase[i:i + 2])), resolved, float(np.exp(x))))
     return out
 
 
@@ -274,14 +275,17 @@ def test_loop_gain_and_phase_margin_match_ngspice(cases, ngspice_loops) -> None:
             theirs = t_spice[ref]
             assert np.allclose(lg.t, theirs, rtol=1e-6, atol=1e-9 * np.max(np.abs(theirs))), (ref, c.topology)
             samples = _pms_from_samples(f, theirs)
-            assert len(lg.crossovers_hz) == len(samples), (ref, c.topology)
+            # the sampled sweep can step over a narrow dip that afecheck's extremum search finds, never the reverse
+            assert len(lg.crossovers_hz) >= len(samples), (ref, c.topology)
             assert (lg.phase_margin_deg is None) == (not samples), (ref, c.topology)
-            for pm, (pm_spice, resolved) in zip(lg.phase_margins_deg, samples, strict=True):
+            for pm_spice, resolved, fx in samples:
+                k = int(np.argmin(np.abs(np.log(np.array(lg.crossovers_hz) / fx))))
+                assert lg.crossovers_hz[k] == pytest.approx(fx, rel=1e-2), (ref, c.topology)
                 if not resolved:
                     unresolved += 1
                     continue
-                assert pm == pytest.approx(pm_spice, abs=1.0), (ref, c.topology)
-                pms.append(pm)
+                assert lg.phase_margins_deg[k] == pytest.approx(pm_spice, abs=1.0), (ref, c.topology)
+                pms.append(lg.phase_margins_deg[k])
     assert len(t_spice) > len(cases)  # the composite stages add a second op-amp each
     assert unresolved <= 0.02 * len(t_spice)
     assert len(pms) > 0.9 * len(cases)

@@ -109,7 +109,7 @@ class SweptForm:
         """(lowest, highest) over every quantity and every grid point, refined between grid points."""
         lo, hi = self.bounds()
         one = len(self.swept) == 1
-        return -float(refined_max(-lo, one)), float(refined_max(hi, one))
+        return -float(refined_max(-lo[:, None], one)[0]), float(refined_max(hi[:, None], one)[0])
 
     def constant(self) -> bool:
         """True when the value is one fixed number (no quantity, no sweep)."""
@@ -117,22 +117,23 @@ class SweptForm:
 
 
 def refined_max(values: np.ndarray, one_axis: bool) -> np.ndarray:
-    """Column maxima of ``values`` (P, ...); with one swept axis, the vertex of a parabola through the three
+    """Column maxima of ``values`` (P, n); with one swept axis, the vertex of a parabola through the three
     points around an interior maximum (the curve is smooth in temperature, so the error is third order)."""
-    best = values.max(axis=0)
     p = values.shape[0]
-    if not one_axis or p < 3:
-        return best
+    if p == 1:
+        return values[0]
     arg = values.argmax(axis=0)
-    i = np.clip(arg, 1, p - 2)
-    y0 = np.take_along_axis(values, (i - 1)[None], axis=0)[0]
-    y1 = np.take_along_axis(values, i[None], axis=0)[0]
-    y2 = np.take_along_axis(values, (i + 1)[None], axis=0)[0]
-    den = y0 - 2.0 * y1 + y2
-    safe = np.where(den < 0, den, -1.0)
-    vertex = np.where(den < 0, y1 - 0.125 * (y2 - y0) ** 2 / safe, best)
+    cols = np.arange(values.shape[1])
+    best = values[arg, cols]
     interior = (arg > 0) & (arg < p - 1)
-    return np.where(interior, np.maximum(best, vertex), best)
+    if not one_axis or not interior.any():
+        return best
+    i = np.clip(arg, 1, p - 2)
+    y0, y1, y2 = values[i - 1, cols], values[i, cols], values[i + 1, cols]
+    den = y0 - 2.0 * y1 + y2
+    bend = interior & (den < 0)
+    vertex = y1 - 0.125 * (y2 - y0) ** 2 / np.where(bend, den, -1.0)
+    return np.where(bend, np.maximum(best, vertex), best)
 
 
 def constant_form(value: float) -> SweptForm:

@@ -26,7 +26,7 @@ from afecheck.analysis.affine import (
     rows_on,
     unit_step,
 )
-from afecheck.analysis.netlist import ntc_resistance
+from afecheck.analysis.netlist import T25_K, ZERO_C_K
 from afecheck.graph.build import Circuit
 
 MAX_POINTS = 300  # at most this many points in one unit's joint temperature grid
@@ -58,6 +58,9 @@ class Corners:
         self.circuit = circuit
         self.design = circuit.loaded.design
         self._fixed: dict[str, SweptForm | None] = {}
+        self._grids: dict[tuple[str, ...], UnitGrid] = {}
+        self._signals: dict[str, SweptForm] = {}
+        self._offsets: dict[tuple, dict[str, SweptForm]] = {}
 
     def rail_form(self, net: str) -> SweptForm | None:
         """A rail's form: nominal V, deviation ±|V|·tolerance (None when its voltage is unknown)."""
@@ -95,8 +98,10 @@ class Corners:
 
     def signal_form(self, net: str) -> SweptForm:
         """A declared signal on a net: the middle of its DC range ± half its width."""
-        lo, hi = (float(x) for x in self.design.signals[net].dc)
-        return _range_form(f"signal:{net}", lo, hi)
+        if net not in self._signals:
+            lo, hi = (float(x) for x in self.design.signals[net].dc)
+            self._signals[net] = _range_form(f"signal:{net}", lo, hi)
+        return self._signals[net]
 
     def source_form(self, ref: str) -> SweptForm:
         """A signal-source component: the middle of its DC range ± half its width."""
@@ -106,11 +111,15 @@ class Corners:
     def offset_forms(self, ref: str, vos: float, ib: float, ios: float) -> dict[str, SweptForm]:
         """Forms of op-amp ``ref``'s offset sources, keyed by macromodel element: Vos, Ib+ = Ib + Ios/2 and
         Ib− = Ib − Ios/2, each quantity at both signs."""
+        memo = (ref, vos, ib, ios)
+        if memo in self._offsets:
+            return self._offsets[memo]
         keys = (f"vos:{ref}", f"ib:{ref}", f"ios:{ref}")
         span = np.array([abs(vos), abs(ib), abs(ios)])
         rows = {f"{ref}#gain": [1.0, 0.0, 0.0], f"{ref}#ib+": [0.0, 1.0, 0.5], f"{ref}#ib-": [0.0, 1.0, -0.5]}
-        return {name: SweptForm(keys, -span, span, (), 1, np.zeros(1), np.array([g]))
-                for name, g in rows.items()}
+        self._offsets[memo] = {name: SweptForm(keys, -span, span, (), 1, np.zeros(1), np.array([g]))
+                               for name, g in rows.items()}
+        return self._offsets[memo]
 
     @cached_property
     def thermistors(self) -> dict[str, np.ndarray]:
@@ -126,10 +135,13 @@ class Corners:
     def grid(self, swept: set[str]) -> UnitGrid:
         """The joint grid over ``swept`` thermistors, as fine as :data:`MAX_POINTS` allows."""
         names = tuple(sorted(swept))
+        if names in self._grids:
+            return self._grids[names]
         step = unit_step(len(names), MAX_POINTS)
         coords = grid_coords(len(names), step)
         temps = {t: self.thermistors[t][coords[:, i]] for i, t in enumerate(names)}
-        return UnitGrid(names, step, coords, temps)
+        self._grids[names] = UnitGrid(names, step, coords, temps)
+        return self._grids[names]
 
     def ntc_resistances(self, ref: str, grid: UnitGrid) -> np.ndarray:
         """Resistance of thermistor ``ref`` at every point of ``grid`` (mid-range when it does not sweep)."""
@@ -138,7 +150,7 @@ class Corners:
             temps = grid.temperatures_c[ref]
         else:
             temps = np.full(grid.points, 0.5 * (comp.temperature[0] + comp.temperature[1]))  # type: ignore[union-attr]
-        return np.array([ntc_resistance(comp.r25, comp.beta, float(t)) for t in temps])  # type: ignore[union-attr]
+        return comp.r25 * np.exp(comp.beta * (1.0 / (temps + ZERO_C_K) - 1.0 / T25_K))  # type: ignore[union-attr]
 
     def divider_form(self, legs: list[tuple[str, str]], grid: UnitGrid) -> tuple[np.ndarray, SweptForm | None]:
         """Thevenin resistance at each grid point and the Thevenin voltage's form on the grid."""

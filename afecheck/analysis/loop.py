@@ -26,7 +26,7 @@ from afecheck.errors import SingularCircuitError
 FeedbackSign = Literal["negative", "positive", "none"]
 NO_FEEDBACK_FRACTION = 1e-6
 MAX_CROSSOVERS = 8
-_ROUNDS = 2
+_ROUNDS = 3
 _SUBGRID = 24
 _FRACTIONS = np.linspace(0.0, 1.0, _SUBGRID)
 
@@ -143,7 +143,13 @@ def default_loop_grid(op: OpAmpInstance, per_decade: int = 12) -> np.ndarray:
 
 
 def loop_gain(netlist: Netlist, refdes: str, freqs: Sequence[float] | np.ndarray | None = None) -> LoopGain:
-    """Return ratio of op-amp ``refdes`` over ``freqs`` (Hz; default :func:`default_loop_grid`) and its margins."""
+    """Return ratio of op-amp ``refdes`` over ``freqs`` (Hz; default :func:`default_loop_grid`) and its margins.
+
+    With the default grid the sweep is extended a decade at a time until the loop can cross nothing more
+    (:func:`_extend`). Between grid points, every local extremum of |T| and of the phase is located and added to
+    the grid, so a notch that dips through |T| = 1 (or a phase dip through −180°) between two points is found;
+    every crossing is then refined on the exact solve to a relative 1e-6 in frequency or better.
+    """
     op = netlist.opamps[refdes]
     probe = loop_probe(netlist, op.loop_element)
     f = default_loop_grid(op) if freqs is None else np.atleast_1d(np.asarray(freqs, dtype=float))
@@ -158,37 +164,107 @@ def loop_gain(netlist: Netlist, refdes: str, freqs: Sequence[float] | np.ndarray
         check_connectivity(netlist, dc=False)
         t = probe.t(f)
         t_dc = None
+    live = bool(np.all(np.abs(t) > 0) and np.all(np.isfinite(t)))
+    if freqs is None and live:
+        f, t = _extend(probe, f, t)
     ref = t_dc if t_dc is not None else float(t[0].real)
     if abs(ref) < NO_FEEDBACK_FRACTION * op.open_loop_gain:
         sign: FeedbackSign = "none"
     else:
         sign = "negative" if ref > 0 else "positive"
-    raw = np.degrees(np.angle(t))
-    start = {"negative": 0.0, "positive": 180.0, "none": float(raw[0])}[sign]
-    phase = _unwrap_from(raw, start)
-    mag = np.abs(t)
+    start = {"negative": 0.0, "positive": 180.0, "none": float(np.degrees(np.angle(t[0])))}[sign]
+    fx, tx = _with_extrema(probe, f, t, start) if live else (f, t)
+    phase_x = _unwrap_from(np.degrees(np.angle(tx)), start)
+    mag = np.abs(tx)
     brackets: list[_Bracket] = []
-    for i in np.nonzero((mag[:-1] > 1.0) & (mag[1:] <= 1.0))[0][:MAX_CROSSOVERS]:
-        brackets.append(_Bracket("magnitude", f[i], f[i + 1], t[i:i + 2], phase[i:i + 2]))
+    for i in np.nonzero((mag[:-1] > 1.0) != (mag[1:] > 1.0))[0][:MAX_CROSSOVERS]:
+        brackets.append(_Bracket("magnitude", fx[i], fx[i + 1], tx[i:i + 2], phase_x[i:i + 2]))
     if sign != "positive":
-        below = np.nonzero((phase[:-1] > -180.0) & (phase[1:] <= -180.0))[0]
+        below = np.nonzero((phase_x[:-1] > -180.0) & (phase_x[1:] <= -180.0))[0]
         if below.size:
             i = int(below[0])
-            brackets.append(_Bracket("phase", f[i], f[i + 1], t[i:i + 2], phase[i:i + 2]))
+            brackets.append(_Bracket("phase", fx[i], fx[i + 1], tx[i:i + 2], phase_x[i:i + 2]))
+    phase = _unwrap_from(np.degrees(np.angle(t)), start)
     found = _refine_brackets(probe, brackets)
     crossings = [(fx, ph) for b, (fx, _, ph) in zip(brackets, found, strict=True) if b.kind == "magnitude"]
+    falls = [fx for b, (fx, _, _) in zip(brackets, found, strict=True) if b.kind == "magnitude" and b.falling]
     fc = pm = f180 = gm = None
     margins: tuple[float, ...] = ()
     if crossings:
-        fc = crossings[0][0]
+        fc = falls[0] if falls else crossings[0][0]
         if sign != "positive":
             margins = tuple(float(180.0 + ph) for _, ph in crossings)
-            pm = margins[0]
+            pm = margins[[fx for fx, _ in crossings].index(fc)]
     if brackets and brackets[-1].kind == "phase":
         f180, m180, _ = found[-1]
         gm = 1.0 / m180 if m180 > 0 else None
     return LoopGain(op, f, t, phase, t_dc, sign, fc, pm, f180, gm, probe,
                     tuple(fx for fx, _ in crossings), margins)
+
+
+SETTLED_MAGNITUDE = 1e-5  # |T| below -100 dB ...
+SETTLED_PHASE_DEG = 1.0  # ... and the phase moving less than this over the last decade: nothing more can cross
+MAX_EXTRA_DECADES = 8
+
+
+def _extend(probe: LoopProbe, f: np.ndarray, t: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """Extend the sweep a decade at a time until |T| is below -100 dB and its phase has settled.
+
+    Past the last pole and zero the phase stops moving and |T| only falls, so neither |T| = 1 nor −180° can be
+    crossed above the new top.
+    """
+    per_decade = max(2, int(round((f.size - 1) / math.log10(f[-1] / f[0]))))
+    for _ in range(MAX_EXTRA_DECADES):
+        tail = t[-per_decade - 1:]
+        turn = np.degrees(np.abs(np.angle(tail[-1] / tail[0])))
+        if abs(t[-1]) < SETTLED_MAGNITUDE and turn < SETTLED_PHASE_DEG:
+            break
+        more = f[-1] * np.power(10.0, np.arange(1, per_decade + 1) / per_decade)
+        f = np.concatenate([f, more])
+        t = np.concatenate([t, probe.t(more)])
+    return f, t
+
+
+def _with_extrema(probe: LoopProbe, f: np.ndarray, t: np.ndarray, start: float) -> tuple[np.ndarray, np.ndarray]:
+    """The grid with every local extremum of ln|T| and of the unwrapped phase located and added, so that no
+    crossing between two grid points escapes the bracketing (a narrow notch, a phase dip)."""
+    phase = _unwrap_from(np.degrees(np.angle(t)), start)
+    lm = np.log(np.abs(t))
+    spots = []
+    for values, kind in ((lm, "magnitude"), (phase, "phase")):
+        d = np.diff(values)
+        for i in np.nonzero(d[:-1] * d[1:] < 0)[0][:4 * MAX_CROSSOVERS]:
+            spots.append((kind, float(f[i]), float(f[i + 2]), bool(d[i] < 0), float(phase[i])))
+    if not spots:
+        return f, t
+    found = _locate_extrema(probe, spots)
+    fx = np.concatenate([f, [x for x, _ in found]])
+    tx = np.concatenate([t, [y for _, y in found]])
+    order = np.argsort(fx, kind="stable")
+    fx, tx = fx[order], tx[order]
+    keep = np.concatenate([[True], np.diff(fx) > 0])
+    return fx[keep], tx[keep]
+
+
+def _locate_extrema(probe: LoopProbe, spots: list[tuple[str, float, float, bool, float]]
+                    ) -> list[tuple[float, complex]]:
+    """Narrow each (kind, f_lo, f_hi, is_minimum, phase at f_lo) interval onto its extremum with batched sub-grids."""
+    lo = np.array([s[1] for s in spots])
+    hi = np.array([s[2] for s in spots])
+    best_f = np.sqrt(lo * hi)
+    best_t = np.zeros(len(spots), dtype=complex)
+    for _ in range(_ROUNDS + 1):
+        grids = lo[:, None] * np.exp(np.log(hi / lo)[:, None] * _FRACTIONS[None, :])
+        t_all = probe.t(grids.ravel()).reshape(grids.shape)
+        for k, (kind, _a, _b, is_min, ph0) in enumerate(spots):
+            if kind == "magnitude":
+                v = np.log(np.abs(t_all[k]))
+            else:
+                v = _unwrap_from(np.degrees(np.angle(t_all[k])), ph0)
+            j = int(np.argmin(v) if is_min else np.argmax(v))
+            best_f[k], best_t[k] = grids[k, j], t_all[k, j]
+            lo[k], hi[k] = grids[k, max(j - 1, 0)], grids[k, min(j + 1, _SUBGRID - 1)]
+    return list(zip(best_f.tolist(), best_t.tolist(), strict=True))
 
 
 def _unwrap_from(phase_deg: np.ndarray, start_deg: float) -> np.ndarray:
@@ -213,6 +289,11 @@ class _Bracket:
     f_hi: float
     t: np.ndarray
     phase: np.ndarray
+
+    @property
+    def falling(self) -> bool:
+        """True for |T| falling through 1 (a crossover in the usual sense), False for |T| rising back."""
+        return bool(abs(self.t[0]) > abs(self.t[1]))
 
     def h(self, t: np.ndarray, phase: np.ndarray) -> np.ndarray:
         return np.log(np.abs(t)) if self.kind == "magnitude" else phase + 180.0

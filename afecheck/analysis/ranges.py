@@ -14,7 +14,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from afecheck.analysis.affine import SweptForm, combine, refined_max
+from afecheck.analysis.affine import SweptForm, refined_max
 from afecheck.analysis.corners import UnitGrid
 from afecheck.analysis.mna import MnaSystem
 from afecheck.analysis.netlist import CurrentSource, OpAmpCore, Resistor, VoltageSource
@@ -39,17 +39,22 @@ class DcForms:
 
     def form(self, i: int, scale: float = 1.0) -> SweptForm:
         """The form of unknown ``i`` (times ``scale``: −1 turns a branch current into the current it delivers)."""
-        return combine(self.keys, self.lo, self.hi, self.grid.swept, self.grid.step,
-                       scale * self.nominal[:, i].copy(), scale * self.gains[:, i, :].copy())
+        return SweptForm(self.keys, self.lo, self.hi, self.grid.swept, self.grid.step,
+                         scale * self.nominal[:, i], scale * self.gains[:, i, :])
 
-    def bounds(self) -> tuple[np.ndarray, np.ndarray]:
-        """(lowest, highest) of every unknown over the quantities and the grid, refined between grid points."""
-        a = self.gains * self.lo
-        b = self.gains * self.hi
-        low = self.nominal + np.minimum(a, b).sum(axis=2)
-        high = self.nominal + np.maximum(a, b).sum(axis=2)
+    def bounds(self, rows: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+        """(lowest, highest) over the quantities and the grid, refined between grid points, of the unknowns
+        ``rows`` (the others are NaN)."""
+        g = self.gains[:, rows, :]
+        a = g * self.lo
+        b = g * self.hi
+        nominal = self.nominal[:, rows]
         one = len(self.grid.swept) == 1
-        return -refined_max(-low, one), refined_max(high, one)
+        low = np.full(self.nominal.shape[1], np.nan)
+        high = low.copy()
+        low[rows] = -refined_max(-(nominal + np.minimum(a, b).sum(axis=2)), one)
+        high[rows] = refined_max(nominal + np.maximum(a, b).sum(axis=2), one)
+        return low, high
 
 
 def solve_forms(system: MnaSystem, forms: Mapping[str, SweptForm], varying: Mapping[str, np.ndarray],
@@ -57,39 +62,49 @@ def solve_forms(system: MnaSystem, forms: Mapping[str, SweptForm], varying: Mapp
     """Solve the unit at DC once per source and grid point and compose every unknown's form."""
     n = system.size
     names: list[str] = []
-    cols: list[np.ndarray] = []
+    entries: list[tuple[int, int, float]] = []
     values: list[float] = []
+    node_index, branch_index = system.node_index, system.branch_index
     for e in system.netlist.elements:
-        if e.name not in forms or not isinstance(e, (VoltageSource, CurrentSource, OpAmpCore)):
+        if e.name not in forms:
             continue
-        b = np.zeros(n)
+        j = len(names)
         if isinstance(e, CurrentSource):
-            pos, neg = system.node_index(e.pos), system.node_index(e.neg)
-            if pos >= 0:
-                b[pos] -= 1.0
-            if neg >= 0:
-                b[neg] += 1.0
+            entries += [(node_index(e.pos), j, -1.0), (node_index(e.neg), j, 1.0)]
             values.append(e.dc)
         elif isinstance(e, OpAmpCore):
-            b[system.branch_index(e.name)] = e.a0
+            entries.append((branch_index(e.name), j, e.a0))
             values.append(e.vos)
-        else:
-            b[system.branch_index(e.name)] = 1.0
+        elif isinstance(e, VoltageSource):
+            entries.append((branch_index(e.name), j, 1.0))
             values.append(e.dc)
+        else:
+            continue
         names.append(e.name)
-        cols.append(b)
-    bmat = np.column_stack(cols) if cols else np.zeros((n, 0))
-    rest = system.b_dc - bmat @ np.asarray(values, dtype=float)
+    bmat = np.zeros((n, len(names) + 1))
+    for i, j, v in entries:
+        if i >= 0:
+            bmat[i, j] += v
+    rest = system.b_dc - bmat[:, :-1] @ np.asarray(values, dtype=float)
     if np.any(rest):
         names.append(_REST)
-        bmat = np.column_stack([bmat, rest])
+        bmat[:, -1] = rest
+    else:
+        bmat = bmat[:, :-1]
     x = _solve_points(system, bmat, varying, grid.points)
-    keys: dict[str, tuple[float, float]] = {}
-    for f in forms.values():
-        for k, lo, hi in zip(f.keys, f.lo, f.hi, strict=True):
-            keys.setdefault(k, (float(lo), float(hi)))
-    order = tuple(keys)
-    where = {k: i for i, k in enumerate(order)}
+    where: dict[str, int] = {}
+    lo_parts, hi_parts = [], []
+    for name in names:
+        f = forms.get(name)
+        if f is None:
+            continue
+        fresh = [i for i, k in enumerate(f.keys) if k not in where]
+        for i in fresh:
+            where[f.keys[i]] = len(where)
+        if fresh:
+            lo_parts.append(f.lo[fresh])
+            hi_parts.append(f.hi[fresh])
+    order = tuple(where)
     p = grid.points
     nom = np.zeros((p, len(names)))
     gs = np.zeros((p, len(names), len(order)))
@@ -98,17 +113,19 @@ def solve_forms(system: MnaSystem, forms: Mapping[str, SweptForm], varying: Mapp
             nom[:, j] = 1.0
             continue
         f = forms[name]
-        rows = grid.rows(f)
-        nom[:, j] = f.nominal[rows]
-        if f.keys:
-            gs[:, j, [where[k] for k in f.keys]] = f.gains[rows]
+        if f.swept:
+            rows = grid.rows(f)
+            nom[:, j] = f.nominal[rows]
+            if f.keys:
+                gs[:, j, [where[k] for k in f.keys]] = f.gains[rows]
+        else:
+            nom[:, j] = f.nominal[0]
+            if f.keys:
+                gs[:, j, [where[k] for k in f.keys]] = f.gains[0]
     nominal = (x @ nom[:, :, None])[..., 0]
     gains = x @ gs
-    if nominal.shape[0] != p:
-        nominal = np.broadcast_to(nominal, (p, n)).copy()
-        gains = np.broadcast_to(gains, (p, n, len(order))).copy()
-    lo = np.array([keys[k][0] for k in order])
-    hi = np.array([keys[k][1] for k in order])
+    lo = np.concatenate(lo_parts) if lo_parts else np.zeros(0)
+    hi = np.concatenate(hi_parts) if hi_parts else np.zeros(0)
     return DcForms(tuple(names), x, order, lo, hi, nominal, gains, grid)
 
 

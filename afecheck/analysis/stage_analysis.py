@@ -291,7 +291,9 @@ def _solve_unit(circuit: Circuit, stages: list[Stage], netlist: Netlist, inputs:
     mid = dc.x.shape[0] // 2
     x_unit = dc.x[mid][:, [col[i.branch] for i in inputs]] if inputs else np.zeros((system.size, 0))
     per_input = [dc.x[:, :, col[i.branch]] for i in inputs]
-    lo, hi = dc.bounds()
+    wanted = {system.branch_index(netlist.opamps[s.opamp].loop_element) for s in stages}
+    wanted |= {system.index[_node(circuit, n)] for s in stages for n in s.nets if _node(circuit, n) in system.index}
+    lo, hi = dc.bounds(np.array(sorted(wanted), dtype=int))
 
     ac = _ac_amplitudes(system, inputs, system.size)
     ac_amp, fmax = ac[0], ac[1]
@@ -362,7 +364,7 @@ def _element_form(circuit: Circuit, corners: Corners, e: VoltageSource | Current
     name = e.name
     d = circuit.loaded.design
     if name.endswith("#rail"):
-        form = corners.rail_form(name[:-5])
+        form = corners.fixed_form(name[:-5])
         if form is not None:
             return form
     elif name.endswith("#signal") and name[:-7] in d.signals:
