@@ -28,6 +28,7 @@ from afecheck.analysis.affine import (
 )
 from afecheck.analysis.netlist import T25_K, ZERO_C_K
 from afecheck.graph.build import Circuit
+from afecheck.graph.queries import has_dc_path
 
 MAX_POINTS = 300  # at most this many points in one unit's joint temperature grid
 
@@ -60,7 +61,15 @@ class Corners:
         self._fixed: dict[str, SweptForm | None] = {}
         self._grids: dict[tuple[str, ...], UnitGrid] = {}
         self._signals: dict[str, SweptForm] = {}
+        self._dc_paths: dict[str, bool] = {}
+        self.dividers: dict[tuple, object] = {}
         self._offsets: dict[tuple, dict[str, SweptForm]] = {}
+
+    def dc_path(self, net: str) -> bool:
+        """Whether ``net`` has a DC path to a defined voltage (asked once per net, however many units hold it)."""
+        if net not in self._dc_paths:
+            self._dc_paths[net] = has_dc_path(self.circuit, net)
+        return self._dc_paths[net]
 
     def rail_form(self, net: str) -> SweptForm | None:
         """A rail's form: nominal V, deviation ±|V|·tolerance (None when its voltage is unknown)."""

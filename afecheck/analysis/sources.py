@@ -59,8 +59,10 @@ def rail_range(circuit: Circuit, net: str) -> tuple[float, float] | None:
     return (min(a, b), max(a, b))
 
 
-def find_dividers(circuit: Circuit, nets: Iterable[str], refs: frozenset[str]) -> dict[str, Divider]:
-    """Divider nodes among ``nets`` whose legs are among ``refs`` (see the module docstring for the test)."""
+def find_dividers(circuit: Circuit, nets: Iterable[str], refs: frozenset[str],
+                  memo: dict | None = None) -> dict[str, Divider]:
+    """Divider nodes among ``nets`` whose legs are among ``refs`` (see the module docstring for the test);
+    ``memo`` keeps each divider once per design."""
     found: dict[str, Divider] = {}
     for net in sorted(nets):
         if net in circuit.fixed or net in circuit.signal_nets or net in circuit.opamp_outputs:
@@ -74,7 +76,13 @@ def find_dividers(circuit: Circuit, nets: Iterable[str], refs: frozenset[str]) -
                 legs.append((ref, far))
         if len(legs) < 2 or len({far for _, far in legs}) < 2:
             continue
-        found[net] = divider(circuit, net, legs)
+        if memo is None:
+            found[net] = divider(circuit, net, legs)
+            continue
+        key = (net, tuple(legs))
+        if key not in memo:
+            memo[key] = divider(circuit, net, legs)
+        found[net] = memo[key]
     return found
 
 

@@ -44,7 +44,6 @@ from afecheck.analysis.results import NetSignal, SourceEquivalent, StageInput, S
 from afecheck.analysis.sources import Divider, boundary_source, find_dividers
 from afecheck.errors import AnalysisError, InputError, SingularCircuitError
 from afecheck.graph.build import Circuit
-from afecheck.graph.queries import has_dc_path
 from afecheck.graph.stages import Stage, StagePlan
 
 HF_FACTOR = 10.0
@@ -249,30 +248,13 @@ def analyse_unit(circuit: Circuit, plan: StagePlan, unit: tuple[str, ...],
         if not s.out or not s.in_plus or not s.in_minus:
             return UnitResult(tuple(_empty_result(x, circuit, ("an op-amp input or output pin is unconnected",))
                                     for x in stages), ())
-    passives = frozenset().union(*(frozenset(s.refs) for s in stages))
-    input_nets = set().union(*(s.plus_region.nets | s.minus_region.nets for s in stages))
-    input_nets -= {s.in_minus for s in stages} | {s.out for s in stages}
-    dividers = find_dividers(circuit, input_nets, passives)
-    legs = {r for dv in dividers.values() for r in dv.legs}
-    nets = set().union(*(set(s.nets) for s in stages))
-    inputs, extra, notes, sources = _collect_inputs(circuit, stages, dividers, done, corners, forms)
-    extra += _holding_elements(circuit, stages, nets, {i.source.net for i in inputs}, corners, forms, sources)
-    extra += [Resistor(f"{net}#leak", _node(circuit, net), GROUND, LEAK_RESISTANCE)
-              for net in sorted(nets) if net not in circuit.fixed and not has_dc_path(circuit, net)]
-    d = circuit.loaded.design
-    sig_sources = sorted(circuit.signal_nets[n] for n in nets
-                         if n in circuit.signal_nets and circuit.signal_nets[n] in circuit.kinds)
-    comps = list(unit) + sorted(passives - legs) + sig_sources
-    zero = {n: 0.0 for n in nets if n in d.signals} | {r: 0.0 for r in sig_sources}
     try:
-        netlist = netlist_from_design(circuit.loaded, comps, NetlistOptions(signal_dc=zero)).with_elements(*extra)
+        netlist, inputs, notes, sources, ntcs = _unit_netlist(circuit, stages, done, corners, forms)
     except InputError as exc:
         return UnitResult(tuple(_empty_result(s, circuit, tuple(p.message for p in exc.problems)) for s in stages), ())
-    names = {e.name for e in netlist.elements}
-    inputs = [i for i in inputs if i.branch in names]
-    ntcs = tuple(r for r in comps if circuit.kinds.get(r) == "ntc")
+    loop_netlist = _coupled_netlist(circuit, plan, stages, done, corners, netlist)
     try:
-        return _solve_unit(circuit, stages, netlist, inputs, notes, cache, corners, sources, ntcs)
+        return _solve_unit(circuit, stages, netlist, inputs, notes, cache, corners, sources, ntcs, loop_netlist)
     except SingularCircuitError as exc:
         reason = f"singular circuit: {exc}"
     except (AnalysisError, np.linalg.LinAlgError, ValueError, ArithmeticError) as exc:
@@ -280,9 +262,71 @@ def analyse_unit(circuit: Circuit, plan: StagePlan, unit: tuple[str, ...],
     return UnitResult(tuple(_empty_result(s, circuit, (reason, *notes)) for s in stages), ())
 
 
+def _unit_netlist(circuit: Circuit, stages: list[Stage], done: Mapping[str, StageResult], corners: Corners,
+                  forms: Mapping[str, SweptForm]) -> tuple[Netlist, list[_Input], list[str], _Sources, tuple[str, ...]]:
+    """The local circuit of ``stages``: their op-amps and passives, a source on every input, holding elements
+    and loads; with its inputs, notes, what each source stands for, and its thermistors (InputError if it
+    cannot be built)."""
+    unit = tuple(s.opamp for s in stages)
+    passives = frozenset().union(*(frozenset(s.refs) for s in stages))
+    input_nets = set().union(*(s.plus_region.nets | s.minus_region.nets for s in stages))
+    input_nets -= {s.in_minus for s in stages} | {s.out for s in stages}
+    dividers = find_dividers(circuit, input_nets, passives, corners.dividers)
+    legs = {r for dv in dividers.values() for r in dv.legs}
+    nets = set().union(*(set(s.nets) for s in stages))
+    inputs, extra, notes, sources = _collect_inputs(circuit, stages, dividers, done, corners, forms)
+    extra += _holding_elements(circuit, stages, nets, {i.source.net for i in inputs}, corners, forms, sources)
+    extra += [Resistor(f"{net}#leak", _node(circuit, net), GROUND, LEAK_RESISTANCE)
+              for net in sorted(nets) if net not in circuit.fixed and not corners.dc_path(net)]
+    d = circuit.loaded.design
+    sig_sources = sorted(circuit.signal_nets[n] for n in nets
+                         if n in circuit.signal_nets and circuit.signal_nets[n] in circuit.kinds)
+    comps = list(unit) + sorted(passives - legs) + sig_sources
+    zero = {n: 0.0 for n in nets if n in d.signals} | {r: 0.0 for r in sig_sources}
+    netlist = netlist_from_design(circuit.loaded, comps, NetlistOptions(signal_dc=zero)).with_elements(*extra)
+    names = {e.name for e in netlist.elements}
+    inputs = [i for i in inputs if i.branch in names]
+    ntcs = tuple(r for r in comps if circuit.kinds.get(r) == "ntc")
+    return netlist, inputs, notes, sources, ntcs
+
+
+def _neighbours(circuit: Circuit, plan: StagePlan, stages: list[Stage]) -> list[str]:
+    """Op-amps next to the unit: those driving its inputs and those whose inputs sit on its nets."""
+    unit = {s.opamp for s in stages}
+    near: dict[str, None] = {}
+    for s in stages:
+        for r in s.upstream:
+            near.setdefault(r, None)
+        for net in s.nets:
+            if net in circuit.fixed or net in circuit.signal_nets:
+                continue  # an ideal source between stages decouples them
+            for ref, pin in circuit.net_pins.get(net, ()):
+                if pin in ("in+", "in-") and circuit.kinds[ref] == "opamp":
+                    near.setdefault(ref, None)
+    out = []
+    for r in near:
+        x = plan.stages.get(r)
+        if r not in unit and x is not None and x.out and x.in_plus and x.in_minus and x.out not in circuit.fixed:
+            out.append(r)
+    return out
+
+
+def _coupled_netlist(circuit: Circuit, plan: StagePlan, stages: list[Stage], done: Mapping[str, StageResult],
+                     corners: Corners, netlist: Netlist) -> Netlist:
+    """The unit with its neighbouring op-amps and their networks, for loop gain: each neighbour's output and
+    input impedance then follow frequency as its own loop makes them (the unit's own netlist if none)."""
+    near = _neighbours(circuit, plan, stages)
+    if not near:
+        return netlist
+    try:
+        return _unit_netlist(circuit, stages + [plan.stages[r] for r in near], done, corners, {})[0]
+    except (InputError, ValueError):
+        return netlist
+
+
 def _solve_unit(circuit: Circuit, stages: list[Stage], netlist: Netlist, inputs: list[_Input],
                 notes: list[str], cache: dict | None, corners: Corners, sources: _Sources,
-                ntcs: tuple[str, ...]) -> UnitResult:
+                ntcs: tuple[str, ...], loop_netlist: Netlist) -> UnitResult:
     check_connectivity(netlist, dc=True)
     system = assemble(netlist)
     forms, varying, grid = _unit_sources(circuit, netlist, system, corners, sources, ntcs)
@@ -302,7 +346,7 @@ def _solve_unit(circuit: Circuit, stages: list[Stage], netlist: Netlist, inputs:
     currents: dict[str, SweptForm] = {}
     for s in stages:
         results.append(_stage_result(circuit, s, netlist, system, inputs, x_unit, per_input, lo, hi,
-                                     ac, notes, cache))
+                                     ac, notes, cache, loop_netlist, corners))
         currents[s.opamp] = dc.form(system.branch_index(netlist.opamps[s.opamp].loop_element), -1.0)
     fixed = set(circuit.fixed)
     net_signals = []
@@ -421,9 +465,11 @@ def _band(inp: _Input) -> list[float]:
 
 def _stage_result(circuit: Circuit, s: Stage, netlist: Netlist, system: MnaSystem, inputs: list[_Input],
                   x_unit: np.ndarray, per_input: list[np.ndarray], lo: np.ndarray,
-                  hi: np.ndarray, ac: AcResult, notes: list[str], cache: dict | None = None) -> StageResult:
+                  hi: np.ndarray, ac: AcResult, notes: list[str], cache: dict | None = None,
+                  loop_netlist: Netlist | None = None, corners: Corners | None = None) -> StageResult:
     """Fill one op-amp's StageResult from the unit's DC solutions, AC amplitudes and its own loop gain."""
     ac_amp, fmax, ac_mid, ac_peak = ac
+    corners = corners or Corners(circuit)
     idx = system.node_index
     out = idx(_node(circuit, s.out))
     inp_i = idx(_node(circuit, s.in_plus))
@@ -474,7 +520,7 @@ def _stage_result(circuit: Circuit, s: Stage, netlist: Netlist, system: MnaSyste
         iout_peak += vac / load_r if load_r else 0.0
         iout_peak += 2 * math.pi * f_max * load_c * vac
 
-    loop = _loop_numbers(netlist, s.opamp, f_max, cache)
+    loop = _loop_numbers(loop_netlist or netlist, s.opamp, f_max, cache)
     fb, t_dc, fc, pm, gm, ng_dc, ng_fc, ng_hf, t_fmax = loop.numbers
     reasons += loop.reasons
 
@@ -488,7 +534,7 @@ def _stage_result(circuit: Circuit, s: Stage, netlist: Netlist, system: MnaSyste
         except np.linalg.LinAlgError:
             reasons.append("closed-loop output resistance: singular circuit")
 
-    floating = [pin for pin, net in (("in+", s.in_plus), ("in-", s.in_minus)) if not has_dc_path(circuit, net)]
+    floating = [pin for pin, net in (("in+", s.in_plus), ("in-", s.in_minus)) if not corners.dc_path(net)]
     for pin in floating:
         reasons.append(f"{pin} has no DC path to a defined voltage with capacitors open (DC ranges not evaluated)")
     vcm = (float(lo[inp_i]), float(hi[inp_i])) if inp_i >= 0 else (0.0, 0.0)
