@@ -57,6 +57,22 @@ signals:
 """
 
 
+def sensor_stage(net: str, rf: str, cf: str, signal: str) -> str:
+    """A sensor on the inverting input of an op-amp with Rf || Cf feedback, in+ on ground, ±5 V rails."""
+    return f"""afecheck: 1
+parts: {{P: {ideal_part()}}}
+rails:
+  VP: {{voltage: 5 V}}
+  VN: {{voltage: -5 V}}
+components:
+  R1: {{kind: resistor, value: {rf}, pins: {{1: {net}, 2: OUT}}}}
+  C1: {{kind: capacitor, value: {cf}, pins: {{1: {net}, 2: OUT}}}}
+  U1: {{kind: opamp, part: P, pins: {{in+: GND, in-: {net}, out: OUT, v+: VP, v-: VN}}}}
+signals:
+  {net}: {{{signal}}}
+"""
+
+
 def stage_of(a, ref):
     return next(s for s in a.stages if s.opamp == ref)
 
@@ -224,3 +240,50 @@ def test_affine_form_extremes_are_each_term_at_its_own_extreme() -> None:
     assert f.extremes() == (pytest.approx(min(corners)), pytest.approx(max(corners)))
     assert f.worst_case() == pytest.approx(1.2)
     assert math.isclose(f.contribution("rail:A")[1], 0.2)
+
+
+def test_a_photodiode_is_a_current_source_into_a_transimpedance_stage(tmp_path) -> None:
+    """Description 7: a photodiode declared as what it is; the stage reports its gain in V/A and no loading."""
+    from afecheck.api import check_design  # noqa: PLC0415
+
+    text = sensor_stage("PD", "100k", "10p", "kind: current, current: [0 A, 20 uA], ac_current: 1 uA, "
+                        "band: [10 Hz, 10 kHz], capacitance: 50p, shunt_resistance: 1G")
+    loaded = load(tmp_path, text)
+    a = analyse(loaded)
+    u1 = stage_of(a, "U1")
+    (pd,) = u1.inputs
+    assert u1.topology == "transimpedance" and pd.gain_unit == "V/A" and pd.source.kind == "current"
+    # Kirchhoff at the virtual ground: Vout = -I·Rf (common practice; the shunt sees 0 V so it takes nothing)
+    assert pd.gain == pytest.approx(-100e3, rel=1e-6)
+    assert (u1.vout_min, u1.vout_max) == (pytest.approx(-2.0, rel=1e-6), pytest.approx(0.0, abs=1e-6))
+    # in band the feedback is Rf || Cf: |Z| = Rf/sqrt(1 + (2π f Rf Cf)²), largest at the low edge
+    assert pd.band_gain == pytest.approx(100e3 / math.sqrt(1 + (2 * math.pi * 10 * 100e3 * 10e-12) ** 2), rel=1e-5)
+    report = check_design(loaded)
+    assert not [f for f in report.findings if f.rule in ("AFE101", "AFE102", "AFE103")]
+
+
+def test_a_charge_amplifier_reports_volts_per_coulomb(tmp_path) -> None:
+    """Description 7: a piezo (charge) sensor into a charge amplifier: gain -1/Cf in V/C in band."""
+    text = sensor_stage("Q", "1G", "100p", "kind: charge, charge: 10 pC, capacitance: 1n, leakage_resistance: 10G, "
+                        "band: [10 Hz, 1 kHz]")
+    a = analyse(load(tmp_path, text))
+    u1 = stage_of(a, "U1")
+    (q,) = u1.inputs
+    assert q.gain_unit == "V/C"
+    # Vout/q = Zf·jω at the virtual ground: |.| = 1/Cf · 1/sqrt(1 + 1/(ωRfCf)²), largest at the band top
+    w = 2 * math.pi * 1e3
+    expected = 1 / 100e-12 / math.sqrt(1 + 1 / (w * 1e9 * 100e-12) ** 2)
+    assert q.band_gain == pytest.approx(expected, rel=1e-5)
+    assert a.nets["OUT"].ac_amplitude == pytest.approx(10e-12 * expected, rel=1e-5)
+
+
+def test_signal_fields_of_another_kind_are_refused(tmp_path) -> None:
+    from afecheck.errors import InputError
+
+    text = """afecheck: 1
+signals:
+  PD: {kind: current, dc: [0 V, 1 V]}
+"""
+    with pytest.raises(InputError) as err:
+        load(tmp_path, text)
+    assert "a current signal takes no dc" in str(err.value.problems[0].message)

@@ -108,7 +108,7 @@ class Corners:
     def signal_form(self, net: str) -> SweptForm:
         """A declared signal on a net: the middle of its DC range ± half its width."""
         if net not in self._signals:
-            lo, hi = (float(x) for x in self.design.signals[net].dc)
+            lo, hi = self.design.signals[net].dc_range
             self._signals[net] = _range_form(f"signal:{net}", lo, hi)
         return self._signals[net]
 

@@ -220,6 +220,26 @@ class NetlistOptions:
     include_loads: bool = True
 
 
+def _sensor_elements(net: str, n: str, sig, dc: float, ac: complex) -> list[Element]:  # noqa: ANN001
+    """A current or charge signal's model: a current from ground into the net with the sensor's capacitance and
+    shunt resistance beside it; or, for a charge, charge/capacitance volts behind the sensor capacitance (the
+    Thevenin form of jωq beside C) with the leakage resistance across the sensor."""
+    name = f"{net}#signal"
+    els: list[Element] = []
+    if sig.kind == "current":
+        els.append(CurrentSource(name, GROUND, n, dc=dc, ac=ac))
+        if sig.capacitance > 0:
+            els.append(Capacitor(f"{name}.c", n, GROUND, float(sig.capacitance)))
+        if sig.shunt_resistance is not None:
+            els.append(Resistor(f"{name}.rsh", n, GROUND, float(sig.shunt_resistance)))
+        return els
+    inner = f"{name}.s"
+    els += [VoltageSource(name, inner, GROUND, dc=0.0, ac=ac), Capacitor(f"{name}.c", inner, n, float(sig.capacitance))]
+    if sig.leakage_resistance is not None:
+        els.append(Resistor(f"{name}.rl", n, GROUND, float(sig.leakage_resistance)))
+    return els
+
+
 def ntc_resistance(r25: float, beta: float, temperature_c: float) -> float:
     """Beta model R(T) = R25·exp(B·(1/T − 1/298.15 K)) (IEC 60539 B-value definition)."""
     t_k = temperature_c + ZERO_C_K
@@ -374,8 +394,10 @@ def netlist_from_design(
         for net, sig in section(design.signals):
             if net == gnd or (net in design.rails and vtree.joined(node(net), GROUND)):
                 continue
-            dc, ac = dc_of(net, *sig.dc), ac_of(sig.ac_amplitude)
-            if sig.source_resistance > 0:
+            dc, ac = dc_of(net, *sig.dc_range), ac_of(sig.ac_value)
+            if sig.kind != "voltage":
+                elements.extend(_sensor_elements(net, node(net), sig, dc, ac))
+            elif sig.source_resistance > 0:
                 inner = f"{net}#signal.s"
                 elements.append(VoltageSource(f"{net}#signal", inner, GROUND, dc=dc, ac=ac))
                 elements.append(Resistor(f"{net}#signal.rs", inner, node(net), float(sig.source_resistance)))

@@ -17,12 +17,19 @@ Topology = Literal[
     "follower", "non-inverting", "inverting", "summing", "difference", "transimpedance", "integrator",
     "active-filter", "general",
 ]
-SourceKind = Literal["signal", "signal-source", "divider", "ntc-divider", "rail", "vsource", "stage-output", "unknown"]
+SourceKind = Literal["signal", "signal-source", "divider", "ntc-divider", "rail", "vsource", "stage-output", "unknown",
+                     "current", "charge"]
+GainUnit = Literal["V/V", "V/A", "V/C"]
 
 
 @dataclass(frozen=True)
 class SourceEquivalent:
-    """Thevenin equivalent of what drives one stage input, over the declared range."""
+    """Thevenin equivalent of what drives one stage input, over the declared range.
+
+    For a ``current`` source (a photodiode) ``v_min``/``v_max`` hold its DC current range in amperes and
+    ``r_min``/``r_max`` its shunt resistance (infinite when not declared), ``ac_amplitude`` its AC current; for a
+    ``charge`` source ``r_min``/``r_max`` are its leakage resistance and ``ac_amplitude`` charge/capacitance volts.
+    """
 
     net: str
     kind: SourceKind
@@ -39,8 +46,10 @@ class SourceEquivalent:
 class StageInput:
     """One signal input of a stage: its source, the parts between it and the op-amp pin, gain and loading.
 
-    ``gain`` is the DC gain to the op-amp output; ``band_gain`` the largest |gain| over the source's band
-    (its upper edge, a hundredth of it and their geometric mean), None when the source declares no band.
+    ``gain`` is the DC gain to the op-amp output in ``gain_unit`` (V/V; V/A for a current source, the
+    transimpedance; V/C for a charge source, taken as the largest |gain| over its band, or at 1 kHz without one);
+    ``band_gain`` the largest |gain| over the source's band (its upper edge, a hundredth of it and their geometric
+    mean) in the same unit, None when the source declares no band.
     """
 
     net: str
@@ -53,6 +62,7 @@ class StageInput:
     loading_error_min: float
     loading_error_max: float
     band_gain: float | None = None
+    gain_unit: GainUnit = "V/V"
 
 
 @dataclass(frozen=True)
@@ -93,6 +103,7 @@ class StageResult:
     assumed: tuple[str, ...] = ()
     estimated: bool = False
     not_evaluated: tuple[str, ...] = ()
+    feedback_capacitance_for_margin: float | None = None
 
 
 @dataclass(frozen=True)

@@ -29,6 +29,8 @@ def seed_signals(circuit: Circuit) -> dict[str, NetSignal]:
         if rng is not None:
             nets[net] = NetSignal(net=net, dc_min=rng[0], dc_max=rng[1])
     for net, ref in circuit.signal_nets.items():
+        if net in d.signals and d.signals[net].kind != "voltage":
+            continue  # a current or charge sensor's net takes the voltage the stage solve gives it
         src = d.signals[net] if net in d.signals else d.components[ref]
         nets[net] = NetSignal(net=net, dc_min=float(min(src.dc)), dc_max=float(max(src.dc)),
                               ac_amplitude=float(src.ac_amplitude), f_max=float(src.band[1]) if src.band else 0.0)
@@ -55,6 +57,8 @@ def seed_forms(circuit: Circuit, corners: Corners) -> dict[str, SweptForm]:
             forms[net] = f
     d = circuit.loaded.design
     for net, ref in circuit.signal_nets.items():
+        if net in d.signals and d.signals[net].kind != "voltage":
+            continue
         forms[net] = corners.signal_form(net) if net in d.signals else corners.source_form(ref)
     return forms
 
@@ -76,7 +80,7 @@ def propagate(circuit: Circuit, plan: StagePlan) -> Propagated:
         for r in res.stages:
             results[r.opamp] = r
         for ns in res.nets:
-            if ns.net not in circuit.fixed and ns.net not in circuit.signal_nets:
+            if ns.net not in circuit.fixed and (ns.net not in circuit.signal_nets or ns.net not in nets):
                 nets[ns.net] = ns
                 forms[ns.net] = res.forms[ns.net]
         currents.update(res.output_currents)

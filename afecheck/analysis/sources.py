@@ -10,6 +10,7 @@ Rail tolerance widens each rail to V·(1 ± t).
 
 from __future__ import annotations
 
+import math
 from collections.abc import Iterable
 from dataclasses import dataclass
 
@@ -118,6 +119,13 @@ def boundary_source(circuit: Circuit, net: str, upstream: StageResult | None = N
     d = circuit.loaded.design
     if net == circuit.ground:
         return None
+    if net in d.signals and d.signals[net].kind != "voltage":
+        sig = d.signals[net]
+        lo, hi = sig.dc_range
+        r = sig.shunt_resistance if sig.kind == "current" else sig.leakage_resistance
+        r = math.inf if r is None else float(r)
+        return SourceEquivalent(net=net, kind=sig.kind, refs=(), v_min=min(lo, hi), v_max=max(lo, hi), r_min=r,
+                                r_max=r, ac_amplitude=sig.ac_value, f_max=float(sig.band[1]) if sig.band else 0.0)
     if net in d.signals:
         sig = d.signals[net]
         return SourceEquivalent(net=net, kind="signal", refs=(), v_min=float(min(sig.dc)), v_max=float(max(sig.dc)),

@@ -47,6 +47,7 @@ from afecheck.graph.build import Circuit
 from afecheck.graph.stages import Stage, StagePlan
 
 HF_FACTOR = 10.0
+CHARGE_PROBE_HZ = 1e3  # a charge source with no declared band has its gain read here (it has none at DC)
 # Nets reached only through capacitors (a capacitive divider, a coupling node) get this leak to ground so the
 # DC solve exists; an op-amp input among them is reported as having no DC path, never given a DC range.
 LEAK_RESISTANCE = 1e15
@@ -158,7 +159,9 @@ def _collect_inputs(
         if src.kind == "unknown":
             notes.append(f"upstream stage {owner} was not analysed before this one (loop between stages)")
         pin = pin_of.get(net, "in+")
-        if src.kind == "signal":
+        if src.kind in ("current", "charge"):
+            series, branch = None, f"{net}#signal"
+        elif src.kind == "signal":
             series = f"{net}#signal.rs" if src.r_max > 0 else None
             branch = f"{net}#signal"
         elif src.kind == "signal-source":
@@ -441,7 +444,7 @@ def _ac_amplitudes(system: MnaSystem, inputs: list[_Input], n: int) -> AcResult:
     y = system.admittance(f)
     rhs = np.zeros((f.size, n, 1), dtype=complex)
     for row, j in enumerate(owners):
-        rhs[row, system.branch_index(inputs[j].branch), 0] = 1.0
+        rhs[row, :, 0] = unit_excitation(system, inputs[j].branch)
     solved = np.linalg.solve(y, rhs)[..., 0]
     xs = np.abs(solved)
     for j, inp in active:
@@ -455,10 +458,24 @@ def _ac_amplitudes(system: MnaSystem, inputs: list[_Input], n: int) -> AcResult:
     return amp, fmax, mid, peak
 
 
+def unit_excitation(system: MnaSystem, name: str) -> np.ndarray:
+    """Right-hand side of one unit of an independent source: 1 V of a voltage source, 1 A of a current source."""
+    e = system.netlist.element(name)
+    b = np.zeros(system.size)
+    if isinstance(e, CurrentSource):
+        for node, sign in ((e.pos, -1.0), (e.neg, 1.0)):
+            i = system.node_index(node)
+            if i >= 0:
+                b[i] += sign
+    else:
+        b[system.branch_index(name)] = 1.0
+    return b
+
+
 def _band(inp: _Input) -> list[float]:
     fhi = inp.source.f_max
     if fhi <= 0:
-        return [0.0]
+        return [CHARGE_PROBE_HZ] if inp.source.kind == "charge" else [0.0]
     flo = fhi / 100.0
     return [flo, math.sqrt(flo * fhi), fhi]
 
@@ -486,18 +503,29 @@ def _stage_result(circuit: Circuit, s: Stage, netlist: Netlist, system: MnaSyste
         src_node = _node(circuit, inp.source.net)
         a = idx(src_node)
         vatt = xs[:, a] if a >= 0 else np.ones(len(xs))
-        k = system.branch_index(inp.branch)
-        err = 1.0 - vatt
         g_nom = float(x_unit[out, j]) if out >= 0 else 0.0
         v_nom = float(x_unit[a, j]) if a >= 0 else 1.0
-        ideal = g_nom / v_nom if v_nom != 0 else g_nom
-        i_nom = float(-x_unit[k, j])
-        rin = abs(v_nom / i_nom) if i_nom != 0 else math.inf
+        unit = {"current": "V/A", "charge": "V/C"}.get(inp.source.kind, "V/V")
+        if inp.source.kind == "current":
+            # the impedance the sensor sees, and the share of its current its own shunt keeps from the stage
+            rin = abs(v_nom)
+            err = np.abs(vatt) / inp.source.r_max if math.isfinite(inp.source.r_max) else np.zeros(len(xs))
+            ideal = g_nom
+        else:
+            err = 1.0 - vatt
+            ideal = g_nom / v_nom if v_nom != 0 else g_nom
+            i_nom = float(-x_unit[system.branch_index(inp.branch), j])
+            rin = abs(v_nom / i_nom) if i_nom != 0 else math.inf
+        band = float(ac_peak[j][out]) if j in ac_peak and out >= 0 else None
+        if inp.source.kind == "charge":
+            c_sensor = float(circuit.loaded.design.signals[inp.source.net].capacitance)
+            g_nom = band / c_sensor if band is not None and c_sensor else 0.0
+            band, ideal, err = (g_nom if inp.source.f_max > 0 else None), g_nom, np.zeros(len(xs))
         via = _series_path(circuit, inp.source.net, s.in_plus if inp.pin == "in+" else s.in_minus,
                            frozenset(s.refs) - frozenset(inp.source.refs), s.out)
         stage_inputs.append(StageInput(
             net=inp.source.net, pin=inp.pin, source=inp.source, via=via, gain=g_nom + 0.0,
-            ideal_gain=float(ideal) + 0.0, band_gain=float(ac_peak[j][out]) if j in ac_peak and out >= 0 else None,
+            ideal_gain=float(ideal) + 0.0, band_gain=band, gain_unit=unit,
             input_resistance=float(rin), loading_error_min=float(err.min()), loading_error_max=float(err.max()),
         ))
         if inp.source.kind not in ("rail", "vsource") and (best is None or abs(g_nom) > best[0]):
@@ -543,9 +571,12 @@ def _stage_result(circuit: Circuit, s: Stage, netlist: Netlist, system: MnaSyste
     if open_loop:
         vpk = vac
     part = circuit.loaded.design.components[s.opamp].part  # type: ignore[union-attr]
+    cf = None
+    if s.topology == "transimpedance" and fb == "negative" and pm is not None and pm < TIA_TARGET_PM_DEG - 5.0:
+        cf = _capacitor_for_margin(loop_netlist or netlist, s, _node(circuit, s.out), _node(circuit, s.in_minus))
     return StageResult(
         opamp=s.opamp, part=part, topology=s.topology, refs=s.refs, in_plus=s.in_plus, in_minus=s.in_minus,
-        out=s.out, group=s.group, inputs=tuple(stage_inputs),
+        out=s.out, group=s.group, inputs=tuple(stage_inputs), feedback_capacitance_for_margin=cf,
         noise_gain_dc=ng_dc, noise_gain_at_crossover=ng_fc, noise_gain_hf=ng_hf,
         output_resistance=rout, vcm_min=None if floating else vcm[0],
         vcm_max=None if floating else vcm[1], vout_min=None if open_loop else vout_min,
@@ -556,6 +587,37 @@ def _stage_result(circuit: Circuit, s: Stage, netlist: Netlist, system: MnaSyste
         rail_plus=vp, rail_minus=vm, assumed=tuple(op.assumed), estimated="second_pole" in op.assumed,
         not_evaluated=tuple(reasons),
     )
+
+
+TIA_TARGET_PM_DEG = 65.0
+
+
+def _capacitor_for_margin(netlist: Netlist, s: Stage, out: str, in_minus: str) -> float | None:
+    """The least capacitance across the feedback (output to in-) that gives a transimpedance stage 65° of phase
+    margin: a sweep of 1 fF..1 µF at three points a decade finds the first value that does (the margin falls again
+    for large values), then bisection in log C on the exact loop gain (None when no value does)."""
+    def margin(c: float) -> float:
+        try:
+            lg = loop_gain(netlist.with_elements(Capacitor(f"{s.opamp}#cf", out, in_minus, c)), s.opamp)
+        except (SingularCircuitError, ValueError):
+            return -math.inf
+        pms = lg.phase_margins_deg
+        return min(pms) if pms else (180.0 if lg.sign == "negative" else -math.inf)
+
+    steps = np.log(np.logspace(-15, -6, 28))
+    above = next((k for k, x in enumerate(steps) if margin(math.exp(x)) >= TIA_TARGET_PM_DEG), None)
+    if above is None:
+        return None
+    if above == 0:
+        return float(math.exp(steps[0]))
+    lo, hi = float(steps[above - 1]), float(steps[above])
+    for _ in range(25):
+        mid = 0.5 * (lo + hi)
+        if margin(math.exp(mid)) >= TIA_TARGET_PM_DEG:
+            hi = mid
+        else:
+            lo = mid
+    return float(math.exp(hi))
 
 
 def _series_path(circuit: Circuit, start: str, goal: str, refs: frozenset[str], out: str) -> tuple[str, ...]:

@@ -113,8 +113,9 @@ def render_text(name: str, analysis: DesignAnalysis) -> str:
             src = i.source
             rs = format_si(src.r_min, "Ω") if src.r_min == src.r_max else (
                 f"{format_si(src.r_min, 'Ω')}..{format_si(src.r_max, 'Ω')}")
-            lines.append(f"  {i.pin} <- {i.net} ({src.kind}, {src.v_min:.4g}..{src.v_max:.4g} V, Rs {rs}): "
-                         f"gain {i.gain:.5g} (ideal {i.ideal_gain:.5g}"
+            unit = {"current": "A", "charge": "C"}.get(src.kind, "V")
+            lines.append(f"  {i.pin} <- {i.net} ({src.kind}, {src.v_min:.4g}..{src.v_max:.4g} {unit}, Rs {rs}): "
+                         f"gain {i.gain:.5g} {i.gain_unit} (ideal {i.ideal_gain:.5g}"
                          + (f", in band {i.band_gain:.5g}" if i.band_gain is not None else "")
                          + f"), Rin {format_si(i.input_resistance, 'Ω')}, "
                          f"loading error {100 * i.loading_error_min:.3g}..{100 * i.loading_error_max:.3g}%")

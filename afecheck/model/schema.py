@@ -188,14 +188,66 @@ class Rail(_Strict):
     description: str | None = None
 
 
-class Signal(_Strict):
-    """A signal driven onto a net from outside the design (a connector), as a Thevenin source."""
+SignalKind = Literal["voltage", "current", "charge"]
+_KIND_FIELDS: dict[str, tuple[str, ...]] = {
+    "voltage": ("dc", "ac_amplitude", "source_resistance"),
+    "current": ("current", "ac_current", "capacitance", "shunt_resistance"),
+    "charge": ("charge", "capacitance", "leakage_resistance"),
+}
 
+
+class Signal(_Strict):
+    """A signal driven onto a net from outside the design, by kind.
+
+    ``voltage`` (default): a Thevenin source (``dc`` range, ``ac_amplitude``, ``source_resistance``).
+    ``current``: a current-output sensor such as a photodiode, from ground into the net: DC ``current`` range,
+    ``ac_current`` amplitude, junction ``capacitance`` and ``shunt_resistance`` to ground.
+    ``charge``: a charge-output sensor (piezo): ``charge`` amplitude per event or cycle, its ``capacitance``
+    and ``leakage_resistance``, modelled as a voltage charge/capacitance behind that capacitance.
+    """
+
+    kind: SignalKind = "voltage"
     dc: tuple[Volt, Volt] = (0.0, 0.0)
     ac_amplitude: Volt = Field(default=0.0, ge=0)
     band: tuple[Hertz, Hertz] | None = None
     source_resistance: Ohm = Field(default=0.0, ge=0)
+    current: tuple[Ampere, Ampere] = (0.0, 0.0)
+    ac_current: Ampere = Field(default=0.0, ge=0)
+    charge: Q("C") = Field(default=0.0, ge=0)
+    capacitance: Farad = Field(default=0.0, ge=0)
+    shunt_resistance: Ohm | None = Field(default=None, gt=0)
+    leakage_resistance: Ohm | None = Field(default=None, gt=0)
     description: str | None = None
+
+    @model_validator(mode="after")
+    def _fields_of_kind(self) -> Signal:
+        own = set(_KIND_FIELDS[self.kind])
+        foreign = sorted(f for k, names in _KIND_FIELDS.items() if k != self.kind for f in names
+                         if f not in own and f in self.model_fields_set)
+        if foreign:
+            raise ValueError(f"a {self.kind} signal takes no {', '.join(foreign)} "
+                             f"(its fields are {', '.join(_KIND_FIELDS[self.kind])}, band, description)")
+        if self.kind == "charge" and self.charge > 0 and self.capacitance <= 0:
+            raise ValueError("a charge signal needs its sensor capacitance")
+        return self
+
+    @property
+    def dc_range(self) -> tuple[float, float]:
+        """The DC range in the signal's own unit (volts, or amperes for a current; a charge has none)."""
+        if self.kind == "current":
+            return float(self.current[0]), float(self.current[1])
+        if self.kind == "charge":
+            return 0.0, 0.0
+        return float(self.dc[0]), float(self.dc[1])
+
+    @property
+    def ac_value(self) -> float:
+        """AC amplitude at the model's source: volts, amperes, or charge/capacitance volts for a charge."""
+        if self.kind == "current":
+            return float(self.ac_current)
+        if self.kind == "charge":
+            return float(self.charge / self.capacitance) if self.capacitance > 0 else 0.0
+        return float(self.ac_amplitude)
 
 
 class Adc(_Strict):

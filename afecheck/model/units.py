@@ -55,6 +55,7 @@ UNITS: dict[str, tuple[tuple[str, ...], str]] = {
     "F": (("F",), "farads"),
     "V": (("V",), "volts"),
     "A": (("A",), "amperes"),
+    "C": (("C",), "coulombs"),
     "Hz": (("Hz", "hz"), "hertz"),
     "s": (("s",), "seconds"),
     "W": (("W",), "watts"),

@@ -39,7 +39,7 @@ def check(ctx: Context) -> Iterator[Finding]:
         if stage.topology in _SKIP:
             continue
         for inp in stage.inputs:
-            if inp.pin != "in+":
+            if inp.pin != "in+" or inp.source.kind in ("current", "charge"):
                 continue
             rs = plus_source_resistance(ctx.loaded, inp)
             if rs <= 0:

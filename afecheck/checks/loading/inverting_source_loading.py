@@ -33,6 +33,8 @@ def check(ctx: Context) -> Iterator[Finding]:
                 continue
             ri = inp.input_resistance
             src = inp.source
+            if src.kind in ("current", "charge"):
+                continue  # a current or charge sensor is meant to work into a low impedance
             if ri is None or ri <= 0 or src.r_max <= 0:
                 continue
             e_max = src.r_max / (src.r_max + ri)

@@ -108,9 +108,24 @@ def below_minimum_gain(ctx: Context, stage: StageResult) -> Cause | None:
     return Cause("below-minimum-gain", 0.0, text, fix, (stage.opamp,), ())
 
 
+def sensor_capacitance(stage: StageResult) -> Cause | None:
+    """A transimpedance stage whose sensor capacitance at in- needs a feedback capacitor (value from the analysis)."""
+    cf = stage.feedback_capacitance_for_margin
+    if stage.topology != "transimpedance" or cf is None:
+        return None
+    text = (f"the sensor capacitance at {stage.in_minus} with the feedback resistance makes the noise gain rise "
+            "until the loop runs out of phase")
+    fix = (f"feedback capacitor of about {fmt(cf, 'F')} from {stage.out} to {stage.in_minus}, across the feedback "
+           "resistor (computed for 65° phase margin)")
+    return Cause("sensor-capacitance", 0.0, text, fix, (stage.opamp,), ())
+
+
 def main_cause(ctx: Context, stage: StageResult) -> Cause:
-    """Below the minimum stable gain first; else the lowest-frequency extra lag (capacitive-load pole or
-    input-capacitance zero); else the op-amp's second pole."""
+    """A transimpedance stage's missing feedback capacitor first; then below the minimum stable gain; else the
+    lowest-frequency extra lag (capacitive-load pole or input-capacitance zero); else the op-amp's second pole."""
+    tia = sensor_capacitance(stage)
+    if tia is not None:
+        return tia
     decomp = below_minimum_gain(ctx, stage)
     if decomp is not None:
         return decomp
