@@ -56,12 +56,18 @@ class Finding:
     confidence: Confidence = "computed"
     assumed: tuple[str, ...] = ()
     design: str = ""
+    caused_by: str = ""
+    """Fingerprint of the root finding this one rests on (an upstream stage that clips, floats or could not be
+    evaluated); empty for a root or an independent finding. See docs/CONFIDENCE.md."""
 
     @property
     def fingerprint(self) -> str:
         """Stable key for waivers and baselines: rule plus electrical names, never line numbers."""
+        from afecheck.engine.aliases import fingerprint_id
+
         key = "|".join(
-            (self.rule, self.design, ",".join(sorted(self.location.refs)), ",".join(sorted(self.location.nets)))
+            (fingerprint_id(self.rule), self.design, ",".join(sorted(self.location.refs)),
+             ",".join(sorted(self.location.nets)))
         )
         return hashlib.sha256(key.encode("utf-8")).hexdigest()[:16]
 

@@ -111,6 +111,7 @@ class Report:
     baseline: str | None = None
     unused_waivers: tuple[WaiverNote, ...] = ()
     expired_waivers: tuple[WaiverNote, ...] = field(default=())
+    notes: tuple[str, ...] = ()
 
     def entries(self) -> tuple[Entry, ...]:
         return tuple(e for d in self.designs for e in d.entries)
@@ -163,5 +164,24 @@ def summary_line(report: Report) -> str:
     extra = [f"{c[k]} {k}" for k in ("waived", "unchanged", "fixed") if c[k]]
     if extra:
         head += " (" + ", ".join(extra) + ")"
+    incomplete = not_evaluated_stages(report)
+    if incomplete:
+        why = "; ".join(f"{stage}: {reason}" for stage, reason in incomplete)
+        head += f"; {plural(len(incomplete), 'stage')} not fully evaluated ({why})"
     verdict = "FAIL" if report.failed() else "PASS"
     return f"{head}; fail level {fail_level_label(report.fail_on)}: {verdict}"
+
+
+INCOMPLETE_RULE = "coverage.not-evaluated"
+
+
+def not_evaluated_stages(report: Report) -> tuple[tuple[str, str], ...]:
+    """(stage, first reason) of every active analysis-incomplete finding, in report order, one per stage."""
+    seen: dict[str, str] = {}
+    for e in report.entries():
+        f = e.finding
+        if f.rule == INCOMPLETE_RULE and e.active:
+            stage = e.stage or ", ".join(f.location.refs) or "design"
+            reason = str(f.ctx.get("reason", f.message)).split("; ")[0]
+            seen.setdefault(stage, reason)
+    return tuple(seen.items())

@@ -1,10 +1,10 @@
-"""AFE402: large common-mode swing in a non-inverting stage: error referred to the input via CMRR."""
+"""Large common-mode swing in a non-inverting stage: error referred to the input via CMRR."""
 
 from __future__ import annotations
 
 from collections.abc import Iterator
 
-from afecheck.checks.common import db, fmt, part_value, pct
+from afecheck.checks.common import db, fmt, part_value, pct, switching
 from afecheck.checks.common import finding as make_finding
 from afecheck.checks.headroom.limits import cm_extremes
 from afecheck.engine.context import Context
@@ -12,7 +12,7 @@ from afecheck.engine.finding import Finding, Severity
 from afecheck.engine.rule import Param, RuleMeta
 
 META = RuleMeta(
-    id="AFE402", slug="common-mode-swing-error", severity=Severity.WARNING, family="distortion",
+    id="distortion.common-mode-error", slug="common-mode-swing-error", severity=Severity.WARNING, family="distortion",
     summary="common-mode swing through finite CMRR uses up the output error budget",
     params=(
         Param("budget_share", 0.25, "1", "share of the offset budget the CMRR error may take"),
@@ -25,6 +25,8 @@ META = RuleMeta(
 def check(ctx: Context) -> Iterator[Finding]:
     """Output error NG·ΔVcm_pp/CMRR against the declared offset budget or the ADC LSB on the stage output."""
     for stage in ctx.stages:
+        if switching(ctx.loaded, stage.opamp):
+            continue  # a declared comparator or Schmitt trigger is not a linear stage
         if stage.topology not in ("follower", "non-inverting") or stage.noise_gain_dc is None:
             continue
         ext = cm_extremes(ctx, stage)

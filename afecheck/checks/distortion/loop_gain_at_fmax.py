@@ -1,18 +1,19 @@
-"""AFE403: little loop gain left at the highest signal frequency to correct open-loop nonlinearity."""
+"""Little loop gain left at the highest signal frequency to correct open-loop nonlinearity."""
 
 from __future__ import annotations
 
 import math
 from collections.abc import Iterator
 
-from afecheck.checks.common import db, fmt, grade_below, not_evaluated, pct, stage_assumed, stage_reason
+from afecheck.checks.common import db, fmt, grade_below, not_evaluated, pct, stage_assumed, stage_reason, switching
 from afecheck.checks.common import finding as make_finding
 from afecheck.engine.context import Context
 from afecheck.engine.finding import Finding, Severity
 from afecheck.engine.rule import Param, RuleMeta
 
 META = RuleMeta(
-    id="AFE403", slug="loop-gain-low-at-signal-frequency", severity=Severity.ERROR, family="distortion",
+    id="distortion.loop-gain-at-fmax", slug="loop-gain-low-at-signal-frequency",
+    severity=Severity.ERROR, family="distortion",
     summary="loop gain at the highest signal frequency below 40 dB (warning) or 20 dB (error)",
     params=(
         Param("warn_db", 40.0, "dB", "loop gain at f_max below which a warning is raised"),
@@ -31,6 +32,8 @@ def check(ctx: Context) -> Iterator[Finding]:
     """Grade |T(f_max)| in dB for every stage that carries an AC signal."""
     warn, err = ctx.param("warn_db"), ctx.param("error_db")
     for stage in ctx.stages:
+        if switching(ctx.loaded, stage.opamp):
+            continue  # a declared comparator or Schmitt trigger is not a linear stage
         if stage.feedback != "negative" or stage.f_max <= 0:
             continue
         t = stage.loop_gain_at_fmax
