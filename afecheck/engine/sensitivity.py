@@ -72,7 +72,11 @@ class Sensitivity:
         ctx: dict[str, Any] = dict(f.ctx)
         if decided:
             ctx["decided_by"] = ", ".join(decided)
-            return replace(f, ctx=ctx)
+            note = (f" (estimated: the verdict changes with assumed {', '.join(decided)} over "
+                    f"{'its' if len(decided) == 1 else 'their'} plausible range)")
+            tail = f". Fix: {f.fix}" if f.fix and f.message.endswith(f". Fix: {f.fix}") else ""
+            head = f.message[: len(f.message) - len(tail)] if tail else f.message
+            return replace(f, ctx=ctx, message=head + note + tail)
         ctx["assumptions_checked"] = "; ".join(checked)
         return replace(f, confidence="computed", severity=verdict[0], ctx=ctx)
 
