@@ -47,14 +47,15 @@ def write(tmp_path: Path, name: str, text: str) -> Path:
 
 def test_item01_feedback_judged_by_computed_loop_gain() -> None:
     # MFB low-pass and composite amplifier: only a capacitor between in- and the output, yet the computed T(0)
-    # (Bode's return ratio) shows DC feedback: silent. Twins with the DC path removed still get AFE204.
+    # (Bode's return ratio) shows DC feedback: silent. Twins with the DC path removed still get
+    # stability.feedback-sense.
     for name in ("mfb_lowpass", "mfb_bandpass", "composite"):
         clean, broken = pair(name)
         assert loud(clean) == []
         stages = json.loads(_stages_json(clean))
         assert all(s["feedback"] == "negative" and s["loop_gain_dc"] > 1e3 for s in stages)
     for name in ("mfb_lowpass", "mfb_bandpass", "charge_amplifier", "integrator_reset"):
-        assert [f.severity for f in findings(pair(name)[1], "AFE204")] == [Severity.ERROR]
+        assert [f.severity for f in findings(pair(name)[1], "stability.feedback-sense")] == [Severity.ERROR]
 
 
 def _stages_json(path: Path) -> str:
@@ -67,8 +68,8 @@ def _stages_json(path: Path) -> str:
 def test_item02_input_divider_loss_is_amplitude_change() -> None:
     # 200 MΩ electrode, 7 pF input, 1 Hz: |H| = 1/sqrt(1 + (2πf·Rs·Cin)²) changes by 4e-5 (first-order RC low-pass)
     clean, broken = pair("electrode_follower")
-    assert findings(clean, "AFE102") == []
-    [f] = findings(broken, "AFE102")
+    assert findings(clean, "loading.input-divider") == []
+    [f] = findings(broken, "loading.input-divider")
     assert f.severity == Severity.ERROR and f.ctx["phase_deg"] < 0
     assert f.ctx["max_source_resistance"] < 200e6  # the printed criterion the twin breaks
 
@@ -76,8 +77,8 @@ def test_item02_input_divider_loss_is_amplitude_change() -> None:
 def test_item03_input_capacitance_judged_against_the_filter_capacitor_tolerance() -> None:
     # 7 pF against the Sallen-Key filter's 680 pF (5 %): 1.03 %, inside the tolerance; 10 pF twin: 70 %
     clean, broken = pair("sallen_key_lowpass")
-    assert findings(clean, "AFE102") == []
-    [f] = findings(broken, "AFE102")
+    assert findings(clean, "loading.input-divider") == []
+    [f] = findings(broken, "loading.input-divider")
     assert f.ctx["value"] == 7e-12 / 10e-12 and f.ctx["limit"] == 0.05
 
 
@@ -85,8 +86,8 @@ def test_item04_bias_offset_against_the_parts_own_offset_under_dc_accuracy() -> 
     # NG 20, 45 nA through 20 kΩ against 9.5 kΩ: 20·(45n·10.5k + 2.5n·29.5k) = 10.9 mV (Jung, Op Amp Applications
     # Handbook, ch. 1), below the part's own 20 × 2 mV = 40 mV: silent. 500 kΩ twin: 0.44 V, over ten times it.
     clean, broken = pair("bias_offset_gain20")
-    assert findings(clean, "AFE103") == []
-    [f] = findings(broken, "AFE103")
+    assert findings(clean, "accuracy.bias-offset") == []
+    [f] = findings(broken, "accuracy.bias-offset")
     # the noise gain is the analysis's A/T: 20 from the resistors, lowered by the 2 MΩ differential input resistance
     # that the 500 kΩ source puts in series (β = 0.05 · 2M/(2M + 0.5M + 9.5k), NG ≈ 25.1)
     ng = f.ctx["noise_gain"]
@@ -115,12 +116,12 @@ def test_item05_confidence_by_sensitivity(tmp_path: Path) -> None:
     # 10 µF on a 100 Ω open-loop output: the phase margin is near zero whatever the undeclared input capacitance
     # and bias current are over their plausible ranges, so the error stands as computed (not capped at warning)
     held = write(tmp_path, "held.yaml", FOLLOWER.format(part=PART.format(ro="output_resistance: 100, "), cl="10u"))
-    [f] = findings(held, "AFE201")
+    [f] = findings(held, "stability.phase-margin")
     assert f.severity == Severity.ERROR and f.confidence == "computed"
     assert "U1.input_capacitance_diff" in f.ctx["assumptions_checked"]
     # 1 nF with the output resistance itself undeclared: 10..1000 Ω moves the verdict, and the finding says so
     decided = write(tmp_path, "decided.yaml", FOLLOWER.format(part=PART.format(ro=""), cl="1n"))
-    [g] = findings(decided, "AFE201")
+    [g] = findings(decided, "stability.phase-margin")
     assert g.confidence == "estimated" and g.severity == Severity.WARNING
     assert g.ctx["decided_by"] == "U1.output_resistance" and "U1.output_resistance" in g.message
 
@@ -137,16 +138,17 @@ def test_item06_downstream_findings_name_their_root() -> None:
     clean, broken = pair("two_stage_chain")
     assert all(not f.caused_by for f in findings(clean))
     found = findings(broken)
-    [root] = [f for f in found if f.rule == "AFE302" and "U1" in f.location.refs and "6.00 V" in f.message]
+    [root] = [f for f in found
+              if f.rule == "headroom.output-swing" and "U1" in f.location.refs and "6.00 V" in f.message]
     downstream = [f for f in found if "U2" in f.location.refs]
     assert downstream and all(f.caused_by == root.fingerprint for f in downstream)
     _, text = gate("--fail-on", "never", str(broken))
-    assert f"follows from: AFE302/output-beyond-swing-limit on stage U1 ({broken}:" in text
+    assert f"follows from: headroom.output-swing on stage U1 ({broken}:" in text
 
 
 def test_item06_findings_that_could_not_judge_a_floating_stage_rest_on_it() -> None:
     found = findings(pair("sallen_key_highpass")[1])
-    [root] = [f for f in found if f.rule == "AFE304"]
+    [root] = [f for f in found if f.rule == "headroom.dc-bias-path"]
     rest = [f for f in found if f is not root]
     assert rest and all(f.caused_by == root.fingerprint for f in rest)
 
@@ -178,7 +180,7 @@ def test_item08_input_without_dc_bias_path_fails_the_default_gate() -> None:
         clean, broken = pair(name)
         assert gate(str(clean))[0] == 0
         rc, text = gate(str(broken))
-        assert rc == 1 and ("AFE304" in text or "AFE204" in text)
+        assert rc == 1 and ("headroom.dc-bias-path" in text or "stability.feedback-sense" in text)
 
 
 def test_item09_supply_on_a_misspelt_rail_fails_with_did_you_mean() -> None:
@@ -196,7 +198,7 @@ def test_item10_stage_not_evaluated_counts_toward_the_verdict() -> None:
     from afecheck.report.data import DesignResult, Entry, Report, summary_line
 
     analysis = DesignAnalysis(stages=(), nets={}, not_evaluated=((("U1",), "loop gain: singular circuit"),))
-    [f] = [f for f in run_rules(design(), analysis=analysis) if f.rule == "AFE001"]
+    [f] = [f for f in run_rules(design(), analysis=analysis) if f.rule == "coverage.not-evaluated"]
     assert f.severity == Severity.WARNING
     result = DesignResult(file="kit.yaml", name="kit", entries=(Entry(f, "open", "U1"),), stages=("U1",))
     strict = Report(designs=(result,), fail_on=Severity.WARNING)
@@ -208,8 +210,8 @@ def test_item10_stage_not_evaluated_counts_toward_the_verdict() -> None:
 def test_item11_declared_budget_is_reported_not_checked(tmp_path: Path) -> None:
     path = CORPUS / "clean" / "difference.yaml"
     noisy = write(tmp_path, "noise.yaml", path.read_text(encoding="utf-8") + "budgets:\n  OUT: {noise: 5 uV}\n")
-    assert findings(path, "AFE002") == []
-    [f] = findings(noisy, "AFE002")
+    assert findings(path, "coverage.declared-unchecked") == []
+    [f] = findings(noisy, "coverage.declared-unchecked")
     assert f.ctx["fields"] == ["budgets.OUT.noise"] and f.severity == Severity.INFO
 
 

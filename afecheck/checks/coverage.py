@@ -1,4 +1,5 @@
-"""AFE001: parts of the design the analysis could not evaluate, reported so that nothing passes silently.
+"""coverage.not-evaluated: parts of the design the analysis could not evaluate, reported so that nothing passes
+silently.
 
 A warning by default: a stage that was not fully evaluated counts toward the verdict (``--fail-on warning`` fails
 on it), and the report's summary line counts such stages. A stage declared as a comparator or Schmitt trigger has
@@ -16,7 +17,7 @@ from afecheck.engine.finding import Finding, Severity
 from afecheck.engine.rule import RuleMeta
 
 META = RuleMeta(
-    id="AFE001", slug="analysis-incomplete", severity=Severity.WARNING, family="coverage",
+    id="coverage.not-evaluated", slug="analysis-incomplete", severity=Severity.WARNING, family="coverage",
     summary="part of the design could not be analysed; the rules did not judge it",
     fix="give the missing data (part model, rail voltage, signal range) or review that part by hand",
 )

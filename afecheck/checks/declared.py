@@ -1,4 +1,7 @@
-"""AFE002: fields a design declares that no analysis or rule checks yet (see afecheck/engine/consumers.py)."""
+"""coverage.declared-unchecked: fields a design declares that no analysis or rule checks yet.
+
+Which module reads each field is registered in afecheck/engine/consumers.py.
+"""
 
 from __future__ import annotations
 
@@ -11,7 +14,7 @@ from afecheck.engine.rule import RuleMeta
 from afecheck.model.loaded import path_text
 
 META = RuleMeta(
-    id="AFE002", slug="declared-not-checked", severity=Severity.INFO, family="coverage", needs=(),
+    id="coverage.declared-unchecked", slug="declared-not-checked", severity=Severity.INFO, family="coverage", needs=(),
     summary="the design declares a value (a budget, a part limit, an ADC setting) that no rule checks yet",
     fix="review that value by hand; it is listed so that a declared limit is never taken as verified",
 )

@@ -2,9 +2,10 @@
 supply or could not be evaluated is reported once; findings of that stage that could not judge it, and findings of
 later stages about the signal it passes on, carry the root's fingerprint in ``caused_by``.
 
-Roots, strongest first: supply pin off its rail (AFE305), input without DC path (AFE304), feedback missing or
-positive (AFE204), output clips (AFE302 error), analysis incomplete (AFE001). Later stages are found through the
-analysis: a stage input whose source is another stage's output.
+Roots, strongest first: supply pin off its rail (headroom.supply-rail), input without DC path
+(headroom.dc-bias-path), feedback missing or positive (stability.feedback-sense), output clips
+(headroom.output-swing at error), analysis incomplete (coverage.not-evaluated). Later stages are found through
+the analysis: a stage input whose source is another stage's output.
 """
 
 from __future__ import annotations
@@ -18,18 +19,25 @@ from afecheck.engine.finding import Finding, Severity
 if TYPE_CHECKING:
     from afecheck.analysis.results import DesignAnalysis
 
-ROOT_RULES: tuple[str, ...] = ("AFE305", "AFE304", "AFE204", "AFE302", "AFE001")
+ROOT_RULES: tuple[str, ...] = (
+    "headroom.supply-rail", "headroom.dc-bias-path", "stability.feedback-sense", "headroom.output-swing",
+    "coverage.not-evaluated",
+)
 # Rules whose findings on a later stage rest on the signal an earlier stage passes on.
-SIGNAL_RULES = frozenset({"AFE001", "AFE101", "AFE102", "AFE103", "AFE301", "AFE302", "AFE303", "AFE401", "AFE402",
-                          "AFE403", "AFE404", "AFE405", "AFE407"})
+SIGNAL_RULES = frozenset({
+    "coverage.not-evaluated", "loading.inverting-input", "loading.input-divider", "accuracy.bias-offset",
+    "headroom.input-common-mode", "headroom.output-swing", "headroom.output-current",
+    "distortion.input-pair-transition", "distortion.common-mode-error", "distortion.loop-gain-at-fmax",
+    "distortion.slew-rate", "distortion.near-swing-limit", "distortion.impedance-balance",
+})
 
 
 def _is_root(f: Finding) -> bool:
     if f.rule not in ROOT_RULES or f.caused_by:
         return False
-    if f.rule == "AFE302":
+    if f.rule == "headroom.output-swing":
         return f.severity == Severity.ERROR and f.confidence != "not-evaluated"
-    if f.rule == "AFE001":
+    if f.rule == "coverage.not-evaluated":
         return True
     return f.severity >= Severity.WARNING
 
@@ -82,7 +90,7 @@ def _linked(f: Finding, stage: str | None, roots: Mapping[str, Finding],
     if stage is None or f.caused_by:
         return f
     own = roots.get(stage)
-    if own is not None and own is not f and (f.confidence == "not-evaluated" or f.rule == "AFE001"):
+    if own is not None and own is not f and (f.confidence == "not-evaluated" or f.rule == "coverage.not-evaluated"):
         return replace(f, caused_by=own.fingerprint)
     up = upstream_root.get(stage)
     if up is not None and f.rule in SIGNAL_RULES:

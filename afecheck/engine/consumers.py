@@ -2,15 +2,16 @@
 
 Every field the format accepts (``afecheck schema``) must be read by something: an analysis module, a rule, the
 loader, the policy or a reporter. A field no analysis or rule checks yet is registered with :data:`UNCHECKED`;
-rule AFE002 then reports each such field a design declares ("declared, not checked"), so a limit written into a
-design is never silently ignored. A module that starts checking such a field registers itself here in place of
-UNCHECKED, and the finding goes away. ``tests/test_declared_fields.py`` walks the pydantic models recursively and
-fails for a field that is missing here, and checks that every named consumer exists and reads the field.
+rule coverage.declared-unchecked then reports each such field a design declares ("declared, not checked"), so a
+limit written into a design is never silently ignored. A module that starts checking such a field registers itself
+here in place of UNCHECKED, and the finding goes away. ``tests/test_declared_fields.py`` walks the pydantic models
+recursively and fails for a field that is missing here, and checks that every named consumer exists and reads the
+field.
 
 Keys are dotted paths from the design's top level: ``*`` for any key of a mapping, ``[]`` for any item of a list,
 ``<kind>`` for one kind of component and ``<*>`` for the fields every component kind shares. Values are a module
-under ``afecheck`` (``analysis.sources``), a rule id (``AFE102``), :data:`TEXT` for free text shown to people,
-:data:`BUDGET_DATA` for data only an unchecked budget would read, or :data:`UNCHECKED`.
+under ``afecheck`` (``analysis.sources``), a rule id (``loading.input-divider``), :data:`TEXT` for free text shown
+to people, :data:`BUDGET_DATA` for data only an unchecked budget would read, or :data:`UNCHECKED`.
 """
 
 from __future__ import annotations
@@ -32,22 +33,27 @@ CONSUMERS: dict[str, str | None] = {
     "waive": "api", "waive[].rule": "api", "waive[].refs": "report.data", "waive[].nets": "report.data",
     "waive[].justification": "report.data", "waive[].accepted_by": "report.data", "waive[].expires": "policy.waivers",
     # part models
-    "parts": "parts.library", "parts.*.description": TEXT, "parts.*.archetype": "AFE407",
+    "parts": "parts.library", "parts.*.description": TEXT, "parts.*.archetype": "distortion.impedance-balance",
     "parts.*.gbw": "analysis.macromodel", "parts.*.open_loop_gain": "analysis.macromodel",
-    "parts.*.second_pole": "analysis.macromodel", "parts.*.min_stable_gain": "AFE202",
+    "parts.*.second_pole": "analysis.macromodel", "parts.*.min_stable_gain": "stability.min-stable-gain",
     "parts.*.output_resistance": "analysis.macromodel", "parts.*.input_resistance_diff": "analysis.macromodel",
     "parts.*.input_resistance_cm": "analysis.macromodel", "parts.*.input_capacitance_diff": "analysis.macromodel",
-    "parts.*.input_capacitance_cm": "analysis.macromodel", "parts.*.bias_current": "AFE103",
-    "parts.*.offset_current": "AFE103", "parts.*.offset_voltage": "AFE103", "parts.*.offset_drift": BUDGET_DATA,
+    "parts.*.input_capacitance_cm": "analysis.macromodel", "parts.*.bias_current": "accuracy.bias-offset",
+    "parts.*.offset_current": "accuracy.bias-offset", "parts.*.offset_voltage": "accuracy.bias-offset",
+    "parts.*.offset_drift": BUDGET_DATA,
     "parts.*.voltage_noise": BUDGET_DATA, "parts.*.voltage_noise_corner": BUDGET_DATA,
     "parts.*.current_noise": BUDGET_DATA,
-    "parts.*.current_noise_corner": BUDGET_DATA, "parts.*.slew_rate": "AFE404", "parts.*.cmrr": "AFE402",
-    "parts.*.input_cm_low": "AFE301", "parts.*.input_cm_high": "AFE301", "parts.*.output_drop_low": "AFE302",
-    "parts.*.output_drop_high": "AFE302", "parts.*.output_sat_resistance": "AFE302",
-    "parts.*.output_current_limit": "AFE303", "parts.*.supply_min": UNCHECKED, "parts.*.supply_max": UNCHECKED,
-    "parts.*.max_capacitive_load": UNCHECKED, "parts.*.input_stage": "AFE401",
-    "parts.*.transition_below_vplus": "AFE401", "parts.*.transition_width": "AFE401",
-    "parts.*.transition_offset_step": "AFE401",
+    "parts.*.current_noise_corner": BUDGET_DATA, "parts.*.slew_rate": "distortion.slew-rate",
+    "parts.*.cmrr": "distortion.common-mode-error",
+    "parts.*.input_cm_low": "headroom.input-common-mode", "parts.*.input_cm_high": "headroom.input-common-mode",
+    "parts.*.output_drop_low": "headroom.output-swing",
+    "parts.*.output_drop_high": "headroom.output-swing", "parts.*.output_sat_resistance": "headroom.output-swing",
+    "parts.*.output_current_limit": "headroom.output-current", "parts.*.supply_min": UNCHECKED,
+    "parts.*.supply_max": UNCHECKED,
+    "parts.*.max_capacitive_load": UNCHECKED, "parts.*.input_stage": "distortion.input-pair-transition",
+    "parts.*.transition_below_vplus": "distortion.input-pair-transition",
+    "parts.*.transition_width": "distortion.input-pair-transition",
+    "parts.*.transition_offset_step": "distortion.input-pair-transition",
     # rails
     "rails": "graph.build", "rails.*.voltage": "graph.build", "rails.*.tolerance": "analysis.sources",
     "rails.*.description": TEXT,
@@ -59,8 +65,8 @@ CONSUMERS: dict[str, str | None] = {
     "components.*.<*>.waive[].expires": "policy.waivers",
     # components: per kind
     "components.*.<resistor>.value": "analysis.netlist", "components.*.<resistor>.tolerance": BUDGET_DATA,
-    "components.*.<capacitor>.value": "analysis.netlist", "components.*.<capacitor>.tolerance": "AFE102",
-    "components.*.<capacitor>.dielectric": "AFE406",
+    "components.*.<capacitor>.value": "analysis.netlist", "components.*.<capacitor>.tolerance": "loading.input-divider",
+    "components.*.<capacitor>.dielectric": "distortion.class2-ceramic",
     "components.*.<opamp>.part": "model.load", "components.*.<opamp>.tolerance": BUDGET_DATA,
     "components.*.<opamp>.role": "checks.common", "components.*.<opamp>.intended_gain": "checks.common",
     "components.*.<ntc>.r25": "analysis.sources", "components.*.<ntc>.beta": "analysis.sources",
@@ -77,9 +83,11 @@ CONSUMERS: dict[str, str | None] = {
     "signals.*.band": "analysis.signals", "signals.*.source_resistance": "analysis.sources",
     "signals.*.description": TEXT,
     "loads": "analysis.netlist", "loads.*.resistance": "analysis.netlist", "loads.*.capacitance": "analysis.netlist",
-    "loads.*.reference": "analysis.netlist", "loads.*.adc": "AFE402", "loads.*.adc.full_scale": "AFE402",
-    "loads.*.adc.bits": "AFE402", "loads.*.adc.sample_rate": UNCHECKED, "loads.*.adc.bipolar": UNCHECKED,
-    "budgets": "AFE103", "budgets.*.offset": "AFE103", "budgets.*.gain_accuracy": UNCHECKED,
+    "loads.*.reference": "analysis.netlist", "loads.*.adc": "distortion.common-mode-error",
+    "loads.*.adc.full_scale": "distortion.common-mode-error",
+    "loads.*.adc.bits": "distortion.common-mode-error", "loads.*.adc.sample_rate": UNCHECKED,
+    "loads.*.adc.bipolar": UNCHECKED,
+    "budgets": "accuracy.bias-offset", "budgets.*.offset": "accuracy.bias-offset", "budgets.*.gain_accuracy": UNCHECKED,
     "budgets.*.noise": UNCHECKED,
 }
 

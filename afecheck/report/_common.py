@@ -25,14 +25,15 @@ def where(entry: Entry) -> str:
 
 
 def rule_label(entry: Entry) -> str:
-    return f"{entry.finding.rule}/{entry.finding.slug}"
+    """How reports name a finding's rule: its identifier alone, in a quiet position after the message."""
+    return entry.finding.rule
 
 
 def root_label(root: Entry) -> str:
     """How a downstream finding names the root it rests on: rule, stage and where it is reported."""
     f = root.finding
     stage = f" on stage {root.stage}" if root.stage else ""
-    return f"{f.rule}/{f.slug}{stage} ({where(root)})"
+    return f"{f.rule}{stage} ({where(root)})"
 
 
 def by_stage(design: DesignResult) -> Iterator[tuple[str, tuple[Entry, ...]]]:

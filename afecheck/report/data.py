@@ -111,6 +111,7 @@ class Report:
     baseline: str | None = None
     unused_waivers: tuple[WaiverNote, ...] = ()
     expired_waivers: tuple[WaiverNote, ...] = field(default=())
+    notes: tuple[str, ...] = ()
 
     def entries(self) -> tuple[Entry, ...]:
         return tuple(e for d in self.designs for e in d.entries)
@@ -171,7 +172,7 @@ def summary_line(report: Report) -> str:
     return f"{head}; fail level {fail_level_label(report.fail_on)}: {verdict}"
 
 
-INCOMPLETE_RULE = "AFE001"
+INCOMPLETE_RULE = "coverage.not-evaluated"
 
 
 def not_evaluated_stages(report: Report) -> tuple[tuple[str, str], ...]:

@@ -1,4 +1,4 @@
-"""AFE405: output within 100 mV of its swing limit at full signal (not beyond: that is AFE302)."""
+"""Output within 100 mV of its swing limit at full signal (not beyond: that is headroom.output-swing)."""
 
 from __future__ import annotations
 
@@ -12,7 +12,7 @@ from afecheck.engine.finding import Finding, Severity
 from afecheck.engine.rule import Param, RuleMeta
 
 META = RuleMeta(
-    id="AFE405", slug="output-near-swing-limit", severity=Severity.WARNING, family="distortion",
+    id="distortion.near-swing-limit", slug="output-near-swing-limit", severity=Severity.WARNING, family="distortion",
     summary="output at full signal within 100 mV of its swing limit, where output-stage linearity falls",
     params=(Param("band", 0.1, "V", "headroom to the swing limit below which a warning is raised"),),
     fix="lower the gain or output offset a little, lighten the load, or choose a part with more output swing",
@@ -26,7 +26,7 @@ def check(ctx: Context) -> Iterator[Finding]:
         if switching(ctx.loaded, stage.opamp):
             continue  # a declared comparator or Schmitt trigger is not a linear stage
         if not rails_known(ctx, stage.opamp):
-            continue  # supply voltage unknown: AFE001 reports it
+            continue  # supply voltage unknown: coverage.not-evaluated reports it
         s = swing(ctx, stage)
         if s is None:
             continue
@@ -35,7 +35,7 @@ def check(ctx: Context) -> Iterator[Finding]:
             ("lowest", s.low_required, s.low_limit, s.low_required - s.low_limit),
         ):
             if grade_headroom(margin, band, value, limit, stage.rail_plus, stage.rail_minus) != Severity.WARNING:
-                continue  # beyond the limit is AFE302's; inside the band by print precision is no warning
+                continue  # beyond the limit: headroom.output-swing; inside the band by print precision: no warning
             margin = snap(margin, value, limit, stage.rail_plus, stage.rail_minus)
             text = (f"{stage.opamp} output reaches {fmt(value, 'V')} on {stage.out}, only {fmt(margin, 'V')} inside "
                     f"its {name} swing limit {fmt(limit, 'V')} at this load (band {fmt(band, 'V')})")

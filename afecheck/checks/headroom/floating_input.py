@@ -1,4 +1,5 @@
-"""AFE304: an op-amp input with no DC path to a defined voltage (capacitors open): it drifts to a rail at power-up."""
+"""headroom.dc-bias-path: an op-amp input with no DC path to a defined voltage (capacitors open): it drifts to
+a rail at power-up."""
 
 from __future__ import annotations
 
@@ -12,7 +13,7 @@ from afecheck.engine.finding import Finding, Severity
 from afecheck.engine.rule import RuleMeta
 
 META = RuleMeta(
-    id="AFE304", slug="input-without-dc-bias-path", severity=Severity.ERROR, family="headroom",
+    id="headroom.dc-bias-path", slug="input-without-dc-bias-path", severity=Severity.ERROR, family="headroom",
     summary="an op-amp input has no DC path to a defined voltage, so its bias current charges it to a rail",
     fix="add a resistor from the input to the reference it should sit at (ground, mid-rail), sized so that bias "
         "current times it stays inside the offset budget",
@@ -30,7 +31,7 @@ def check(ctx: Context) -> Iterator[Finding]:
             if not net or has_dc_path(circuit, net):
                 continue
             if pin == "in-" and stage.feedback == "none" and capacitor_feedback(ctx, net, stage.out):
-                continue  # capacitor-only feedback with nothing else at DC: AFE204 reports that loop
+                continue  # capacitor-only feedback with nothing else at DC: stability.feedback-sense reports that loop
             if pin == "in-" and switching(ctx.loaded, stage.opamp):
                 continue
             parts = sorted(ref for ref, _pin in circuit.net_pins.get(net, ()) if ref != stage.opamp)

@@ -1,4 +1,5 @@
-"""AFE102: a non-inverting input's common-mode impedance divides the source signal (Rcm at DC, Ccm at f_max).
+"""loading.input-divider: a non-inverting input's common-mode impedance divides the source signal (Rcm at DC, Ccm
+at f_max).
 
 The loss is the change of the amplitude |H| = |Zin/(Rs + Zin)| from 1, not the length of the error vector
 Rs/(Rs + Zin): a pole 159 times above the band shifts the phase by a third of a degree but the amplitude by
@@ -20,7 +21,7 @@ from afecheck.engine.finding import Finding, Severity
 from afecheck.engine.rule import Param, RuleMeta
 
 META = RuleMeta(
-    id="AFE102", slug="input-impedance-divides-source", severity=Severity.ERROR, family="loading",
+    id="loading.input-divider", slug="input-impedance-divides-source", severity=Severity.ERROR, family="loading",
     summary="source resistance against a non-inverting input's resistance and capacitance loses signal",
     params=(
         Param("warn_fraction", 1e-3, "1", "amplitude loss 1 − |H| above which a warning is raised"),
