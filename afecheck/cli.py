@@ -19,6 +19,7 @@ COMMANDS: dict[str, str] = {
     "check": "review design files and report findings",
     "stages": "print every op-amp stage with the numbers the rules stand on",
     "spice": "write a design (or one stage) as a SPICE netlist",
+    "convert": "write a design (e.g. a SPICE netlist with its map and intent) as an afecheck YAML design file",
     "schema": "print the JSON Schema of the design exchange format",
     "parts": "list the op-amp part models that are loaded",
     "rules": "list every rule, or print one rule's page: afecheck rules NAME",

@@ -1,6 +1,6 @@
 """Every field the design format accepts is read by something: the walk over the pydantic models meets the
 consumer registry (afecheck/engine/consumers.py), each named consumer exists and reads that field, and a declared
-field with no checking consumer is reported by coverage.declared-unchecked ("declared, not checked")."""
+field with no checking consumer is reported by coverage.declared-not-checked ("declared, not checked")."""
 
 from __future__ import annotations
 
@@ -96,7 +96,7 @@ def test_each_named_consumer_exists_and_reads_the_field(path: str) -> None:
 @pytest.mark.parametrize("path", ["budgets.*.noise", "budgets.*.gain_accuracy", "loads.*.adc.sample_rate",
                                   "parts.*.supply_max", "parts.*.max_capacitive_load"])
 def test_fields_named_in_the_issue_are_reported_until_a_consumer_registers(path: str) -> None:
-    # item 11: these were accepted and never looked at; they are UNCHECKED (coverage.declared-unchecked reports
+    # item 11: these were accepted and never looked at; they are UNCHECKED (coverage.declared-not-checked reports
     # them) or consumed
     assert consumer(path) is UNCHECKED or consumer(path) not in (TEXT, BUDGET_DATA)
 
@@ -115,8 +115,8 @@ budgets: {OUT: {noise: 10 uV, offset: 5 mV}}
 """
     path = tmp_path / "d.yaml"
     path.write_text(design, encoding="utf-8")
-    [f] = [f for f in check_file(path).findings if f.rule == "coverage.declared-unchecked"]
+    [f] = [f for f in check_file(path).findings if f.rule == "coverage.declared-not-checked"]
     assert f.ctx["fields"] == ["budgets.OUT.noise", "parts.MY-AMP.supply_max"]
     assert f.location.line == 10  # the first of them, budgets.OUT.noise
     path.write_text(design.replace("noise: 10 uV, ", "").replace(", supply_max: 5.5 V", ""), encoding="utf-8")
-    assert [f for f in check_file(path).findings if f.rule == "coverage.declared-unchecked"] == []
+    assert [f for f in check_file(path).findings if f.rule == "coverage.declared-not-checked"] == []

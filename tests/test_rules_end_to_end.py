@@ -118,7 +118,7 @@ def test_five_kilohm_sensor_into_ten_kilohm_inverting_input_is_a_third_low(tmp_p
 
 def test_same_sensor_into_a_follower_is_not_loaded(tmp_path: Path) -> None:
     # common practice worked pair (issue)
-    rules = ("loading.inverting-input", "loading.input-divider", "accuracy.bias-offset")
+    rules = ("loading.inverting-input", "loading.input-divider", "dc-accuracy.bias-offset")
     assert findings(divider_into(tmp_path, False), *rules) == ()
 
 

@@ -201,4 +201,4 @@ def test_bias_offset_without_budget_is_judged_against_the_parts_own_offset(rs: f
     if found:
         assert found[0].ctx["value"] == pytest.approx(20 * 1e-9 * rs)  # Jung, Op Amp Applications Handbook, ch. 1
         assert "own offset error 20.0 mV" in found[0].message
-    assert bias_current_offset.META.family == "accuracy"
+    assert bias_current_offset.META.family == "dc-accuracy"

@@ -156,7 +156,8 @@ def test_cli_whole_design_to_stdout(tmp_path) -> None:
     assert code == 0
     assert out.splitlines()[0] == "hydrophone preamp (test copy)"
     assert ".control" not in out and out.rstrip().endswith(".end")
-    assert "EU1_gain_a0" in out
+    assert "XU1 INP FB out VCC 0 TEST-AMP" in out and ".subckt TEST-AMP in+ in- out v+ v-" in out
+    assert "E_gain_a0 n_gain_a 0 n_gain_p in- 316227.7660168379" in out
 
 
 def test_cli_stage_to_file(tmp_path) -> None:

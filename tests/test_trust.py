@@ -86,8 +86,8 @@ def test_item04_bias_offset_against_the_parts_own_offset_under_dc_accuracy() -> 
     # NG 20, 45 nA through 20 kΩ against 9.5 kΩ: 20·(45n·10.5k + 2.5n·29.5k) = 10.9 mV (Jung, Op Amp Applications
     # Handbook, ch. 1), below the part's own 20 × 2 mV = 40 mV: silent. 500 kΩ twin: 0.44 V, over ten times it.
     clean, broken = pair("bias_offset_gain20")
-    assert findings(clean, "accuracy.bias-offset") == []
-    [f] = findings(broken, "accuracy.bias-offset")
+    assert findings(clean, "dc-accuracy.bias-offset") == []
+    [f] = findings(broken, "dc-accuracy.bias-offset")
     # the noise gain is the analysis's A/T: 20 from the resistors, lowered by the 2 MΩ differential input resistance
     # that the 500 kΩ source puts in series (β = 0.05 · 2M/(2M + 0.5M + 9.5k), NG ≈ 25.1)
     ng = f.ctx["noise_gain"]
@@ -148,7 +148,7 @@ def test_item06_downstream_findings_name_their_root() -> None:
 
 def test_item06_findings_that_could_not_judge_a_floating_stage_rest_on_it() -> None:
     found = findings(pair("sallen_key_highpass")[1])
-    [root] = [f for f in found if f.rule == "headroom.dc-bias-path"]
+    [root] = [f for f in found if f.rule == "headroom.no-bias-path"]
     rest = [f for f in found if f is not root]
     assert rest and all(f.caused_by == root.fingerprint for f in rest)
 
@@ -180,7 +180,7 @@ def test_item08_input_without_dc_bias_path_fails_the_default_gate() -> None:
         clean, broken = pair(name)
         assert gate(str(clean))[0] == 0
         rc, text = gate(str(broken))
-        assert rc == 1 and ("headroom.dc-bias-path" in text or "stability.feedback-sense" in text)
+        assert rc == 1 and ("headroom.no-bias-path" in text or "stability.feedback-sense" in text)
 
 
 def test_item09_supply_on_a_misspelt_rail_fails_with_did_you_mean() -> None:
@@ -210,8 +210,8 @@ def test_item10_stage_not_evaluated_counts_toward_the_verdict() -> None:
 def test_item11_declared_budget_is_reported_not_checked(tmp_path: Path) -> None:
     path = CORPUS / "clean" / "difference.yaml"
     noisy = write(tmp_path, "noise.yaml", path.read_text(encoding="utf-8") + "budgets:\n  OUT: {noise: 5 uV}\n")
-    assert findings(path, "coverage.declared-unchecked") == []
-    [f] = findings(noisy, "coverage.declared-unchecked")
+    assert findings(path, "coverage.declared-not-checked") == []
+    [f] = findings(noisy, "coverage.declared-not-checked")
     assert f.ctx["fields"] == ["budgets.OUT.noise"] and f.severity == Severity.INFO
 
 

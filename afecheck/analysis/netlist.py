@@ -131,6 +131,12 @@ class OpAmpInstance:
     pole2_hz: float
     output_resistance: float
     assumed: tuple[str, ...] = ()
+    part: str = ""
+    """Part model name (for the SPICE export's subcircuit)."""
+    supplies: tuple[str, str] = (GROUND, GROUND)
+    """Nodes of the v+ and v- pins (the linear model draws nothing from them; the SPICE export wires them)."""
+    template: tuple[Element, ...] = field(default=(), compare=False, repr=False)
+    """The same macromodel on nodes ``in+ in- out`` (ground ``0``): the body of the export's ``.subckt``."""
 
     def open_loop_response(self, freqs: np.ndarray | Sequence[float]) -> np.ndarray:
         """A(jf) = A0 / ((1 + jf/fp1)(1 + jf/fp2)) as a complex numpy array (no output resistance)."""
@@ -274,6 +280,7 @@ def netlist_from_design(
     elements: list[Element] = []
     opamps: dict[str, OpAmpInstance] = {}
     vtree = _VoltageTree()
+    templates: dict[tuple[str, bool], tuple[Element, ...]] = {}
     touched: dict[str, None] = {}
     problems: list[Problem] = []
 
@@ -339,7 +346,11 @@ def netlist_from_design(
             mm = opamp_macromodel(ref, pin(ref, "in+"), pin(ref, "in-"), pin(ref, "out"), model,
                                   include_offsets=opts.include_offsets)
             elements.extend(mm.elements)
-            opamps[ref] = mm.instance
+            key = (comp.part, opts.include_offsets)
+            if key not in templates:
+                templates[key] = opamp_macromodel("", "in+", "in-", "out", model, opts.include_offsets).elements
+            supplies = tuple(node(comp.pins[p]) if p in comp.pins else GROUND for p in ("v+", "v-"))
+            opamps[ref] = replace(mm.instance, part=comp.part, supplies=supplies, template=templates[key])
             for p in ("v+", "v-"):
                 if p in comp.pins:
                     touched.setdefault(comp.pins[p], None)

@@ -108,20 +108,84 @@ class _Namer:
 
 
 def spice_deck(netlist: Netlist, title: str = "afecheck netlist", control: ControlBlock | None = None) -> SpiceDeck:
-    """The netlist as a SPICE deck (line 1 is the title, as SPICE requires)."""
-    flat = expand_netlist(netlist)
+    """The netlist as a SPICE deck (line 1 is the title, as SPICE requires).
+
+    Each op-amp whose macromodel is intact is an X instance of a ``.subckt`` named after its part model, with
+    ports ``in+ in- out v+ v-`` (names afecheck's netlist reader recognises, so the deck reads back with no map).
+    """
+    boxed = _boxed_opamps(netlist)
+    inside = tuple(f"{ref}#" for ref in boxed)
+    top = expand_netlist(Netlist(tuple(e for e in netlist.elements if not e.name.startswith(inside) or not inside),
+                                 netlist.opamps))
     nodes = _Namer(reserved=("0", "gnd"))
     nodes.map[GROUND] = "0"
     elements = _Namer()
-    lines = [_title(title), "* written by afecheck; op-amp cores expanded to standard elements"]
-    for e in flat.elements:
+    lines = [_title(title), "* written by afecheck; op-amps are subcircuits of standard elements named after their "
+             "part model"]
+    subckts, defs, inner = _subcircuits(netlist, boxed)
+    for e in top.elements:
         lines.append(_card(e, nodes, elements))
+    all_nodes = dict.fromkeys(top.nodes())
+    internal: dict[str, str] = {}
+    for ref in boxed:
+        op = netlist.opamps[ref]
+        pins = (op.in_plus, op.in_minus, op.out, *op.supplies)
+        name = elements.name(ref, "X")
+        lines.append(f"{name} {' '.join(nodes.name(n) for n in pins)} {subckts[ref]}")
+        all_nodes.update(dict.fromkeys(n for n in pins[:3] if n != GROUND))
+        for local, deck_name in inner[subckts[ref]].items():
+            internal[ref + local] = f"{name}.{deck_name}"
+            all_nodes[ref + local] = None
+    lines += defs
     lines.append("* node names: original -> deck")
     lines += [f"*   {orig} -> {new}" for orig, new in nodes.map.items() if orig != new]
+    nodes.map.update(internal)
     if control is not None:
-        lines += _control_lines(control, flat, nodes, elements)
+        lines += _control_lines(control, tuple(all_nodes), nodes, elements)
     lines.append(".end")
     return SpiceDeck("\n".join(lines) + "\n", dict(nodes.map), dict(elements.map))
+
+
+def _boxed_opamps(netlist: Netlist) -> list[str]:
+    """Op-amps written as subcircuit instances: those with a part name whose gain core is still in the netlist."""
+    cores = {e.name for e in netlist.elements if isinstance(e, OpAmpCore)}
+    return [ref for ref, op in netlist.opamps.items() if op.part and op.template and op.loop_element in cores]
+
+
+def _subcircuits(netlist: Netlist, boxed: list[str]
+                 ) -> tuple[dict[str, str], list[str], dict[str, dict[str, str]]]:
+    """The subcircuit name of each boxed op-amp, the ``.subckt`` definitions (one per part and macromodel), and
+    per subcircuit its internal nodes: template name (``#o``) -> name inside the subcircuit."""
+    names: dict[tuple, str] = {}
+    used: set[str] = set()
+    of: dict[str, str] = {}
+    defs: list[str] = []
+    inner: dict[str, dict[str, str]] = {}
+    for ref in boxed:
+        op = netlist.opamps[ref]
+        key = (op.part, op.template)
+        if key not in names:
+            base = re.sub(r"[^A-Za-z0-9_.\-]", "_", op.part) or "opamp"
+            name, i = base, 1
+            while name.lower() in used:
+                i += 1
+                name = f"{base}_{i}"
+            used.add(name.lower())
+            names[key] = name
+            lines, inner[name] = _subcircuit_lines(name, op.template)
+            defs += lines
+        of[ref] = names[key]
+    return of, defs, inner
+
+
+def _subcircuit_lines(name: str, template: tuple[Element, ...]) -> tuple[list[str], dict[str, str]]:
+    ports = {GROUND: "0", "in+": "in+", "in-": "in-", "out": "out"}
+    nodes = _Namer(reserved=("0", "gnd", "in+", "in-", "out", "v+", "v-"))
+    nodes.map.update(ports)
+    elements = _Namer()
+    body = expand_netlist(Netlist(template)).elements
+    lines = [f".subckt {name} in+ in- out v+ v-", *(_card(e, nodes, elements) for e in body), f".ends {name}"]
+    return lines, {n: d for n, d in nodes.map.items() if n not in ports}
 
 
 def _title(title: str) -> str:
@@ -141,8 +205,7 @@ def _card(e: Element, nodes: _Namer, elements: _Namer) -> str:
     return f"{name} {nodes.name(e.pos)} {nodes.name(e.neg)} {nodes.name(e.cpos)} {nodes.name(e.cneg)} {_fmt(value)}"
 
 
-def _control_lines(control: ControlBlock, flat: Netlist, nodes: _Namer, elements: _Namer) -> list[str]:
-    all_nodes = flat.nodes()
+def _control_lines(control: ControlBlock, all_nodes: tuple[str, ...], nodes: _Namer, elements: _Namer) -> list[str]:
     currents = [f"i({elements.map[name]})" for name in control.op_currents] if control.op else []
     lines: list[str] = []
     if control.ac is not None:

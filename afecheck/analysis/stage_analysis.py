@@ -206,10 +206,12 @@ def _holding_elements(circuit: Circuit, stages: list[Stage], nets: set[str], see
 
 
 def analyse_unit(circuit: Circuit, plan: StagePlan, unit: tuple[str, ...],
-                 done: Mapping[str, StageResult], cache: dict | None = None) -> UnitResult:
+                 done: Mapping[str, StageResult], cache: dict | None = None,
+                 circuits: dict | None = None) -> UnitResult:
     """Solve the op-amps of ``unit`` together and return their StageResults and net signals.
 
-    ``cache`` (one dict per design) memoises loop gains of stages whose local circuits are identical.
+    ``cache`` (one dict per design) memoises loop gains of stages whose local circuits are identical;
+    ``circuits``, when given, receives op-amp -> (local netlist, {input net: its source branch}) for later sweeps.
     """
     stages = [plan.stages[r] for r in unit]
     for s in stages:
@@ -237,6 +239,8 @@ def analyse_unit(circuit: Circuit, plan: StagePlan, unit: tuple[str, ...],
         return UnitResult(tuple(_empty_result(s, circuit, tuple(p.message for p in exc.problems)) for s in stages), ())
     names = {e.name for e in netlist.elements}
     inputs = [i for i in inputs if i.branch in names]
+    if circuits is not None:
+        circuits.update({r: (netlist, {i.source.net: i.branch for i in inputs}) for r in unit})
     try:
         return _solve_unit(circuit, stages, netlist, inputs, notes, cache)
     except SingularCircuitError as exc:

@@ -1,5 +1,4 @@
-"""coverage.not-evaluated: parts of the design the analysis could not evaluate, reported so that nothing passes
-silently.
+"""Parts of the design the analysis could not evaluate, reported so that nothing passes silently.
 
 A warning by default: a stage that was not fully evaluated counts toward the verdict (``--fail-on warning`` fails
 on it), and the report's summary line counts such stages. A stage declared as a comparator or Schmitt trigger has

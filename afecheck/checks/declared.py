@@ -1,7 +1,4 @@
-"""coverage.declared-unchecked: fields a design declares that no analysis or rule checks yet.
-
-Which module reads each field is registered in afecheck/engine/consumers.py.
-"""
+"""Fields a design declares that no analysis or rule checks yet (see afecheck/engine/consumers.py)."""
 
 from __future__ import annotations
 
@@ -14,7 +11,8 @@ from afecheck.engine.rule import RuleMeta
 from afecheck.model.loaded import path_text
 
 META = RuleMeta(
-    id="coverage.declared-unchecked", slug="declared-not-checked", severity=Severity.INFO, family="coverage", needs=(),
+    id="coverage.declared-not-checked", slug="declared-not-checked", severity=Severity.INFO, family="coverage",
+    needs=(),
     summary="the design declares a value (a budget, a part limit, an ADC setting) that no rule checks yet",
     fix="review that value by hand; it is listed so that a declared limit is never taken as verified",
 )

@@ -13,6 +13,7 @@ import re
 from pathlib import Path
 from typing import Any, TextIO
 
+from afecheck.commands.netlist_options import add_netlist_arguments, netlist_options
 from afecheck.report import FORMATS
 
 HELP = "review design files and report findings"
@@ -27,7 +28,7 @@ def _date(text: str) -> dt.date:
 
 def add_policy_arguments(p: argparse.ArgumentParser) -> None:
     """FILE..., --intent, --parts, --config/--no-config, --ruleset, --waivers, --today."""
-    p.add_argument("files", nargs="+", metavar="FILE", help="design files (YAML or JSON)")
+    p.add_argument("files", nargs="+", metavar="FILE", help="design files (YAML, JSON or SPICE netlist)")
     p.add_argument("--intent", help="design-intent file (signals, loads, budgets keyed by net)")
     p.add_argument("--parts", action="append", default=[], metavar="LIB", help="extra part library file")
     cfg = p.add_mutually_exclusive_group()
@@ -40,6 +41,7 @@ def add_policy_arguments(p: argparse.ArgumentParser) -> None:
                    help="waiver file (repeatable; adds to the config's waivers)")
     p.add_argument("--today", type=_date, metavar="DATE",
                    help="date used to judge waiver expiry (default: today, UTC); makes runs reproducible")
+    add_netlist_arguments(p)
 
 
 def review_options(args: argparse.Namespace) -> dict[str, Any]:
@@ -52,6 +54,7 @@ def review_options(args: argparse.Namespace) -> dict[str, Any]:
         "ruleset": args.ruleset,
         "waiver_files": tuple(args.waivers),
         "today": args.today or dt.datetime.now(dt.UTC).date(),
+        **netlist_options(args),
     }
 
 
@@ -59,7 +62,8 @@ def input_paths(args: argparse.Namespace) -> list[Path]:
     """Every file the command reads, so that no output ever overwrites one."""
     from afecheck.policy.config import discover_config
 
-    named = [*args.files, args.intent, *args.parts, args.config, *args.waivers, getattr(args, "baseline", None)]
+    named = [*args.files, args.intent, *args.parts, args.config, *args.waivers, getattr(args, "baseline", None),
+             getattr(args, "netlist_map", None)]
     if not args.no_config and args.config is None:
         named += [discover_config(f) for f in args.files]
     return [Path(n) for n in named if n]
@@ -123,8 +127,12 @@ _DESIGN_KEY = re.compile(r'^(afecheck|\s*"afecheck")\s*:', re.M)
 
 
 def is_design_file(path: str | Path) -> bool:
-    """True when ``path`` has a top-level ``afecheck:`` key (YAML or JSON); unreadable files count as designs
-    so that the loader reports them."""
+    """True when ``path`` has a top-level ``afecheck:`` key (YAML or JSON) or a SPICE netlist's name; unreadable
+    files count as designs so that the loader reports them."""
+    from afecheck.model.spice_reader import is_netlist
+
+    if is_netlist(path):
+        return True
     try:
         text = Path(path).read_text(encoding="utf-8")
     except (OSError, UnicodeDecodeError):
@@ -141,6 +149,16 @@ def run(args: argparse.Namespace, stdout: TextIO, stderr: TextIO) -> int:
     plan = _plan(args, stderr)
     if plan is None:
         return EXIT_INPUT
+    formats = {str(fmt) for fmt, _ in plan}
+    if "html" in formats:
+        from afecheck.report.html import missing_dependencies
+
+        missing = missing_dependencies()
+        if missing:
+            print(f"afecheck: error: --format html needs {' and '.join(missing)}, which are not installed; "
+                  "install them with: pip install 'afecheck[html]'", file=stderr)
+            return EXIT_INPUT
+    detail = "curves" if "html" in formats else "stages" if "markdown" in formats else "none"
     files = [str(path) for _fmt, path in plan if path is not None]
     with recording_reads() as reads:
         check_outputs(files, input_paths(args))  # the inputs named on the command line, before the long part
@@ -149,7 +167,8 @@ def run(args: argparse.Namespace, stdout: TextIO, stderr: TextIO) -> int:
             if not args.files:
                 print("afecheck: no design files among the files given", file=stderr)
                 return 0
-        report = review_files(args.files, fail_on=args.fail_on, baseline=args.baseline, **review_options(args))
+        report = review_files(args.files, fail_on=args.fail_on, baseline=args.baseline, detail=detail,
+                              on_note=lambda note: print(f"note: {note}", file=stderr), **review_options(args))
     rendered = [(path, render(report, str(fmt), color=path is None and use_color(args.color, stdout)))
                 for fmt, path in plan]
     write_outputs([(path, text) for path, text in rendered if path is not None], reads)

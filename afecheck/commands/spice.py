@@ -6,17 +6,23 @@ import argparse
 from pathlib import Path
 from typing import TextIO
 
+from afecheck.commands.netlist_options import add_netlist_arguments, netlist_options
+
 HELP = "write a design (or one stage) as a SPICE netlist"
 
 
 def add_arguments(p: argparse.ArgumentParser) -> None:
-    p.add_argument("file", metavar="FILE", help="design file (YAML or JSON)")
+    p.add_argument("file", metavar="FILE", help="design file (YAML, JSON or SPICE netlist)")
     p.add_argument("--stage", metavar="REFDES", help="only the stage of this op-amp (with the op-amps tied to it)")
     p.add_argument("--output", "-o", metavar="PATH", help="write the deck here instead of standard output")
     p.add_argument("--ac", action="store_true",
                    help="add a .control block: operating point, then an AC sweep written to a binary raw file")
+    p.add_argument("--circuit-only", action="store_true",
+                   help="leave out the declared signals and loads (they travel in an intent file): the netlist half "
+                        "of the netlist + intent pair that `afecheck check NETLIST --intent FILE` reads")
     p.add_argument("--intent", help="design-intent file (signals, loads, budgets keyed by net)")
     p.add_argument("--parts", action="append", default=[], metavar="LIB", help="extra part library file")
+    add_netlist_arguments(p)
 
 
 def run(args: argparse.Namespace, stdout: TextIO, stderr: TextIO) -> int:
@@ -26,14 +32,19 @@ def run(args: argparse.Namespace, stdout: TextIO, stderr: TextIO) -> int:
 
     with recording_reads() as reads:
         if args.output:
-            check_outputs([args.output], [args.file, args.intent, *args.parts])
-        loaded = load_design(args.file, intent=args.intent, libraries=tuple(args.parts))
+            check_outputs([args.output], [args.file, args.intent, args.netlist_map, *args.parts])
+        if args.stage and args.circuit_only:
+            from afecheck.errors import InputError, Problem
+
+            raise InputError([Problem("", None, None, "--circuit-only", "applies to the whole design, not to --stage")])
+        loaded = load_design(args.file, intent=args.intent, libraries=tuple(args.parts), **netlist_options(args))
     if args.stage:
         netlist, title = _stage_netlist(loaded, args.stage), f"{loaded.design.name}: stage {args.stage}"
     else:
-        from afecheck.analysis.netlist import netlist_from_design
+        from afecheck.analysis.netlist import NetlistOptions, netlist_from_design
 
-        netlist, title = netlist_from_design(loaded), loaded.design.name
+        options = NetlistOptions(include_signals=False, include_loads=False) if args.circuit_only else None
+        netlist, title = netlist_from_design(loaded, options=options), loaded.design.name
     control = None
     if args.ac:
         raw = (Path(args.output).stem if args.output else "afecheck") + ".raw"

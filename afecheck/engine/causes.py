@@ -2,10 +2,11 @@
 supply or could not be evaluated is reported once; findings of that stage that could not judge it, and findings of
 later stages about the signal it passes on, carry the root's fingerprint in ``caused_by``.
 
-Roots, strongest first: supply pin off its rail (headroom.supply-rail), input without DC path
-(headroom.dc-bias-path), feedback missing or positive (stability.feedback-sense), output clips
-(headroom.output-swing at error), analysis incomplete (coverage.not-evaluated). Later stages are found through
-the analysis: a stage input whose source is another stage's output.
+Roots, strongest first: supply pin off its rail (headroom.supply-pin-off-rail), input without DC path
+(headroom.no-bias-path), feedback missing or
+positive (stability.feedback-sense), output clips (headroom.output-swing error), analysis incomplete
+(coverage.not-evaluated). Later stages are found through the
+analysis: a stage input whose source is another stage's output.
 """
 
 from __future__ import annotations
@@ -19,17 +20,14 @@ from afecheck.engine.finding import Finding, Severity
 if TYPE_CHECKING:
     from afecheck.analysis.results import DesignAnalysis
 
-ROOT_RULES: tuple[str, ...] = (
-    "headroom.supply-rail", "headroom.dc-bias-path", "stability.feedback-sense", "headroom.output-swing",
-    "coverage.not-evaluated",
-)
+ROOT_RULES: tuple[str, ...] = ("headroom.supply-pin-off-rail", "headroom.no-bias-path", "stability.feedback-sense",
+                               "headroom.output-swing", "coverage.not-evaluated")
 # Rules whose findings on a later stage rest on the signal an earlier stage passes on.
-SIGNAL_RULES = frozenset({
-    "coverage.not-evaluated", "loading.inverting-input", "loading.input-divider", "accuracy.bias-offset",
-    "headroom.input-common-mode", "headroom.output-swing", "headroom.output-current",
-    "distortion.input-pair-transition", "distortion.common-mode-error", "distortion.loop-gain-at-fmax",
-    "distortion.slew-rate", "distortion.near-swing-limit", "distortion.impedance-balance",
-})
+SIGNAL_RULES = frozenset({"coverage.not-evaluated", "loading.inverting-input", "loading.input-divider",
+                          "dc-accuracy.bias-offset", "headroom.input-common-mode", "headroom.output-swing",
+                          "headroom.output-current", "distortion.input-pair-transition", "distortion.common-mode-error",
+                          "distortion.loop-gain-at-fmax", "distortion.slew-rate", "distortion.near-swing-limit",
+                          "distortion.impedance-balance"})
 
 
 def _is_root(f: Finding) -> bool:

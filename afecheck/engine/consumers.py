@@ -2,16 +2,17 @@
 
 Every field the format accepts (``afecheck schema``) must be read by something: an analysis module, a rule, the
 loader, the policy or a reporter. A field no analysis or rule checks yet is registered with :data:`UNCHECKED`;
-rule coverage.declared-unchecked then reports each such field a design declares ("declared, not checked"), so a
-limit written into a design is never silently ignored. A module that starts checking such a field registers itself
-here in place of UNCHECKED, and the finding goes away. ``tests/test_declared_fields.py`` walks the pydantic models
-recursively and fails for a field that is missing here, and checks that every named consumer exists and reads the
-field.
+rule coverage.declared-not-checked then reports each such field a design declares ("declared, not checked"), so a
+limit written into a
+design is never silently ignored. A module that starts checking such a field registers itself here in place of
+UNCHECKED, and the finding goes away. ``tests/test_declared_fields.py`` walks the pydantic models recursively and
+fails for a field that is missing here, and checks that every named consumer exists and reads the field.
 
 Keys are dotted paths from the design's top level: ``*`` for any key of a mapping, ``[]`` for any item of a list,
 ``<kind>`` for one kind of component and ``<*>`` for the fields every component kind shares. Values are a module
-under ``afecheck`` (``analysis.sources``), a rule id (``loading.input-divider``), :data:`TEXT` for free text shown
-to people, :data:`BUDGET_DATA` for data only an unchecked budget would read, or :data:`UNCHECKED`.
+under ``afecheck`` (``analysis.sources``), a rule id (``loading.input-divider``), :data:`TEXT` for free text shown to
+people,
+:data:`BUDGET_DATA` for data only an unchecked budget would read, or :data:`UNCHECKED`.
 """
 
 from __future__ import annotations
@@ -38,8 +39,8 @@ CONSUMERS: dict[str, str | None] = {
     "parts.*.second_pole": "analysis.macromodel", "parts.*.min_stable_gain": "stability.min-stable-gain",
     "parts.*.output_resistance": "analysis.macromodel", "parts.*.input_resistance_diff": "analysis.macromodel",
     "parts.*.input_resistance_cm": "analysis.macromodel", "parts.*.input_capacitance_diff": "analysis.macromodel",
-    "parts.*.input_capacitance_cm": "analysis.macromodel", "parts.*.bias_current": "accuracy.bias-offset",
-    "parts.*.offset_current": "accuracy.bias-offset", "parts.*.offset_voltage": "accuracy.bias-offset",
+    "parts.*.input_capacitance_cm": "analysis.macromodel", "parts.*.bias_current": "dc-accuracy.bias-offset",
+    "parts.*.offset_current": "dc-accuracy.bias-offset", "parts.*.offset_voltage": "dc-accuracy.bias-offset",
     "parts.*.offset_drift": BUDGET_DATA,
     "parts.*.voltage_noise": BUDGET_DATA, "parts.*.voltage_noise_corner": BUDGET_DATA,
     "parts.*.current_noise": BUDGET_DATA,
@@ -87,8 +88,13 @@ CONSUMERS: dict[str, str | None] = {
     "loads.*.adc.full_scale": "distortion.common-mode-error",
     "loads.*.adc.bits": "distortion.common-mode-error", "loads.*.adc.sample_rate": UNCHECKED,
     "loads.*.adc.bipolar": UNCHECKED,
-    "budgets": "accuracy.bias-offset", "budgets.*.offset": "accuracy.bias-offset", "budgets.*.gain_accuracy": UNCHECKED,
+    "budgets": "dc-accuracy.bias-offset", "budgets.*.offset": "dc-accuracy.bias-offset",
+    "budgets.*.gain_accuracy": UNCHECKED,
     "budgets.*.noise": UNCHECKED,
+    # the op-amp map of a SPICE netlist, when it lives in the intent file
+    "netlist": "model.netlist_map", "netlist.components": "model.netlist_map", "netlist.rails": "model.netlist_map",
+    "netlist.subcircuits": "model.netlist_map", "netlist.subcircuits.*.part": "model.netlist_map",
+    "netlist.subcircuits.*.pins": "model.netlist_map",
 }
 
 

@@ -23,11 +23,21 @@ _WINDOWS_DRIVE = re.compile(r"^[A-Za-z]:")
 
 
 def load_design(
-    path: str | Path, intent: str | Path | None = None, libraries: tuple[str | Path, ...] = ()
+    path: str | Path, intent: str | Path | None = None, libraries: tuple[str | Path, ...] = (),
+    input_format: str | None = None, netlist_map: str | Path | None = None,
 ) -> LoadedDesign:
-    """Read, validate and merge a design file, its intent file(s) and part libraries; raise InputError."""
+    """Read, validate and merge a design file (YAML, JSON or a SPICE netlist), its intent file(s) and part
+    libraries; raise InputError."""
+    from afecheck.model.spice_reader import is_netlist
+
     path = Path(path)
-    doc = read_file(path, str(path))
+    if is_netlist(path, input_format):
+        doc = _read_netlist(path, intent, libraries, netlist_map)
+    else:
+        doc = read_file(path, str(path))
+        if netlist_map is not None:
+            raise InputError([Problem(str(netlist_map), None, None, "", "a map file applies to SPICE netlist input "
+                                      f"only, and {path} is read as a YAML/JSON design")])
     if not isinstance(doc.data, dict):
         raise InputError([doc.problem((), "the top level must be a mapping that starts with 'afecheck: 1'")])
     design = validate(doc, Design)
@@ -40,7 +50,7 @@ def load_design(
               for name, model in design.parts.items()]
     parts = combine(groups, inline)
     positions = _positions(doc)
-    design = _merge_intent(design, doc, intents, positions, problems)
+    design = _merge_intent(design, doc, intents, positions, problems, doc.defaults)
     if problems:
         raise InputError(problems)
 
@@ -58,7 +68,24 @@ def load_design(
         positions=positions,
         part_origins=parts.origins,
         intent_files=tuple(d.file for d, _ in intents),
+        notes=doc.notes,
     )
+
+
+def _read_netlist(path: Path, intent: str | Path | None, libraries: tuple[str | Path, ...],
+                  netlist_map: str | Path | None) -> Document:
+    """A SPICE netlist as a design Document; the part names it may map to come from the built-ins and
+    ``libraries`` (a library's own errors are reported where libraries are loaded)."""
+    from afecheck.model.spice_reader import read_netlist
+
+    names = {e.name: e.name for e in builtin_entries()}
+    for lib in libraries:
+        try:
+            names.update({e.name: e.name for e in read_library(Path(lib), str(lib))})
+        except InputError:
+            pass
+    return read_netlist(path, str(path), map_file=netlist_map, intent_files=(intent,) if intent else (),
+                        part_names=names)
 
 
 def _intent_documents(design: Design, doc: Document, intent: str | Path | None,
@@ -139,8 +166,8 @@ def _read_intent(path: Path) -> tuple[Document, Intent]:
 
 def _positions(doc: Document) -> dict[PathKey, tuple[str, int, int]]:
     """Every key path of ``doc`` -> (file, line, column); list items by the position of the item."""
-    positions = {p: (doc.file, line, column) for p, (line, column) in doc.values.items() if p}
-    positions.update({p: (doc.file, line, column) for p, (line, column) in doc.keys.items()})
+    positions = {p: (doc.file_of(p), line, column) for p, (line, column) in doc.values.items() if p}
+    positions.update({p: (doc.file_of(p), line, column) for p, (line, column) in doc.keys.items()})
     return positions
 
 
@@ -159,8 +186,10 @@ def _merge_intent(
     intents: list[tuple[Document, Intent]],
     positions: dict[PathKey, tuple[str, int, int]],
     problems: list[Problem],
+    defaults: frozenset[PathKey] = frozenset(),
 ) -> Design:
-    """The design with each intent file's signals, loads and budgets added; a net declared twice is a problem."""
+    """The design with each intent file's signals, loads and budgets added; a net declared twice is a problem,
+    except where the design's entry is a default (a netlist source's values): the intent's keys then win."""
     if not intents:
         return design
     merged = {section: dict(getattr(design, section)) for section in INTENT_SECTIONS}
@@ -172,6 +201,12 @@ def _merge_intent(
                     by_entry.setdefault(p[:2], {})[p] = (idoc.file, line, column)
         for section in INTENT_SECTIONS:
             for net, entry in getattr(intent, section).items():
+                if net in merged[section] and (section, net) in defaults:
+                    given = {k: getattr(entry, k) for k in entry.model_fields_set}
+                    merged[section][net] = merged[section][net].model_copy(update=given)
+                    positions.update({p: pos for p, pos in by_entry.get((section, net), {}).items()
+                                      if p != (section, net)})
+                    continue
                 if net in merged[section]:
                     file, line, _ = positions.get((section, net), (doc.file, None, None))
                     where = f"{file}:{line}" if line is not None else file

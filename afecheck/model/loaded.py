@@ -30,6 +30,8 @@ class LoadedDesign:
     """Where each part model was defined: ``file:line`` or ``built-in (file)``."""
     intent_files: tuple[str, ...] = ()
     """Intent files merged into ``design`` (their keys' positions point into them)."""
+    notes: tuple[str, ...] = ()
+    """What the reader skipped on purpose (a netlist's analysis commands), for the user to see."""
 
     @cached_property
     def two_pin_by_net(self) -> Mapping[str, tuple[tuple[str, str, str], ...]]:

@@ -11,7 +11,7 @@ from __future__ import annotations
 import bisect
 import json
 import re
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 from itertools import accumulate
 from pathlib import Path
 from typing import Any
@@ -99,6 +99,21 @@ class Document:
     data: Any
     keys: dict[PathKey, Position]
     values: dict[PathKey, Position]
+    origins: dict[PathKey, str] = field(default_factory=dict)
+    """File of a key path that lies in another file than ``file`` (a netlist's includes, its map file)."""
+    defaults: frozenset[PathKey] = frozenset()
+    """Intent entries (section, net) that an intent file may refine rather than conflict with."""
+    notes: tuple[str, ...] = ()
+    """What reading skipped on purpose (a netlist's analysis lines), for the user to see."""
+
+    def file_of(self, path: PathKey) -> str:
+        """The file holding ``path`` (or its deepest known parent)."""
+        key = tuple(path)
+        while key:
+            if key in self.origins:
+                return self.origins[key]
+            key = key[:-1]
+        return self.file
 
     def where(self, path: PathKey) -> Position | None:
         """Position of the deepest known part of ``path``: a container's key line, else the value itself."""
@@ -116,7 +131,7 @@ class Document:
         """A Problem at ``path`` in this file."""
         pos = self.where(path)
         line, column = pos if pos else (1, None)
-        return Problem(self.file, line, column, ".".join(str(p) for p in path), message)
+        return Problem(self.file_of(path), line, column, ".".join(str(p) for p in path), message)
 
 
 def read_file(path: Path, display: str | None = None) -> Document:

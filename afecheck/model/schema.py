@@ -8,7 +8,7 @@ unknown keys, so a typo in a design file is an input error, never a silently ign
 from __future__ import annotations
 
 import datetime
-from typing import Annotated, Literal, Union
+from typing import Annotated, Any, Literal, Union
 
 from pydantic import BaseModel, BeforeValidator, ConfigDict, Field, WithJsonSchema, field_validator, model_validator
 
@@ -241,6 +241,30 @@ class Budget(_Strict):
 Hazard = Literal["mains", "high-voltage", "patient-connected", "hazardous-area"]
 
 
+class SubcircuitMap(_Strict):
+    """How X instances of one SPICE subcircuit become op-amps: the part model, and an afecheck pin per port."""
+
+    part: str = Field(min_length=1, description="part model name (built-in, --parts library)")
+    pins: tuple[Literal["in+", "in-", "out", "v+", "v-"] | None, ...] | None = Field(
+        default=None, description="afecheck pin of each subcircuit port in order (null: port not used); "
+                                  "omit when the .subckt port names say what they are")
+
+
+class NetlistMapBody(_Strict):
+    """What a SPICE netlist cannot say: op-amp subcircuits, and refinements of its elements and rails."""
+
+    subcircuits: dict[str, SubcircuitMap] = Field(default={}, description="subcircuit name or glob pattern -> op-amp")
+    components: dict[str, dict[str, Any]] = Field(
+        default={}, description="element name -> design fields added to it (tolerance, dielectric, kind: ntc ...)")
+    rails: dict[NetName, dict[str, Any]] = Field(default={}, description="rail net -> fields added (tolerance ...)")
+
+
+class NetlistMap(NetlistMapBody):
+    """A map file for SPICE netlist input (``--map``)."""
+
+    afecheck_map: Literal[1] = Field(alias="afecheck-map", description="map file format version")
+
+
 class Intent(_Strict):
     """Design intent that may live in its own file keyed by net name."""
 
@@ -248,6 +272,7 @@ class Intent(_Strict):
     signals: dict[NetName, Signal] = {}
     loads: dict[NetName, Load] = {}
     budgets: dict[NetName, Budget] = {}
+    netlist: NetlistMapBody | None = Field(default=None, description="map for SPICE netlist input (as --map)")
 
 
 class Design(_Strict):

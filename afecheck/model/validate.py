@@ -36,7 +36,7 @@ def validation_problems(doc: Document, exc: ValidationError, model: type[BaseMod
         leaf = not isinstance(value, (dict, list)) and kind != "extra_forbidden"
         pos = doc.values.get(path) if leaf and path in doc.values else doc.where(path)
         line, column = pos if pos else (1, None)
-        problems.append(Problem(doc.file, line, column, ".".join(str(p) for p in path), message))
+        problems.append(Problem(doc.file_of(path), line, column, ".".join(str(p) for p in path), message))
     return sorted(problems, key=lambda p: (p.line or 0, p.column or 0, p.path))
 
 

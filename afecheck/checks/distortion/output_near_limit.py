@@ -35,7 +35,7 @@ def check(ctx: Context) -> Iterator[Finding]:
             ("lowest", s.low_required, s.low_limit, s.low_required - s.low_limit),
         ):
             if grade_headroom(margin, band, value, limit, stage.rail_plus, stage.rail_minus) != Severity.WARNING:
-                continue  # beyond the limit: headroom.output-swing; inside the band by print precision: no warning
+                continue  # beyond the limit is headroom.output-swing's; inside by print precision is no warning
             margin = snap(margin, value, limit, stage.rail_plus, stage.rail_minus)
             text = (f"{stage.opamp} output reaches {fmt(value, 'V')} on {stage.out}, only {fmt(margin, 'V')} inside "
                     f"its {name} swing limit {fmt(limit, 'V')} at this load (band {fmt(band, 'V')})")

@@ -1,5 +1,4 @@
-"""headroom.dc-bias-path: an op-amp input with no DC path to a defined voltage (capacitors open): it drifts to
-a rail at power-up."""
+"""An op-amp input with no DC path to a defined voltage (capacitors open): it drifts to a rail at power-up."""
 
 from __future__ import annotations
 
@@ -13,7 +12,7 @@ from afecheck.engine.finding import Finding, Severity
 from afecheck.engine.rule import RuleMeta
 
 META = RuleMeta(
-    id="headroom.dc-bias-path", slug="input-without-dc-bias-path", severity=Severity.ERROR, family="headroom",
+    id="headroom.no-bias-path", slug="input-without-dc-bias-path", severity=Severity.ERROR, family="headroom",
     summary="an op-amp input has no DC path to a defined voltage, so its bias current charges it to a rail",
     fix="add a resistor from the input to the reference it should sit at (ground, mid-rail), sized so that bias "
         "current times it stays inside the offset budget",

@@ -1,5 +1,4 @@
-"""headroom.supply-rail: an op-amp supply pin on a net that is no declared rail (a misspelt rail name, a forgotten
-rail)."""
+"""An op-amp supply pin on a net that is no declared rail (a misspelt rail name, a forgotten rail)."""
 
 from __future__ import annotations
 
@@ -12,7 +11,7 @@ from afecheck.engine.finding import Finding, Severity
 from afecheck.engine.rule import RuleMeta
 
 META = RuleMeta(
-    id="headroom.supply-rail", slug="supply-pin-off-rail", severity=Severity.ERROR, family="headroom", needs=(),
+    id="headroom.supply-pin-off-rail", slug="supply-pin-off-rail", severity=Severity.ERROR, family="headroom", needs=(),
     summary="an op-amp supply pin sits on a net that is not a declared rail of known voltage",
     fix="connect the pin to the intended rail, or declare the net under `rails:` with its voltage and tolerance",
 )

@@ -1,6 +1,6 @@
-"""accuracy.bias-offset: input bias current through the source resistance of a non-inverting input offsets the output.
+"""Input bias current through the source resistance of a non-inverting input offsets the output.
 
-A DC-accuracy rule (family ``accuracy``): with an offset budget declared on the output it is judged against the
+A DC-accuracy rule (family ``dc-accuracy``): with an offset budget declared on the output it is judged against the
 budget; without one, against the part's own offset error at the output, NG·Vos, because a bias term smaller than
 the offset the part brings anyway is no design mistake.
 """
@@ -17,7 +17,7 @@ from afecheck.engine.finding import Finding, Severity
 from afecheck.engine.rule import Param, RuleMeta
 
 META = RuleMeta(
-    id="accuracy.bias-offset", slug="bias-current-offsets-output", severity=Severity.ERROR, family="accuracy",
+    id="dc-accuracy.bias-offset", slug="bias-current-offsets-output", severity=Severity.ERROR, family="dc-accuracy",
     summary="input bias current through the source resistance offsets a non-inverting stage's output",
     params=(
         Param("budget_warn", 0.25, "1", "share of the declared offset budget above which a warning is raised"),

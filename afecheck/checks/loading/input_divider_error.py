@@ -1,5 +1,4 @@
-"""loading.input-divider: a non-inverting input's common-mode impedance divides the source signal (Rcm at DC, Ccm
-at f_max).
+"""A non-inverting input's common-mode impedance divides the source signal (Rcm at DC, Ccm at f_max).
 
 The loss is the change of the amplitude |H| = |Zin/(Rs + Zin)| from 1, not the length of the error vector
 Rs/(Rs + Zin): a pole 159 times above the band shifts the phase by a third of a degree but the amplitude by
