@@ -227,3 +227,10 @@ def recording_reads() -> Iterator[list[str]]:
         yield reads
     finally:
         _READS.reset(token)
+
+
+def note_reads(paths: list[str]) -> None:
+    """Add files another process read on this run's behalf (a worker of ``check --jobs``) to the recording."""
+    reads = _READS.get()
+    if reads is not None:
+        reads.extend(paths)
