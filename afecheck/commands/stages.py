@@ -30,6 +30,8 @@ def run(args: argparse.Namespace, stdout: TextIO, stderr: TextIO) -> int:
     from afecheck.model.load import load_design
 
     loaded = load_design(args.file, intent=args.intent, libraries=tuple(args.parts), **netlist_options(args))
+    for note in loaded.notes:
+        print(f"note: {note}", file=stderr)
     analysis = analyse(loaded)
     if args.json:
         stdout.write(render_json(loaded.design.name, loaded.file, analysis))
