@@ -150,12 +150,16 @@ def review_files(
     baseline: str | Path | None = None,
     today: dt.date | None = None,
     registry: Any = None,
+    detail: str = "none",
     input_format: str | None = None,
     netlist_map: str | Path | None = None,
     on_note: Any = None,
 ) -> Report:
     """Check every design under its policy (``config``, else a discovered ``.afecheck.yaml`` when ``discover``),
     apply waivers and the baseline, and return the report data. Bad input of any file raises one InputError.
+
+    ``detail``: ``"stages"`` adds each stage's numbers and headroom to the report data, ``"curves"`` also its
+    frequency responses (for the reports that draw plots); ``"none"`` keeps the check path lean.
     ``input_format``/``netlist_map`` say how to read SPICE netlists; ``on_note(text)`` hears what a reader skipped."""
     from afecheck import __version__
     from afecheck.engine.runner import run_rules
@@ -201,7 +205,15 @@ def review_files(
                                  netlist_map=netlist_map)
             for note in loaded.notes if on_note is not None else ():
                 on_note(note)
-            findings = promote(run_rules(loaded, registry=reg, **policy.run_options(runnable)), policy.promote)
+            options = policy.run_options(runnable)
+            analysis, curves = None, {}
+            if detail != "none":
+                from afecheck.views import analyse_for_views
+
+                analysis, curves = analyse_for_views(loaded, "curves" if detail == "curves" else "stages")
+                if analysis is not None:
+                    options["analysis"] = analysis
+            findings = promote(run_rules(loaded, registry=reg, **options), policy.promote)
             inline = inline_waivers(loaded, catalogue)
             inline_all.extend(inline)
             waivers = cli_waivers + waivers_of(policy.waiver_files) + inline
@@ -216,10 +228,15 @@ def review_files(
         for w in waivers:
             if w.key in review.expired:
                 expired.setdefault(w.key, w)
+        rules_run = tuple(m.id for m in catalogue.metas if m.id not in policy.disabled)
+        views = ()
+        if analysis is not None:
+            from afecheck.views import stage_views
+
+            views = stage_views(loaded, analysis, curves, options["params"], rules_run)
         designs.append(DesignResult(
             file=loaded.file, name=name, hazards=tuple(loaded.design.hazards), entries=review.entries,
-            stages=opamps, ruleset=policy.ruleset, config=policy.config,
-            rules_run=tuple(m.id for m in catalogue.metas if m.id not in policy.disabled),
+            stages=opamps, ruleset=policy.ruleset, config=policy.config, rules_run=rules_run, stage_views=views,
         ))
     if problems:
         raise InputError(list(dict.fromkeys(problems)))  # a bad config shared by several designs is said once

@@ -73,3 +73,12 @@ def test_marked_outputs_are_what_the_commands_print(monkeypatch: pytest.MonkeyPa
                 f"{doc.name}: the block under `{command}` no longer matches its output:\n" + "\n".join(printed))
             checked += 1
     assert checked >= 1
+
+
+def test_readme_rule_table_lists_every_registered_rule() -> None:
+    from afecheck.engine.registry import default_registry
+
+    text = (ROOT / "README.md").read_text(encoding="utf-8")
+    table = text[text.index("| family | rules |"):].split("\n\n", 1)[0]
+    listed = set(re.findall(r"`([a-z-]+\.[a-z0-9-]+)`", table))
+    assert listed == {m.id for m in default_registry().metas()}

@@ -16,7 +16,7 @@ import pytest
 from fixtures.rules import kit
 
 from afecheck.analysis import analyse
-from afecheck.checks.common import grade_above, grade_below
+from afecheck.checks.common import grade_above, grade_below, noise_floor, print_tolerance
 from afecheck.checks.distortion import (
     class2_ceramic,
     common_mode_swing,
@@ -33,6 +33,13 @@ from afecheck.model.load import load_design
 
 RULES = Path(__file__).resolve().parents[1] / "rules"
 UP, DOWN = math.inf, -math.inf
+
+
+def past(limit: float, direction: float) -> float:
+    """The first float beyond a limit as the rules read it: a value within print precision (or round-off) of a
+    limit prints as the limit and meets it (afecheck.checks.common.print_tolerance), so "beyond" starts there."""
+    step = max(print_tolerance(limit), noise_floor(limit))
+    return math.nextafter(limit + math.copysign(step, direction), direction)
 W, E = Severity.WARNING, Severity.ERROR
 
 
@@ -52,10 +59,10 @@ def _severities(module, loaded, analysis, params) -> list[Severity]:
 
 
 def test_grade_helpers_at_their_exact_limits() -> None:
-    assert grade_above(1.0, 1.0, 2.0) is None and grade_above(math.nextafter(1.0, UP), 1.0, 2.0) == W
-    assert grade_above(2.0, 1.0, 2.0) == W and grade_above(math.nextafter(2.0, UP), 1.0, 2.0) == E
-    assert grade_below(2.0, 2.0, 1.0) is None and grade_below(math.nextafter(2.0, DOWN), 2.0, 1.0) == W
-    assert grade_below(1.0, 2.0, 1.0) == W and grade_below(math.nextafter(1.0, DOWN), 2.0, 1.0) == E
+    assert grade_above(1.0, 1.0, 2.0) is None and grade_above(past(1.0, UP), 1.0, 2.0) == W
+    assert grade_above(2.0, 1.0, 2.0) == W and grade_above(past(2.0, UP), 1.0, 2.0) == E
+    assert grade_below(2.0, 2.0, 1.0) is None and grade_below(past(2.0, DOWN), 2.0, 1.0) == W
+    assert grade_below(1.0, 2.0, 1.0) == W and grade_below(past(1.0, DOWN), 2.0, 1.0) == E
 
 
 def _share_103(f, loaded, analysis) -> float:
@@ -92,24 +99,24 @@ def test_warning_and_error_limits_exactly(rule_id, module, graded, warn, err, wo
     far = 1e300 if worse == UP else -1e300  # an error limit the value cannot reach
     # warning limit exactly at the value: passes; one float toward "better": a warning
     assert _severities(module, loaded, analysis, {warn: v, err: far}) == []
-    assert _severities(module, loaded, analysis, {warn: math.nextafter(v, better), err: far}) == [W]
+    assert _severities(module, loaded, analysis, {warn: past(v, better), err: far}) == [W]
     # error limit exactly at the value: a warning only; one float toward "better": an error
     loose = -far
     assert _severities(module, loaded, analysis, {warn: loose, err: v}) == [W]
-    assert _severities(module, loaded, analysis, {warn: loose, err: math.nextafter(v, better)}) == [E]
+    assert _severities(module, loaded, analysis, {warn: loose, err: past(v, better)}) == [E]
 
 
 def test_bias_offset_share_limits_exactly() -> None:
-    loaded, analysis = _bad("loading.bias-offset")
+    loaded, analysis = _bad("dc-accuracy.bias-offset")
     (f,) = _run(bias_current_offset, loaded, analysis)
     share = _share_103(f, loaded, analysis)
     budget = "budget" in f.ctx["limit_source"]
     warn, err = ("budget_warn", "budget_error") if budget else ("warn_fraction", "error_fraction")
     sev = lambda p: sorted({x.severity for x in _run(bias_current_offset, loaded, analysis, p)})  # noqa: E731
     assert sev({warn: share, err: 1e300}) == []
-    assert sev({warn: math.nextafter(share, DOWN), err: 1e300}) == [W]
+    assert sev({warn: past(share, DOWN), err: 1e300}) == [W]
     assert sev({warn: 0.0, err: share}) == [W]
-    assert sev({warn: 0.0, err: math.nextafter(share, DOWN)}) == [E]
+    assert sev({warn: 0.0, err: past(share, DOWN)}) == [E]
 
 
 @pytest.mark.parametrize(("rule_id", "module", "param"), [
@@ -145,7 +152,7 @@ def test_common_mode_warning_band_exactly() -> None:
     st = kit.stage(vcm_min=1.0, vcm_max=3.4)
     margin = (5.0 - 1.5) - 3.4  # the rule's own arithmetic: V+ - input_cm_high - highest common mode
     assert kit.run(input_common_mode, loaded, [st], params={"warn_band": margin}) == []
-    found = kit.run(input_common_mode, loaded, [st], params={"warn_band": math.nextafter(margin, UP)})
+    found = kit.run(input_common_mode, loaded, [st], params={"warn_band": past(margin, UP)})
     assert [(f.severity, f.ctx["margin"]) for f in found] == [(W, margin)]
 
 
@@ -158,7 +165,7 @@ def test_margin_bands_exactly(rule_id, module, param) -> None:
     assert margin >= 0
     same = lambda fs: [f for f in fs if f.ctx["margin"] == margin]  # noqa: E731
     assert same(_run(module, loaded, analysis, {param: margin})) == []
-    assert [f.severity for f in same(_run(module, loaded, analysis, {param: math.nextafter(margin, UP)}))] == [W]
+    assert [f.severity for f in same(_run(module, loaded, analysis, {param: past(margin, UP)}))] == [W]
 
 
 def test_common_mode_error_limit_exactly() -> None:
@@ -185,7 +192,7 @@ def test_input_common_mode_error_at_zero_margin_exactly() -> None:
     loaded = kit.design()
     at = kit.stage(vcm_min=1.0, vcm_max=limit)
     assert [f.severity for f in kit.run(input_common_mode, loaded, [at])] == [W]
-    beyond = kit.stage(vcm_min=1.0, vcm_max=math.nextafter(limit, UP))
+    beyond = kit.stage(vcm_min=1.0, vcm_max=past(limit, UP))
     assert [f.severity for f in kit.run(input_common_mode, loaded, [beyond])] == [E]
 
 
@@ -196,7 +203,7 @@ def test_output_swing_at_zero_margin_exactly() -> None:
     loaded = kit.design()
     high = 5.0 - 0.1 - 50.0 * 0.0
     at = kit.stage(vout_min=1.0, vout_max=high, iout_peak=0.0)
-    beyond = kit.stage(vout_min=1.0, vout_max=math.nextafter(high, UP), iout_peak=0.0)
+    beyond = kit.stage(vout_min=1.0, vout_max=past(high, UP), iout_peak=0.0)
     assert kit.run(output_swing, loaded, [at]) == []
     assert [f.severity for f in kit.run(output_near_limit, loaded, [at])] == [W]
     assert [f.severity for f in kit.run(output_swing, loaded, [beyond])] == [E]

@@ -149,6 +149,16 @@ def run(args: argparse.Namespace, stdout: TextIO, stderr: TextIO) -> int:
     plan = _plan(args, stderr)
     if plan is None:
         return EXIT_INPUT
+    formats = {str(fmt) for fmt, _ in plan}
+    if "html" in formats:
+        from afecheck.report.html import missing_dependencies
+
+        missing = missing_dependencies()
+        if missing:
+            print(f"afecheck: error: --format html needs {' and '.join(missing)}, which are not installed; "
+                  "install them with: pip install 'afecheck[html]'", file=stderr)
+            return EXIT_INPUT
+    detail = "curves" if "html" in formats else "stages" if "markdown" in formats else "none"
     files = [str(path) for _fmt, path in plan if path is not None]
     with recording_reads() as reads:
         check_outputs(files, input_paths(args))  # the inputs named on the command line, before the long part
@@ -157,7 +167,7 @@ def run(args: argparse.Namespace, stdout: TextIO, stderr: TextIO) -> int:
             if not args.files:
                 print("afecheck: no design files among the files given", file=stderr)
                 return 0
-        report = review_files(args.files, fail_on=args.fail_on, baseline=args.baseline,
+        report = review_files(args.files, fail_on=args.fail_on, baseline=args.baseline, detail=detail,
                               on_note=lambda note: print(f"note: {note}", file=stderr), **review_options(args))
     rendered = [(path, render(report, str(fmt), color=path is None and use_color(args.color, stdout)))
                 for fmt, path in plan]

@@ -14,7 +14,7 @@ from importlib import metadata
 from types import ModuleType
 from typing import Any
 
-from afecheck.checks import coverage
+from afecheck.checks import coverage, declared
 from afecheck.checks.distortion import (
     class2_ceramic,
     common_mode_swing,
@@ -24,7 +24,7 @@ from afecheck.checks.distortion import (
     slew_rate,
     transition_region,
 )
-from afecheck.checks.headroom import input_common_mode, output_current, output_swing
+from afecheck.checks.headroom import floating_input, input_common_mode, output_current, output_swing, supply_rail
 from afecheck.checks.loading import bias_current_offset, input_divider_error, inverting_source_loading
 from afecheck.checks.stability import feedback_sign, gain_margin, min_stable_gain, phase_margin
 from afecheck.engine.aliases import current_id, retired
@@ -41,12 +41,13 @@ CRASH_META = RuleMeta(
 )
 
 _BUILTIN_MODULES: tuple[ModuleType, ...] = (
-    coverage,
+    coverage, declared,
     inverting_source_loading, input_divider_error, bias_current_offset,
     phase_margin, min_stable_gain, gain_margin, feedback_sign,
     input_common_mode, output_swing, output_current,
     transition_region, common_mode_swing, loop_gain_at_fmax, slew_rate, output_near_limit, class2_ceramic,
     input_impedance_imbalance,
+    floating_input, supply_rail,
 )
 
 BUILTIN_RULES: tuple[Rule, ...] = tuple(Rule(m.META, m.check) for m in _BUILTIN_MODULES)
