@@ -161,3 +161,20 @@ def test_sample_locations_in_sarif_junit_markdown_and_text() -> None:
         _, out, _ = run_cli("check", "--format", fmt, *base)
         for _, _, line in EXPECTED:
             assert f"hive_scale.cir:{line}" in out, fmt
+
+
+def test_map_schema_and_model_accept_the_documented_map() -> None:
+    jsonschema = pytest.importorskip("jsonschema")
+    import yaml
+
+    from afecheck.commands.schema import schema_for
+    from afecheck.model.schema import NetlistMap
+
+    docs = (ROOT / "docs" / "SPICE-IMPORT.md").read_text(encoding="utf-8")
+    example = yaml.safe_load(docs.split("```yaml\n", 1)[1].split("```", 1)[0])
+    jsonschema.Draft202012Validator(schema_for("map")).validate(example)
+    assert NetlistMap.model_validate(example).subcircuits["VENDOR_AMP"].pins[-1] is None
+    intent = yaml.safe_load(SAMPLE_INTENT.read_text(encoding="utf-8"))
+    jsonschema.Draft202012Validator(schema_for("intent")).validate(intent)
+    with pytest.raises(jsonschema.ValidationError):
+        jsonschema.Draft202012Validator(schema_for("map")).validate({"afecheck-map": 1, "subcircuits": {"X": {}}})
