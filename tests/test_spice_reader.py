@@ -113,6 +113,13 @@ def test_notes_for_ignored_cards(tmp_path: Path) -> None:
     assert loaded.design.components["R1"].value == pytest.approx(1e-3)
 
 
+def test_a_card_on_the_title_line_is_noted(tmp_path: Path) -> None:
+    deck = write(tmp_path, "t.cir", "R9 a 0 1k\nV1 a 0 1\nR1 a 0 2k\n")
+    loaded = load_design(deck)
+    assert "R9" not in loaded.design.components and any("line 1 of a SPICE netlist is its title" in n
+                                                         for n in loaded.notes)
+
+
 def test_a_map_with_a_yaml_design_is_refused(tmp_path: Path) -> None:
     netmap = write(tmp_path, "m.yaml", "afecheck-map: 1\n")
     with pytest.raises(InputError, match="applies to SPICE netlist input only"):
