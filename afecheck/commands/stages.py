@@ -34,6 +34,8 @@ def run(args: argparse.Namespace, stdout: TextIO, stderr: TextIO) -> int:
     from afecheck.model.load import load_design
 
     loaded = load_design(args.file, intent=args.intent, libraries=tuple(args.parts), **netlist_options(args))
+    for note in loaded.notes:
+        print(f"note: {note}", file=stderr)
     if args.curves:
         from afecheck.analysis.curves import design_curves
 

@@ -79,6 +79,10 @@ CONSUMERS: dict[str, str | None] = {
     "components.*.<signal_source>.band": "analysis.signals",
     "components.*.<signal_source>.source_resistance": "analysis.sources",
     "components.*.<signal_source>.tolerance": BUDGET_DATA,
+    # intent: the map for SPICE netlist input
+    "netlist": "model.netlist_map", "netlist.subcircuits": "model.netlist_map",
+    "netlist.subcircuits.*.part": "model.netlist_map", "netlist.subcircuits.*.pins": "model.netlist_map",
+    "netlist.components": "model.netlist_map", "netlist.rails": "model.netlist_map",
     # intent: signals, loads, budgets
     "signals": "graph.build", "signals.*.dc": "analysis.signals", "signals.*.ac_amplitude": "analysis.signals",
     "signals.*.band": "analysis.signals", "signals.*.source_resistance": "analysis.sources",
@@ -91,10 +95,6 @@ CONSUMERS: dict[str, str | None] = {
     "budgets": "dc-accuracy.bias-offset", "budgets.*.offset": "dc-accuracy.bias-offset",
     "budgets.*.gain_accuracy": UNCHECKED,
     "budgets.*.noise": UNCHECKED,
-    # the op-amp map of a SPICE netlist, when it lives in the intent file
-    "netlist": "model.netlist_map", "netlist.components": "model.netlist_map", "netlist.rails": "model.netlist_map",
-    "netlist.subcircuits": "model.netlist_map", "netlist.subcircuits.*.part": "model.netlist_map",
-    "netlist.subcircuits.*.pins": "model.netlist_map",
 }
 
 
