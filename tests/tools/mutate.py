@@ -184,10 +184,12 @@ def _pytest(work: Path, tests: list[str]) -> bool:
     return proc.returncode == 0  # 1: a test failed; 2: collection broke (the mutant does not import)
 
 
-def run(sample: int | None, seed: int, report: Path | None) -> float:
+def run(sample: int | None, seed: int, report: Path | None, ids: list[str] | None = None) -> float:
     files = sorted(p for t in TARGETS for p in (ROOT / t).rglob("*.py") if p.name != "__init__.py")
     every = mutants(files)
     chosen = random.Random(seed).sample(every, sample) if sample and sample < len(every) else every
+    if ids:
+        chosen = [m for m in every if m.id in set(ids)]
     print(f"{len(every)} mutants in {len(files)} files; running {len(chosen)} (seed {seed})", flush=True)
     results = []
     with tempfile.TemporaryDirectory(prefix="afecheck-mutants-") as tmp:
@@ -229,13 +231,14 @@ def main(argv: list[str] | None = None) -> int:
     ap.add_argument("--floor", type=float, default=0.0, help="fail below this kill rate (0..1)")
     ap.add_argument("--json", type=Path, default=None, help="write every result here")
     ap.add_argument("--list", action="store_true", help="only count the mutants")
+    ap.add_argument("--ids", nargs="*", default=None, help="run only these mutant ids (to re-check survivors)")
     args = ap.parse_args(argv)
     if args.list:
         files = sorted(p for t in TARGETS for p in (ROOT / t).rglob("*.py") if p.name != "__init__.py")
         every = mutants(files)
         print(len(every))
         return 0
-    rate = run(args.sample, args.seed, args.json)
+    rate = run(args.sample, args.seed, args.json, args.ids)
     return 0 if rate >= args.floor else 1
 
 
