@@ -29,14 +29,19 @@ pytestmark = [pytest.mark.ngspice, pytest.mark.reference, needs_ngspice]
 DECKS = sorted(CASES.glob("*.cir"))
 # Disagreements with ngspice that afecheck still has; strict, so that the fix turns them into failures to remove.
 KNOWN_GAPS = {
-    "integrator_reset_capacitor_only": "afecheck reports no phase margin for an integrator without a DC feedback "
-                                       "path (T(0) = 0 reads as 'no feedback'), though its loop crosses over",
+    ("integrator_reset_capacitor_only", "loop"):
+        "afecheck reports no phase margin for an integrator without a DC feedback path (T(0) = 0 reads as "
+        "'no feedback'), though its loop crosses over",
+    ("bridge_outputs_last_writer", "dc"):
+        "a net between two op-amp outputs takes the DC range of whichever stage is solved last, which holds the "
+        "other output at its middle value (MID reads 0.6 V only)",
 }
 
 
-def _with_gaps(paths: list[Path]) -> list:
-    return [pytest.param(p, marks=pytest.mark.xfail(strict=True, reason=KNOWN_GAPS[p.stem]))
-            if p.stem in KNOWN_GAPS else p for p in paths]
+def _with_gaps(paths: list[Path], kind: str) -> list:
+    """The cases, those with a known gap in this kind of comparison ("dc" or "loop") marked strict xfail."""
+    return [pytest.param(p, marks=pytest.mark.xfail(strict=True, reason=KNOWN_GAPS[(p.stem, kind)]))
+            if (p.stem, kind) in KNOWN_GAPS else p for p in paths]
 
 
 def _case(deck_path: Path):
@@ -57,7 +62,7 @@ def test_at_least_thirty_cases_cover_every_topology_and_source_kind() -> None:
     assert {"signal", "signal-source", "divider", "ntc-divider", "rail", "vsource", "stage-output"} <= kinds
 
 
-@pytest.mark.parametrize("deck_path", DECKS, ids=lambda p: p.stem)
+@pytest.mark.parametrize("deck_path", _with_gaps(DECKS, "dc"), ids=lambda p: p.stem)
 def test_dc_ranges_gains_and_loading_match_hand_deck(deck_path: Path, tmp_path: Path) -> None:
     loaded, result, deck = _case(deck_path)
     d = directives(deck)
@@ -88,8 +93,10 @@ def test_dc_ranges_gains_and_loading_match_hand_deck(deck_path: Path, tmp_path: 
             assert inp.input_resistance == pytest.approx(r_seen - d.rs[net], rel=1e-4), (opamp, net, "Rin")
 
 
-@pytest.mark.parametrize("deck_path", _with_gaps([p for p in DECKS if directives(p.read_text(encoding="ascii")).loops]),
-                         ids=lambda p: p.stem)
+LOOP_DECKS = [p for p in DECKS if directives(p.read_text(encoding="ascii")).loops]
+
+
+@pytest.mark.parametrize("deck_path", _with_gaps(LOOP_DECKS, "loop"), ids=lambda p: p.stem)
 def test_crossover_and_margins_match_hand_deck(deck_path: Path, tmp_path: Path) -> None:
     _, result, deck = _case(deck_path)
     stages = {s.opamp: s for s in result.stages}
