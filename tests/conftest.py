@@ -16,7 +16,7 @@ import pytest
 EXTERNALS = {
     "ngspice": "ngspice is not on PATH (Debian: apt-get install ngspice; .ci/run installs it)",
     "browser": "no web browser for the browser tests",
-    "sarif": "the official SARIF 2.1.0 schema (vendored in tests/data)",
+    "sarif": "the official SARIF 2.1.0 schema (vendored in tests/schemas)",
 }
 
 

@@ -22,7 +22,7 @@ CASES = Path(__file__).parent / "reference" / "cases"
 
 def test_signal_source_resistance_reaches_the_stage_gain_and_the_loading_rule() -> None:
     # kills: dropping a signal_source component's source resistance from the netlist (gain -0.667 -> -1.000 while
-    # AFE101 kept printing 33.3 % from the declared value). Hand value: inverting gain -R2/(Rs + R1)
+    # loading.inverting-input kept printing 33.3 % from the declared value). Hand value: inverting gain -R2/(Rs + R1)
     # = -10k/(5k + 10k) = -0.6667 (ideal op-amp, Ohm and Kirchhoff); A0 = 1e5 at noise gain 2.5 moves it by
     # 2.5e-5 relative, so 1e-4 allowed. Loading error Rs/(Rs + R1) = 1/3.
     path = CASES / "inverting_signal_source.yaml"
@@ -30,7 +30,7 @@ def test_signal_source_resistance_reaches_the_stage_gain_and_the_loading_rule() 
     (inp,) = [i for i in stage.inputs if i.net == "IN"]
     assert inp.gain == pytest.approx(-10e3 / 15e3, rel=1e-4)
     assert inp.loading_error_max == pytest.approx(5e3 / 15e3, rel=1e-4)
-    (finding,) = [f for f in check_file(path).findings if f.rule == "AFE101"]
+    (finding,) = [f for f in check_file(path).findings if f.rule == "loading.inverting-input"]
     assert finding.ctx["value"] == inp.loading_error_max
     assert "33.3 %" in finding.message
 
@@ -71,7 +71,7 @@ def test_peak_output_current_includes_the_load_capacitor(tmp_path: Path) -> None
 ])
 def test_slew_rate_comparison_at_its_exact_boundaries(factor: float, severity: Severity | None) -> None:
     # kills: moving the slew-rate comparison across its exact boundary (< for <=, >= for >). The limits are
-    # AFE404's defaults: error below 1x and warning below 2x of 2π·f·Vpk (common practice, rule page).
+    # distortion.slew-rate's defaults: error below 1x and warning below 2x of 2π·f·Vpk (common practice, rule page).
     required = 2 * math.pi * 20e3 * 2.0
     loaded = kit.design(part={"slew_rate": factor * required})
     st = kit.stage(f_max=20e3, vout_ac_peak=2.0, required_slew_rate=required)

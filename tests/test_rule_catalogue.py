@@ -12,11 +12,14 @@ import pytest
 import yaml
 
 from afecheck.engine.registry import BUILTIN_RULES, default_registry, retired_ids
+from afecheck.engine.rule import RULE_ID
 from afecheck.engine.runner import run_rules
 from afecheck.model.load import load_design
 
 CATALOGUE = resources.files("afecheck._catalogue")
-SECTIONS = ["What it checks", "Why it matters", "Example", "Parameters", "Known limitations", "References"]
+SECTIONS = [
+    "In the circuit", "On the bench", "Flagged and passing", "Limits and their sources", "Blind spots", "Sources",
+]
 METAS = default_registry().metas()
 WITH_EXAMPLES = [r.meta for r in BUILTIN_RULES]
 
@@ -28,21 +31,38 @@ def page(meta) -> str:
 @pytest.mark.parametrize("meta", METAS, ids=lambda m: m.id)
 def test_rule_page_follows_the_template(meta) -> None:
     text = page(meta)
-    assert text.splitlines()[0] == f"# {meta.id} {meta.slug}"
+    assert text.splitlines()[0] == f"# {meta.id}"
+    assert f"Name: `{meta.slug}`." in text.splitlines()[2] and f"Family: {meta.family}." in text.splitlines()[2]
     assert re.findall(r"^## (.+)$", text, flags=re.M) == SECTIONS
-    example = text.split("## Example", 1)[1].split("## Parameters", 1)[0]
-    assert example.index("Bad:") < example.index("Use instead:")
-    params = text.split("## Parameters", 1)[1].split("## Known limitations", 1)[0]
+    example = text.split("## Flagged and passing", 1)[1].split("## Limits and their sources", 1)[0]
+    assert example.index("Flagged") < example.index("Passing")
+    params = text.split("## Limits and their sources", 1)[1].split("## Blind spots", 1)[0]
     assert set(re.findall(r"`(\w+)`", params)) == {p.name for p in meta.params}
 
 
+BORROWED_HEADINGS = ("What it checks", "Why it matters", "Use instead")
+SHIPPED_DOCS = {"README.md", "DEVELOPERS.md", "docs/"}
+
+
+@pytest.mark.parametrize("meta", METAS, ids=lambda m: m.id)
+def test_rule_page_uses_no_borrowed_headings_and_cites_only_what_readers_have(meta) -> None:
+    """Pages cite published sources by author and title; the internal worksheet is not shipped, so never cited."""
+    text = page(meta)
+    assert not any(h in text for h in BORROWED_HEADINGS)
+    assert "RULES-REFERENCE" not in text and not re.search(r"\[(FR|GHLM|BODE|DER|CP|FM|NUM|SS|HH)\]", text)
+    sources = text.split("## Sources", 1)[1]
+    assert re.search(r"^- ", sources, flags=re.M)
+
+
 def test_catalogue_folders_are_exactly_the_registered_rules() -> None:
-    folders = {p.name for p in CATALOGUE.iterdir() if p.is_dir() and re.match(r"AFE\d{3}-", p.name)}
+    folders = {f"{fam.name}/{p.name}" for fam in CATALOGUE.iterdir() if fam.is_dir() and fam.name not in ("sets",)
+               and not fam.name.startswith("_") for p in fam.iterdir() if p.is_dir() and not p.name.startswith("_")}
     assert folders == {m.folder for m in METAS}
 
 
 def test_ids_and_slugs_are_well_formed_unique_and_not_retired() -> None:
-    assert all(re.fullmatch(r"AFE\d{3}", m.id) and re.fullmatch(r"[a-z0-9]+(-[a-z0-9]+)+", m.slug) for m in METAS)
+    assert all(RULE_ID.fullmatch(m.id) and m.id.split(".")[0] == m.family for m in METAS)
+    assert all(re.fullmatch(r"[a-z0-9]+(-[a-z0-9]+)+", m.slug) for m in METAS)
     assert len({m.id for m in METAS}) == len({m.slug for m in METAS}) == len(METAS)
     retired = yaml.safe_load(CATALOGUE.joinpath("retired.yaml").read_text(encoding="utf-8"))
     assert isinstance(retired, list) and not set(retired_ids()) & {m.id for m in METAS}
@@ -68,7 +88,7 @@ def test_good_example_triggers_nothing(meta) -> None:
     assert run_rules(load_design(path)) == ()
 
 
-def test_explain_prints_every_page_by_id_and_by_slug() -> None:
+def test_rules_name_prints_every_page_by_id_and_by_slug() -> None:
     import io
 
     from afecheck.cli import main
@@ -76,5 +96,5 @@ def test_explain_prints_every_page_by_id_and_by_slug() -> None:
     for meta in METAS:
         for key in (meta.id, meta.slug):
             out = io.StringIO()
-            assert main(["explain", key], stdout=out, stderr=io.StringIO()) == 0
+            assert main(["rules", key], stdout=out, stderr=io.StringIO()) == 0
             assert out.getvalue() == page(meta)

@@ -37,7 +37,7 @@ W, E = Severity.WARNING, Severity.ERROR
 
 
 def _bad(rule_id: str):
-    (path,) = RULES.glob(f"{rule_id}-*/bad.yaml")
+    path = RULES / rule_id.replace(".", "/") / "bad.yaml"
     loaded = load_design(path)
     analysis = analyse(loaded)
     return loaded, analysis
@@ -73,12 +73,13 @@ def _share_303(f, loaded, analysis) -> float:
 
 GRADED = [
     # rule, module, graded quantity of its finding, warn parameter, error parameter, worse direction
-    ("AFE101", inverting_source_loading, lambda f, *_: f.ctx["value"], "warn_fraction", "error_fraction", UP),
-    ("AFE102", input_divider_error, lambda f, *_: f.ctx["value"], "warn_fraction", "error_fraction", UP),
-    ("AFE201", phase_margin, lambda f, *_: f.ctx["value"], "warn_deg", "error_deg", DOWN),
-    ("AFE203", gain_margin, lambda f, *_: f.ctx["value"], "warn_db", "error_db", DOWN),
-    ("AFE303", output_current, _share_303, "warn_fraction", "error_fraction", UP),
-    ("AFE403", loop_gain_at_fmax, lambda f, *_: f.ctx["value"], "warn_db", "error_db", DOWN),
+    ("loading.inverting-input", inverting_source_loading, lambda f, *_: f.ctx["value"], "warn_fraction",
+     "error_fraction", UP),
+    ("loading.input-divider", input_divider_error, lambda f, *_: f.ctx["value"], "warn_fraction", "error_fraction", UP),
+    ("stability.phase-margin", phase_margin, lambda f, *_: f.ctx["value"], "warn_deg", "error_deg", DOWN),
+    ("stability.gain-margin", gain_margin, lambda f, *_: f.ctx["value"], "warn_db", "error_db", DOWN),
+    ("headroom.output-current", output_current, _share_303, "warn_fraction", "error_fraction", UP),
+    ("distortion.loop-gain-at-fmax", loop_gain_at_fmax, lambda f, *_: f.ctx["value"], "warn_db", "error_db", DOWN),
 ]
 
 
@@ -99,7 +100,7 @@ def test_warning_and_error_limits_exactly(rule_id, module, graded, warn, err, wo
 
 
 def test_bias_offset_share_limits_exactly() -> None:
-    loaded, analysis = _bad("AFE103")
+    loaded, analysis = _bad("loading.bias-offset")
     (f,) = _run(bias_current_offset, loaded, analysis)
     share = _share_103(f, loaded, analysis)
     budget = "budget" in f.ctx["limit_source"]
@@ -112,8 +113,8 @@ def test_bias_offset_share_limits_exactly() -> None:
 
 
 @pytest.mark.parametrize(("rule_id", "module", "param"), [
-    ("AFE406", class2_ceramic, "fraction"),
-    ("AFE407", input_impedance_imbalance, "max_imbalance"),
+    ("distortion.class2-ceramic", class2_ceramic, "fraction"),
+    ("distortion.impedance-balance", input_impedance_imbalance, "max_imbalance"),
 ])
 def test_single_warning_limits_exactly(rule_id, module, param) -> None:
     loaded, analysis = _bad(rule_id)
@@ -125,8 +126,9 @@ def test_single_warning_limits_exactly(rule_id, module, param) -> None:
 
 
 def test_high_z_imbalance_gates_exactly() -> None:
-    # AFE407 applies only above min_vcm_peak and above min_frequency ("above": equal does not apply)
-    loaded, analysis = _bad("AFE407")
+    # distortion.impedance-balance applies only above min_vcm_peak and above min_frequency ("above": equal does not
+    # apply)
+    loaded, analysis = _bad("distortion.impedance-balance")
     (f,) = _run(input_impedance_imbalance, loaded, analysis)
     vcm = f.ctx["vcm_peak"]
     fmax = next(s for s in analysis.stages if s.opamp in f.location.refs).f_max
@@ -137,7 +139,8 @@ def test_high_z_imbalance_gates_exactly() -> None:
 
 
 def test_common_mode_warning_band_exactly() -> None:
-    # AFE301: a warning when the headroom inside the range is below the band; headroom equal to the band passes
+    # headroom.input-common-mode: a warning when the headroom inside the range is below the band; headroom equal to
+    # the band passes
     loaded = kit.design()
     st = kit.stage(vcm_min=1.0, vcm_max=3.4)
     margin = (5.0 - 1.5) - 3.4  # the rule's own arithmetic: V+ - input_cm_high - highest common mode
@@ -146,7 +149,7 @@ def test_common_mode_warning_band_exactly() -> None:
     assert [(f.severity, f.ctx["margin"]) for f in found] == [(W, margin)]
 
 
-@pytest.mark.parametrize(("rule_id", "module", "param"), [("AFE405", output_near_limit, "band")])
+@pytest.mark.parametrize(("rule_id", "module", "param"), [("distortion.near-swing-limit", output_near_limit, "band")])
 def test_margin_bands_exactly(rule_id, module, param) -> None:
     # a warning when the margin inside the limit is below the band; a margin equal to the band passes
     loaded, analysis = _bad(rule_id)
@@ -159,8 +162,8 @@ def test_margin_bands_exactly(rule_id, module, param) -> None:
 
 
 def test_common_mode_error_limit_exactly() -> None:
-    # AFE402: CMRR error at or below its share of the budget passes
-    loaded, analysis = _bad("AFE402")
+    # distortion.common-mode-error: CMRR error at or below its share of the budget passes
+    loaded, analysis = _bad("distortion.common-mode-error")
     (f,) = _run(common_mode_swing, loaded, analysis)
     err, limit = f.ctx["value"], f.ctx["limit"]
     param = "budget_share" if "budget" in f.ctx["limit_source"] else "lsb_share"
@@ -176,7 +179,8 @@ def test_common_mode_error_limit_exactly() -> None:
 
 
 def test_input_common_mode_error_at_zero_margin_exactly() -> None:
-    # AFE301: at the limit (zero margin) a warning, one float beyond it an error. KIT-AMP: V+ 5 V, input_cm_high 1.5
+    # headroom.input-common-mode: at the limit (zero margin) a warning, one float beyond it an error. KIT-AMP: V+ 5
+    # V, input_cm_high 1.5
     limit = 5.0 - 1.5
     loaded = kit.design()
     at = kit.stage(vcm_min=1.0, vcm_max=limit)
@@ -186,7 +190,8 @@ def test_input_common_mode_error_at_zero_margin_exactly() -> None:
 
 
 def test_output_swing_at_zero_margin_exactly() -> None:
-    # AFE302 (clips) at a margin below zero only; AFE405 warns from zero margin up. KIT-AMP: 5 V - 0.1 V drop,
+    # headroom.output-swing (clips) at a margin below zero only; distortion.near-swing-limit warns from zero margin
+    # up. KIT-AMP: 5 V - 0.1 V drop,
     # no load current (iout_peak 0), so the high limit is exactly 4.9 V
     loaded = kit.design()
     high = 5.0 - 0.1 - 50.0 * 0.0
@@ -199,7 +204,8 @@ def test_output_swing_at_zero_margin_exactly() -> None:
 
 
 def test_noise_gain_at_minimum_stable_gain_exactly() -> None:
-    # AFE202: a noise gain equal to the part's minimum stable gain passes; one float below is an error
+    # stability.min-stable-gain: a noise gain equal to the part's minimum stable gain passes; one float below is an
+    # error
     loaded = kit.design(part={"min_stable_gain": 5.0})
     assert kit.run(min_stable_gain, loaded, [kit.stage(noise_gain_at_crossover=5.0)]) == []
     below = kit.stage(noise_gain_at_crossover=math.nextafter(5.0, DOWN))
@@ -207,7 +213,8 @@ def test_noise_gain_at_minimum_stable_gain_exactly() -> None:
 
 
 def test_transition_window_edges_exactly() -> None:
-    # AFE401: a common mode reaching exactly the window's lower edge does not cross it; one float more does
+    # distortion.input-pair-transition: a common mode reaching exactly the window's lower edge does not cross it; one
+    # float more does
     part = {"input_stage": "rail-to-rail-complementary", "transition_below_vplus": 1.2, "transition_width": 0.2,
             "transition_offset_step": 1e-3, "input_cm_low": -0.1, "input_cm_high": -0.1}
     loaded = kit.design(part=part)

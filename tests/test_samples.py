@@ -1,6 +1,6 @@
 """The sample designs load, validate against the JSON Schema, and give exactly the findings their headers promise.
 
-Each sample's header carries a machine-readable line ``# expect: AFE101 AFE301`` (or ``# expect: none``).
+Each sample's header carries a machine-readable line ``# expect: loading.inverting-input`` (or ``# expect: none``).
 The circuit facts each header states are checked here from the sample's own values with published
 formulas, and the numbers behind the findings are checked against the same formulas.
 """
@@ -18,6 +18,7 @@ import yaml
 
 from afecheck.analysis import analyse
 from afecheck.cli import main
+from afecheck.engine.rule import RULE_ID
 from afecheck.model.load import load_design
 from afecheck.model.units import parse_quantity
 
@@ -35,7 +36,7 @@ def expected_rules(path: Path) -> set[str]:
     words = found[0].split()
     if words == ["none"]:
         return set()
-    assert words and all(re.fullmatch(r"AFE\d{3}", w) for w in words), f"{path.name}: bad expect line {found[0]!r}"
+    assert words and all(RULE_ID.fullmatch(w) for w in words), f"{path.name}: bad expect line {found[0]!r}"
     return set(words)
 
 
@@ -165,8 +166,9 @@ def test_soil_probe_loading_error_is_a_third() -> None:
     rs = _v(_comp(path, "S1")["source_resistance"], "ohm")
     ri = _v(_comp(path, "R1")["value"], "ohm")
     assert rs / (rs + ri) == pytest.approx(1 / 3, rel=1e-9)  # [FR] R1 inverting loading e = Rs/(Rs+Ri)
-    # afecheck's AFE101 value is the analysis's loading error; A0 = 1e5 at noise gain 3 moves it by about 1e-5
-    assert _finding_value(_report(path).findings, "AFE101", "R1") == pytest.approx(1 / 3, rel=1e-4)
+    # afecheck's loading.inverting-input value is the analysis's loading error; A0 = 1e5 at noise gain 3 moves it by
+    # about 1e-5
+    assert _finding_value(_report(path).findings, "loading.inverting-input", "R1") == pytest.approx(1 / 3, rel=1e-4)
 
 
 def test_hydrophone_noise_gain_and_coupling_capacitor() -> None:
@@ -178,7 +180,7 @@ def test_hydrophone_noise_gain_and_coupling_capacitor() -> None:
     # R4f [DER]: series coupling C into R, k_C = 1/sqrt(1 + (2πfRC)²), relative to the signal at HYD, 10 Hz edge
     k_c = 1 / math.sqrt(1 + (2 * math.pi * 10 * r * c) ** 2)
     assert k_c == pytest.approx(0.1572, abs=2e-4)
-    assert _finding_value(_report(path).findings, "AFE406", "C1") == pytest.approx(k_c, rel=1e-9)
+    assert _finding_value(_report(path).findings, "distortion.class2-ceramic", "C1") == pytest.approx(k_c, rel=1e-9)
 
 
 def test_vibration_follower_crosses_the_transition_window() -> None:
