@@ -5,7 +5,12 @@ from __future__ import annotations
 
 from pathlib import Path
 
+import numpy as np
+import pytest
+
 from afecheck.analysis import analyse
+from afecheck.analysis.mna import solve_ac
+from afecheck.analysis.netlist import Capacitor, Netlist, Resistor, VoltageSource
 from afecheck.model.load import load_design
 
 CASES = Path(__file__).parent / "reference" / "cases"
@@ -17,3 +22,29 @@ def test_band_gain_is_absent_when_the_source_declares_no_band() -> None:
     (stage,) = analyse(load_design(CASES / "inverting_signal_rs.yaml")).stages
     assert [i.band_gain for i in stage.inputs] == [None]
     assert stage.vout_ac_peak == 0.0 and stage.f_max == 0.0
+
+
+def test_two_ac_inputs_without_bands_add_their_amplitudes(tmp_path: Path) -> None:
+    # two inputs with an AC amplitude but no band are both evaluated at DC in one batched solve; the output
+    # amplitude is the sum of amplitude × |gain| (superposition, worst-case phase): the difference amplifier's
+    # gains are R2/R1 = 2 on each input, so 2·10 mV + 2·20 mV = 60 mV (A0 = 1e5 at noise gain 3: 3e-5 relative)
+    text = (CASES / "difference_4r.yaml").read_text(encoding="utf-8")
+    text = text.replace("INP: {dc: [0, 1 V]}", "INP: {dc: [0, 1 V], ac_amplitude: 10 mV}")
+    text = text.replace("INN: {dc: [0.2 V, 0.4 V]}", "INN: {dc: [0.2 V, 0.4 V], ac_amplitude: 20 mV}")
+    (tmp_path / "ref_parts.yaml").write_text((CASES / "ref_parts.yaml").read_text(encoding="utf-8"), encoding="utf-8")
+    path = tmp_path / "difference.yaml"
+    path.write_text(text, encoding="utf-8")
+    (stage,) = analyse(load_design(path)).stages
+    assert stage.vout_ac_peak == pytest.approx(0.06, rel=1e-4)
+
+
+def test_a_sweep_of_zero_frequencies_is_the_dc_solution_at_each_point() -> None:
+    # a batched solve at several 0 Hz points (capacitors open) must give the same answer at every point: the
+    # ladder 1 V across 1k + 1k + 2k leaves 0.75 V and 0.5 V (Ohm), with the capacitors open; several unknown
+    # nodes, so that each point's matrix is a real system
+    nl = Netlist((VoltageSource("V1", "a", "0", dc=1.0, ac=1.0), Resistor("R1", "a", "b", 1e3),
+                  Resistor("R2", "b", "c", 1e3), Resistor("R3", "c", "0", 2e3), Capacitor("C1", "b", "0", 1e-6),
+                  Capacitor("C2", "c", "0", 1e-6)))
+    sol = solve_ac(nl, [0.0, 0.0, 0.0])
+    assert np.allclose(sol.voltage("b"), [0.75] * 3, rtol=1e-12)
+    assert np.allclose(sol.voltage("c"), [0.5] * 3, rtol=1e-12)
