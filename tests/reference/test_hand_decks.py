@@ -22,6 +22,7 @@ from harness import CASES, dc_answers, directives, loop_answer
 from ngspice_harness import needs_ngspice
 
 from afecheck.analysis import analyse
+from afecheck.api import check_design
 from afecheck.model.load import load_design
 
 pytestmark = [pytest.mark.ngspice, pytest.mark.reference, needs_ngspice]
@@ -68,7 +69,13 @@ def test_dc_ranges_gains_and_loading_match_hand_deck(deck_path: Path, tmp_path: 
     d = directives(deck)
     stages = {s.opamp: s for s in result.stages}
     ans = dc_answers(deck, {s.opamp: s.out for s in result.stages}, tmp_path)
+    for opamp, inst, out, ro in d.iout:
+        # the peak output current over the corners (no AC here), Ohm's law across the output resistance
+        peak = max(abs(c[f"{inst}.o"] - c[out]) / ro for c in ans.corners)
+        assert stages[opamp].iout_peak == pytest.approx(peak, rel=1e-6, abs=1e-12), (opamp, "output current")
     for net, (lo, hi) in ans.ranges.items():
+        if net not in d.nets:
+            continue
         sig = result.nets[net]
         assert sig.dc_min == pytest.approx(lo, rel=1e-6, abs=d.dc_tol), (net, "min")
         assert sig.dc_max == pytest.approx(hi, rel=1e-6, abs=d.dc_tol), (net, "max")
@@ -110,3 +117,19 @@ def test_crossover_and_margins_match_hand_deck(deck_path: Path, tmp_path: Path) 
             assert stage.gain_margin_db == pytest.approx(ans.gain_margin_db, abs=max(0.01, tol)), (opamp, "GM")
         else:
             assert ans.gain_margin_db is None and stage.gain_margin_db is None, (opamp, "gain margin present")
+
+
+def test_bias_offset_finding_equals_the_offset_ngspice_finds(tmp_path: Path) -> None:
+    # The follower on 1 MΩ with Ib = 1 nA, Ios = 0.5 nA and no offset voltage: the bias-offset rule's worst case
+    # NG·(|Ib|·|R- - R+| + |Ios|/2·(R- + R+)) is reached here (both currents flow the same way), so it must equal
+    # the output ngspice finds on the hand deck, -1.25 mV (FORMAT.md: Ios = Ib+ - Ib-)
+    deck_path = CASES / "follower_bias_1meg.cir"
+    loaded, result, deck = _case(deck_path)
+    ans = dc_answers(deck, {s.opamp: s.out for s in result.stages}, tmp_path)
+    (finding,) = [f for f in check_design(loaded).findings if f.rule == "loading.bias-offset"]
+    assert ans.ranges["OUT"][0] == pytest.approx(-1.25e-3, rel=1e-4)
+    # afecheck scales by the noise gain A/T, whose loop gain T carries the output divider RL/(RL + Ro) =
+    # 10k/10.02k; the closed-loop gain from in+ does not (feedback is taken at the pin), so the rule reads 0.2 %
+    # high here: 0.3 % allowed, and the overestimate is exactly that divider
+    assert finding.ctx["value"] == pytest.approx(-ans.ranges["OUT"][0], rel=3e-3)
+    assert finding.ctx["value"] == pytest.approx(-ans.ranges["OUT"][0] * (10e3 + 20) / 10e3, rel=1e-5)
