@@ -9,8 +9,9 @@ import numpy as np
 import pytest
 
 from afecheck.analysis import analyse
-from afecheck.analysis.mna import solve_ac
-from afecheck.analysis.netlist import Capacitor, Netlist, Resistor, VoltageSource
+from afecheck.analysis.mna import solve_ac, solve_dc
+from afecheck.analysis.netlist import Capacitor, Netlist, Resistor, VoltageSource, netlist_from_design
+from afecheck.api import check_design
 from afecheck.model.load import load_design
 
 CASES = Path(__file__).parent / "reference" / "cases"
@@ -48,3 +49,30 @@ def test_a_sweep_of_zero_frequencies_is_the_dc_solution_at_each_point() -> None:
     sol = solve_ac(nl, [0.0, 0.0, 0.0])
     assert np.allclose(sol.voltage("b"), [0.75] * 3, rtol=1e-12)
     assert np.allclose(sol.voltage("c"), [0.5] * 3, rtol=1e-12)
+
+
+def test_ground_reads_zero_volts_in_a_dc_solution() -> None:
+    # the reference node is 0 V by definition (Kirchhoff/MNA), whatever the circuit
+    nl = Netlist((VoltageSource("V1", "a", "0", dc=2.0), Resistor("R1", "a", "0", 1e3)))
+    assert solve_dc(nl).voltage("0") == 0.0 and solve_dc(nl).voltage("a") == 2.0
+
+
+def test_whole_design_netlist_puts_each_signal_at_the_middle_of_its_range(tmp_path: Path) -> None:
+    # NetlistOptions.signal_point = 0.5 by default: a declared range [lo, hi] is written as lo + 0.5·(hi - lo)
+    text = (CASES / "difference_4r.yaml").read_text(encoding="utf-8")
+    (tmp_path / "ref_parts.yaml").write_text((CASES / "ref_parts.yaml").read_text(encoding="utf-8"), encoding="utf-8")
+    path = tmp_path / "difference.yaml"
+    path.write_text(text, encoding="utf-8")
+    nl = netlist_from_design(load_design(path))
+    assert nl.element("INP#signal").dc == 0.5 and nl.element("INN#signal").dc == pytest.approx(0.3, rel=1e-15)
+
+
+def test_decompensated_part_below_its_minimum_gain_is_named_as_the_cause(tmp_path: Path) -> None:
+    # REF-D is stable from a noise gain of 5 (its part model); at a non-inverting gain of 2 the phase-margin
+    # finding must name that as the cause, not a load or the second pole
+    text = (CASES / "decompensated_gain10.yaml").read_text(encoding="utf-8").replace("value: 9k", "value: 1k")
+    (tmp_path / "ref_parts.yaml").write_text((CASES / "ref_parts.yaml").read_text(encoding="utf-8"), encoding="utf-8")
+    path = tmp_path / "decomp.yaml"
+    path.write_text(text, encoding="utf-8")
+    (pm,) = [f for f in check_design(load_design(path)).findings if f.rule == "stability.phase-margin"]
+    assert pm.ctx["cause"] == "below-minimum-gain"
