@@ -76,3 +76,14 @@ def test_decompensated_part_below_its_minimum_gain_is_named_as_the_cause(tmp_pat
     path.write_text(text, encoding="utf-8")
     (pm,) = [f for f in check_design(load_design(path)).findings if f.rule == "stability.phase-margin"]
     assert pm.ctx["cause"] == "below-minimum-gain"
+
+
+def test_divider_error_at_dc_says_at_dc() -> None:
+    # a source without a band is judged at DC, and the message says so rather than "at 0 Hz"
+    from fixtures.rules import kit
+
+    from afecheck.checks.loading import input_divider_error
+
+    st = kit.stage(topology="follower", inputs=(kit.stage_input("in+", kit.source("SIG", 1e12, 1e12)),))
+    (f,) = kit.run(input_divider_error, kit.design(), [st])
+    assert f.ctx["frequency"] == 0.0 and "of the signal at DC (limit" in f.message and "0 Hz" not in f.message
