@@ -20,8 +20,7 @@ COMMANDS: dict[str, str] = {
     "spice": "write a design (or one stage) as a SPICE netlist",
     "schema": "print the JSON Schema of the design exchange format",
     "parts": "list the op-amp part models that are loaded",
-    "rules": "list every rule with id, slug, severity and one line",
-    "explain": "print the documentation of one rule",
+    "rules": "list every rule, or print one rule's page: afecheck rules NAME",
     "baseline": "record the current findings of designs as a baseline file",
 }
 

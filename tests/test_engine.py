@@ -143,7 +143,7 @@ def test_rules_command_lists_every_rule_and_refuses_an_unknown_family() -> None:
     assert "unknown family" in err.getvalue()
 
 
-def test_explain_unknown_rule_exits_2_without_traceback() -> None:
+def test_rules_name_unknown_rule_exits_2_without_traceback() -> None:
     err = io.StringIO()
-    assert main(["explain", "AFE777"], stdout=io.StringIO(), stderr=err) == 2
+    assert main(["rules", "AFE777"], stdout=io.StringIO(), stderr=err) == 2
     assert "unknown rule" in err.getvalue() and "Traceback" not in err.getvalue()

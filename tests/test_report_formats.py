@@ -132,27 +132,35 @@ def test_markdown_counts_table_and_folds_waived():
     assert "> **Caution" in md
 
 
-FINDING_LINE = re.compile(r"^(?P<file>[^\s].*?)(?::(?P<line>\d+))?: (?P<sev>error|warning|info): "
-                          r"(?P<id>[A-Z]+\d+)/(?P<slug>[a-z0-9-]+): (?P<msg>.+)$")
+FINDING_LINE = re.compile(r"^(?P<sev>ERROR|WARNING|INFO) +(?P<msg>\S.+)$")
+WHERE_LINE = re.compile(r"^ {8}at (?P<file>\S+?)(?::(?P<line>\d+))? · rule (?P<id>\S+)$")
+PAIRED_ID = re.compile(r"\b[A-Za-z]+\d+/[a-z0-9]+(-[a-z0-9]+)+\b")
 
 
 def test_text_lines_group_by_design_and_stage_and_end_with_summary():
+    """Our own layout: severity and message first, then where and the rule id in a quiet second line, then the fix."""
     text = render(_fixture_report(), "text")
     lines = text.splitlines()
     finding_lines = [i for i, ln in enumerate(lines) if FINDING_LINE.match(ln)]
     assert len(finding_lines) == 5
     for i in finding_lines:
-        assert lines[i + 1].startswith("    fix: ")
+        assert WHERE_LINE.match(lines[i + 1]), lines[i + 1]
+        assert lines[i + 2].startswith("        fix: ")
     assert lines[-1] == "afecheck: 2 designs: 2 errors, 1 warning, 2 info; fail level error: FAIL"
     assert text.index("== ") < text.index("-- stage U1 --") < text.index("-- design-wide --")
     assert "\x1b[" not in text
+
+
+@pytest.mark.parametrize("fmt", ["text", "markdown"])
+def test_no_report_pairs_an_identifier_with_its_name_by_a_slash(fmt):
+    assert not PAIRED_ID.search(render(_fixture_report(), fmt))
 
 
 def test_text_colour_only_when_asked():
     report = _made_up_report()
     assert "\x1b[" in render_text(report, color=True)
     assert "\x1b[" not in render_text(report, color=False)
-    assert "[waived]" in render_text(report) and "waiver" in render_text(report)
+    assert "(waived)" in render_text(report) and "waiver" in render_text(report)
 
 
 def test_json_report_has_versioned_documented_fields():

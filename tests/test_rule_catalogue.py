@@ -16,7 +16,9 @@ from afecheck.engine.runner import run_rules
 from afecheck.model.load import load_design
 
 CATALOGUE = resources.files("afecheck._catalogue")
-SECTIONS = ["What it checks", "Why it matters", "Example", "Parameters", "Known limitations", "References"]
+SECTIONS = [
+    "In the circuit", "On the bench", "Flagged and passing", "Limits and their sources", "Blind spots", "Sources",
+]
 METAS = default_registry().metas()
 WITH_EXAMPLES = [r.meta for r in BUILTIN_RULES]
 
@@ -30,10 +32,24 @@ def test_rule_page_follows_the_template(meta) -> None:
     text = page(meta)
     assert text.splitlines()[0] == f"# {meta.id} {meta.slug}"
     assert re.findall(r"^## (.+)$", text, flags=re.M) == SECTIONS
-    example = text.split("## Example", 1)[1].split("## Parameters", 1)[0]
-    assert example.index("Bad:") < example.index("Use instead:")
-    params = text.split("## Parameters", 1)[1].split("## Known limitations", 1)[0]
+    example = text.split("## Flagged and passing", 1)[1].split("## Limits and their sources", 1)[0]
+    assert example.index("Flagged") < example.index("Passing")
+    params = text.split("## Limits and their sources", 1)[1].split("## Blind spots", 1)[0]
     assert set(re.findall(r"`(\w+)`", params)) == {p.name for p in meta.params}
+
+
+BORROWED_HEADINGS = ("What it checks", "Why it matters", "Use instead")
+SHIPPED_DOCS = {"README.md", "DEVELOPERS.md", "docs/"}
+
+
+@pytest.mark.parametrize("meta", METAS, ids=lambda m: m.id)
+def test_rule_page_uses_no_borrowed_headings_and_cites_only_what_readers_have(meta) -> None:
+    """Pages cite published sources by author and title; the internal worksheet is not shipped, so never cited."""
+    text = page(meta)
+    assert not any(h in text for h in BORROWED_HEADINGS)
+    assert "RULES-REFERENCE" not in text and not re.search(r"\[(FR|GHLM|BODE|DER|CP|FM|NUM|SS|HH)\]", text)
+    sources = text.split("## Sources", 1)[1]
+    assert re.search(r"^- ", sources, flags=re.M)
 
 
 def test_catalogue_folders_are_exactly_the_registered_rules() -> None:
@@ -68,7 +84,7 @@ def test_good_example_triggers_nothing(meta) -> None:
     assert run_rules(load_design(path)) == ()
 
 
-def test_explain_prints_every_page_by_id_and_by_slug() -> None:
+def test_rules_name_prints_every_page_by_id_and_by_slug() -> None:
     import io
 
     from afecheck.cli import main
@@ -76,5 +92,5 @@ def test_explain_prints_every_page_by_id_and_by_slug() -> None:
     for meta in METAS:
         for key in (meta.id, meta.slug):
             out = io.StringIO()
-            assert main(["explain", key], stdout=out, stderr=io.StringIO()) == 0
+            assert main(["rules", key], stdout=out, stderr=io.StringIO()) == 0
             assert out.getvalue() == page(meta)

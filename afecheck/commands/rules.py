@@ -1,16 +1,41 @@
-"""``afecheck rules``: list every rule with its id, slug, default severity and one line."""
+"""``afecheck rules [NAME]``: the rule catalogue, or one rule's page when a rule is named."""
 
 from __future__ import annotations
 
 import argparse
 from typing import TextIO
 
-HELP = "list every rule with id, slug, severity and one line"
+HELP = "list every rule, or print one rule's page: afecheck rules NAME"
 
 
 def add_arguments(p: argparse.ArgumentParser) -> None:
     """Command-line options of this command."""
+    p.add_argument("rule", metavar="NAME", nargs="?",
+                   help="a rule's id or name (e.g. AFE201 or phase-margin-below-limit): print its page")
     p.add_argument("--family", help="only rules of this family (loading, stability, headroom, distortion, ...)")
+
+
+def rule_page(folder: str) -> str | None:
+    """The text of ``rules/<folder>/rule.md`` read through the installed package, or None."""
+    from importlib import resources
+
+    page = resources.files("afecheck._catalogue").joinpath(folder, "rule.md")
+    return page.read_text(encoding="utf-8") if page.is_file() else None
+
+
+def _page(key: str, stdout: TextIO) -> int:
+    from afecheck.engine.registry import default_registry
+    from afecheck.errors import InputError, Problem
+
+    meta = default_registry().find_meta(key)
+    if meta is None:
+        raise InputError([Problem("<command line>", None, None, "NAME",
+                                  f"unknown rule {key.strip()!r}; `afecheck rules` lists them")])
+    text = rule_page(meta.folder)
+    if text is None:
+        raise InputError([Problem("<catalogue>", None, None, meta.folder, "this rule has no documentation page")])
+    stdout.write(text if text.endswith("\n") else text + "\n")
+    return 0
 
 
 def run(args: argparse.Namespace, stdout: TextIO, stderr: TextIO) -> int:
@@ -18,6 +43,8 @@ def run(args: argparse.Namespace, stdout: TextIO, stderr: TextIO) -> int:
     from afecheck.engine.registry import default_registry
     from afecheck.errors import InputError, Problem
 
+    if args.rule:
+        return _page(args.rule, stdout)
     metas = default_registry().metas()
     if args.family:
         families = sorted({m.family for m in metas})

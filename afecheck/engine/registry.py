@@ -34,7 +34,7 @@ from afecheck.errors import ConfigError, Problem
 ENTRY_POINT_GROUP = "afecheck.rules"
 
 CRASH_META = RuleMeta(
-    id="AFE000", slug="rule-crashed", severity=Severity.ERROR, family="engine", needs=(),
+    id="AFE000", slug="rule-crashed", severity=Severity.ERROR, family="coverage", needs=(),
     summary="a rule stopped with an internal error, so its check did not run",
     fix="report the error with the design file; meanwhile review what the rule covers by hand",
 )
@@ -64,6 +64,11 @@ class Registry:
             if rule.meta.id.upper() == k.upper() or rule.meta.slug == k.lower():
                 return rule
         return None
+
+    def find_meta(self, key: str) -> RuleMeta | None:
+        """Metadata of the rule (or the engine's crash finding) whose id or slug is ``key``."""
+        k = key.strip()
+        return next((m for m in self.metas() if m.id.upper() == k.upper() or m.slug == k.lower()), None)
 
     def metas(self) -> tuple[RuleMeta, ...]:
         """Metadata of every rule plus the engine's own crash finding, sorted by id."""

@@ -25,7 +25,8 @@ def where(entry: Entry) -> str:
 
 
 def rule_label(entry: Entry) -> str:
-    return f"{entry.finding.rule}/{entry.finding.slug}"
+    """How reports name a finding's rule: its identifier alone, in a quiet position after the message."""
+    return entry.finding.rule
 
 
 def by_stage(design: DesignResult) -> Iterator[tuple[str, tuple[Entry, ...]]]:

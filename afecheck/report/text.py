@@ -1,4 +1,4 @@
-"""Terminal report: grouped by design and stage, one ``file:line: severity: ID/slug: message`` line a finding."""
+"""Terminal report, grouped by design and stage: severity and message first, then where, the rule and the fix."""
 
 from __future__ import annotations
 
@@ -16,18 +16,18 @@ def _paint(text: str, style: str, color: bool) -> str:
 
 def _entry_lines(entry: Entry, color: bool) -> list[str]:
     f = entry.finding
-    sev = _paint(f.severity.label, f.severity.label, color)
-    tag = "" if entry.status == "open" else " " + _paint(f"[{entry.status}]", "dim", color)
-    lines = [f"{where(entry)}: {sev}: {rule_label(entry)}: {message(f)}{tag}"]
+    sev = _paint(f"{f.severity.label.upper():<7}", f.severity.label, color)
+    tag = "" if entry.status == "open" else " " + _paint(f"({entry.status})", "dim", color)
+    lines = [f"{sev} {message(f)}{tag}", _paint(f"        at {where(entry)} · rule {rule_label(entry)}", "dim", color)]
     if entry.status == "fixed":
         return lines
-    lines.append(f"    fix: {f.fix or 'see the rule documentation (afecheck explain ' + f.rule + ')'}")
+    lines.append(f"        fix: {f.fix or 'see the rule page (afecheck rules ' + f.rule + ')'}")
     if f.assumed:
-        lines.append(f"    assumed: {', '.join(f.assumed)}")
+        lines.append(f"        assumed: {', '.join(f.assumed)}")
     if entry.waiver is not None:
-        lines.append(f"    waived: {waiver_text(entry.waiver)}")
+        lines.append(f"        waived: {waiver_text(entry.waiver)}")
     if entry.expired_waiver is not None:
-        lines.append(f"    note: {expired_text(entry.expired_waiver)}")
+        lines.append(f"        note: {expired_text(entry.expired_waiver)}")
     return lines
 
 
