@@ -35,6 +35,7 @@ BOLTZMANN = 1.380649e-23  # J/K, exact since the 2019 SI redefinition
 DEFAULT_TEMPERATURE_C = 25.0
 DC_BAND_LOW_HZ = 0.1  # lower edge for a band declared from DC: the usual 0.1 Hz low-frequency noise convention
 POINTS_PER_DECADE = 40
+_ROLE = {"signal.rs": "source resistance", "rs": "source resistance", "load.r": "load resistance"}
 
 
 @dataclass(frozen=True)
@@ -120,7 +121,8 @@ def noise_temperature_k(loaded: LoadedDesign) -> float:
 
 
 def channel_band(loaded: LoadedDesign, channel: Channel) -> tuple[float, float] | None:
-    """The union of the declared bands of the channel's signals (lower edge at least 0.1 Hz), or None."""
+    """The union of the declared bands of the channel's signals (lower edge at least 0.1 Hz); with none declared,
+    DC to half the sample rate of an ADC the channel drives (what the converter sees); else None."""
     d = loaded.design
     bands = []
     for name, _ in channel.signal_branches:
@@ -128,7 +130,10 @@ def channel_band(loaded: LoadedDesign, channel: Channel) -> tuple[float, float] 
         if src.band:
             bands.append(src.band)
     if not bands:
-        return None
+        rates = [load.adc.sample_rate for net, load in d.loads.items() if load.adc and net in channel.nets]
+        if not rates:
+            return None
+        bands.append((0.0, 0.5 * max(rates)))
     lo = max(min(b[0] for b in bands), DC_BAND_LOW_HZ)
     hi = max(b[1] for b in bands)
     return (lo, hi) if hi > lo else None
@@ -147,7 +152,7 @@ def _sources(loaded: LoadedDesign, netlist, temperature_k: float) -> tuple[list[
             if comp is not None and comp.kind == "ntc" and e.name == ref:
                 t_k = 0.5 * (comp.temperature[0] + comp.temperature[1]) + ZERO_C_K
             refs = (ref,) if ref in d.components else ()
-            label = e.name if ref in d.components else e.name.replace("#", " ")
+            label = e.name if e.name == ref else f"{ref} {_ROLE.get(e.name.split('#', 1)[1], 'resistance')}"
             out.append(NoiseSource(f"{label} thermal", "resistor", refs, 4 * BOLTZMANN * t_k / e.value, 0.0,
                                    e.a, e.b))
     for ref, op in netlist.opamps.items():
