@@ -69,9 +69,9 @@ def rule_catalogue(metas: Sequence[RuleMeta]) -> tuple[RuleInfo, ...]:
     root = resources.files("afecheck._catalogue")
     out = []
     for m in sorted(metas, key=lambda m: m.id):
-        doc = root.joinpath(f"{m.id}-{m.slug}", "rule.md")
+        doc = root.joinpath(m.folder, "rule.md")
         text = doc.read_text(encoding="utf-8") if doc.is_file() else ""
-        description = _section(text, "What it checks") or m.summary
+        description = _section(text, "In the circuit") or m.summary
         out.append(RuleInfo(id=m.id, slug=m.slug, severity=m.severity, summary=m.summary, family=m.family,
                             description=description, help=text.strip() or description, fix=m.fix))
     return tuple(out)
@@ -228,6 +228,7 @@ def review_files(
         baseline=None if baseline is None else str(baseline),
         unused_waivers=unused,
         expired_waivers=tuple(sorted(expired.values(), key=lambda w: (w.file, w.line or 0))),
+        notes=catalogue.rename_notes(),
     )
 
 

@@ -214,4 +214,4 @@ def test_ci_doc_inline_waiver_example_fits_the_schema():
     doc = (Path(__file__).parents[1] / "docs" / "CI.md").read_text(encoding="utf-8")
     block = next(b for b in re.findall(r"```yaml\n(.*?)```", doc, re.S) if b.startswith("components:"))
     design = Design.model_validate({"afecheck": 1, **yaml.safe_load(block)})
-    assert design.components["R7"].waive[0].rule == "AFE303" and design.waive[0].nets == ("PROBE",)
+    assert design.components["R7"].waive[0].rule == "headroom.output-current" and design.waive[0].nets == ("PROBE",)

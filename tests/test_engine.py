@@ -27,32 +27,32 @@ def run(**options):
 
 
 def test_all_rules_run_by_default_and_select_accepts_ids_and_slugs() -> None:
-    assert [f.rule for f in run()] == ["AFE201"]
-    assert [f.rule for f in run(select=["phase-margin-below-limit"])] == ["AFE201"]
-    assert [f.rule for f in run(select="afe201")] == ["AFE201"]
-    assert run(select=["AFE101"]) == ()
+    assert [f.rule for f in run()] == ["stability.phase-margin"]
+    assert [f.rule for f in run(select=["phase-margin-below-limit"])] == ["stability.phase-margin"]
+    assert [f.rule for f in run(select="afe201")] == ["stability.phase-margin"]
+    assert run(select=["loading.inverting-input"]) == ()
 
 
 def test_unknown_rule_or_parameter_is_an_input_error_naming_every_problem() -> None:
     with pytest.raises(InputError) as exc:
-        run(select=["AFE999"], params={"AFE201": {"max_deg": 3.0}, "nope": {}},
-            severity_overrides={"AFE201": "loud"})
+        run(select=["AFE999"], params={"stability.phase-margin": {"max_deg": 3.0}, "nope": {}},
+            severity_overrides={"stability.phase-margin": "loud"})
     text = str(exc.value)
     assert "AFE999" in text and "max_deg" in text and "warn_deg" in text and "'nope'" in text and "loud" in text
     assert len(exc.value.problems) == 4
 
 
 def test_parameters_move_thresholds_per_rule() -> None:
-    assert run(params={"AFE201": {"warn_deg": 45.0}}) == ()
+    assert run(params={"stability.phase-margin": {"warn_deg": 45.0}}) == ()
     [f] = run(params={"phase-margin-below-limit": {"error_deg": 55.0}})
     assert f.severity == Severity.ERROR and f.ctx["limit"] == 55.0
 
 
 def test_severity_override_and_the_estimate_cap() -> None:
-    [f] = run(severity_overrides={"AFE201": Severity.INFO})
+    [f] = run(severity_overrides={"stability.phase-margin": Severity.INFO})
     assert f.severity == Severity.INFO
     estimated = DesignAnalysis(stages=(stage(phase_margin_deg=30.0, estimated=True),), nets={})
-    [g] = run(analysis=estimated, severity_overrides={"AFE201": "error"})
+    [g] = run(analysis=estimated, severity_overrides={"stability.phase-margin": "error"})
     assert g.severity == Severity.WARNING and g.confidence == "estimated"
 
 
@@ -67,10 +67,10 @@ BOOM = Rule(RuleMeta(id="AFE990", slug="always-crashes", severity=Severity.WARNI
 def test_a_crashing_rule_becomes_a_finding_and_the_others_still_run() -> None:
     reg = Registry((BOOM, *BUILTIN_RULES))
     found = run_rules(design(), analysis=LOW_PM, registry=reg)
-    crash = [f for f in found if f.rule == "AFE000"]
+    crash = [f for f in found if f.rule == "coverage.rule-crashed"]
     assert len(crash) == 1 and "AFE990 always-crashes" in crash[0].message and "ZeroDivisionError" in crash[0].message
     assert crash[0].severity == Severity.ERROR and crash[0].ctx["crashed_rule"] == "AFE990"
-    assert "AFE201" in {f.rule for f in found}
+    assert "stability.phase-margin" in {f.rule for f in found}
 
 
 def test_failed_analysis_is_attempted_once_and_each_rule_reports_not_evaluated(monkeypatch) -> None:
@@ -126,7 +126,7 @@ def test_registry_refuses_clashing_and_retired_ids() -> None:
         build_registry((BUILTIN_RULES[0], BUILTIN_RULES[0]))
     with pytest.raises(ConfigError, match="retired"):
         build_registry((BOOM,), retired=("AFE990",))
-    assert default_registry().find("AFE201").meta.slug == "phase-margin-below-limit"
+    assert default_registry().find("stability.phase-margin").meta.slug == "phase-margin-below-limit"
 
 
 def test_rules_command_lists_every_rule_and_refuses_an_unknown_family() -> None:
@@ -134,10 +134,11 @@ def test_rules_command_lists_every_rule_and_refuses_an_unknown_family() -> None:
     assert main(["rules"], stdout=out, stderr=io.StringIO()) == 0
     lines = out.getvalue().splitlines()
     assert len(lines) == len(default_registry().metas())
-    assert lines[0].split()[:3] == ["AFE000", "rule-crashed", "error"]
+    assert lines[0].split()[:3] == ["coverage.not-evaluated", "analysis-incomplete", "info"]
     out = io.StringIO()
     assert main(["rules", "--family", "stability"], stdout=out, stderr=io.StringIO()) == 0
-    assert {ln.split()[0] for ln in out.getvalue().splitlines()} == {"AFE201", "AFE202", "AFE203", "AFE204"}
+    assert {ln.split()[0] for ln in out.getvalue().splitlines()} == {
+        "stability.phase-margin", "stability.min-stable-gain", "stability.gain-margin", "stability.feedback-sense"}
     err = io.StringIO()
     assert main(["rules", "--family", "acoustics"], stdout=io.StringIO(), stderr=err) == 2
     assert "unknown family" in err.getvalue()

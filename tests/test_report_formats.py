@@ -211,8 +211,8 @@ def test_markdown_caps_the_table_for_a_comment():
 def test_rule_help_text_comes_from_rule_md_sections():
     from afecheck.api import _section
 
-    md = "# AFE999 demo\n\n## What it checks\n\nThe phase margin\nof each stage.\n\nMore.\n\n## Why it matters\n\nX\n"
-    assert _section(md, "What it checks") == "The phase margin of each stage."
+    md = "# demo.rule\n\n## In the circuit\n\nThe phase margin\nof each stage.\n\nMore.\n\n## On the bench\n\nX\n"
+    assert _section(md, "In the circuit") == "The phase margin of each stage."
     assert _section(md, "Known limitations") == ""
 
 

@@ -12,6 +12,7 @@ import pytest
 import yaml
 
 from afecheck.engine.registry import BUILTIN_RULES, default_registry, retired_ids
+from afecheck.engine.rule import RULE_ID
 from afecheck.engine.runner import run_rules
 from afecheck.model.load import load_design
 
@@ -30,7 +31,8 @@ def page(meta) -> str:
 @pytest.mark.parametrize("meta", METAS, ids=lambda m: m.id)
 def test_rule_page_follows_the_template(meta) -> None:
     text = page(meta)
-    assert text.splitlines()[0] == f"# {meta.id} {meta.slug}"
+    assert text.splitlines()[0] == f"# {meta.id}"
+    assert f"Name: `{meta.slug}`." in text.splitlines()[2] and f"Family: {meta.family}." in text.splitlines()[2]
     assert re.findall(r"^## (.+)$", text, flags=re.M) == SECTIONS
     example = text.split("## Flagged and passing", 1)[1].split("## Limits and their sources", 1)[0]
     assert example.index("Flagged") < example.index("Passing")
@@ -53,12 +55,14 @@ def test_rule_page_uses_no_borrowed_headings_and_cites_only_what_readers_have(me
 
 
 def test_catalogue_folders_are_exactly_the_registered_rules() -> None:
-    folders = {p.name for p in CATALOGUE.iterdir() if p.is_dir() and re.match(r"AFE\d{3}-", p.name)}
+    folders = {f"{fam.name}/{p.name}" for fam in CATALOGUE.iterdir() if fam.is_dir() and fam.name not in ("sets",)
+               and not fam.name.startswith("_") for p in fam.iterdir() if p.is_dir() and not p.name.startswith("_")}
     assert folders == {m.folder for m in METAS}
 
 
 def test_ids_and_slugs_are_well_formed_unique_and_not_retired() -> None:
-    assert all(re.fullmatch(r"AFE\d{3}", m.id) and re.fullmatch(r"[a-z0-9]+(-[a-z0-9]+)+", m.slug) for m in METAS)
+    assert all(RULE_ID.fullmatch(m.id) and m.id.split(".")[0] == m.family for m in METAS)
+    assert all(re.fullmatch(r"[a-z0-9]+(-[a-z0-9]+)+", m.slug) for m in METAS)
     assert len({m.id for m in METAS}) == len({m.slug for m in METAS}) == len(METAS)
     retired = yaml.safe_load(CATALOGUE.joinpath("retired.yaml").read_text(encoding="utf-8"))
     assert isinstance(retired, list) and not set(retired_ids()) & {m.id for m in METAS}

@@ -1,4 +1,4 @@
-"""Distortion rules (AFE401..AFE404, AFE406, AFE407) on StageResult objects and small designs, checked against
+"""Distortion rules on StageResult objects and small designs, checked against
 RULES-REFERENCE R3/R4 check values with thresholds on both sides."""
 
 from __future__ import annotations

@@ -52,7 +52,7 @@ components:
 def test_capacitive_load_phase_margins_match_the_published_table(tmp_path: Path, riso: float, pm: float,
                                                                  severity: Severity | None) -> None:
     # [FR] model, [NUM] values: RULES-REFERENCE R2(e), follower A0 1e5, GBW 10 MHz, f2 30 MHz, Ro 100 Ω, CL 1 nF
-    found = findings(cable_driver(tmp_path, riso), "AFE201")
+    found = findings(cable_driver(tmp_path, riso), "stability.phase-margin")
     assert [f.severity for f in found] == ([] if severity is None else [severity])
     if found:
         assert found[0].ctx["value"] == pytest.approx(pm, abs=0.01)
@@ -60,7 +60,7 @@ def test_capacitive_load_phase_margins_match_the_published_table(tmp_path: Path,
 
 
 def test_unisolated_cable_names_the_load_pole_and_crossover(tmp_path: Path) -> None:
-    [f] = findings(cable_driver(tmp_path, 0.0), "AFE201")
+    [f] = findings(cable_driver(tmp_path, 0.0), "stability.phase-margin")
     assert f.ctx["crossover_hz"] == pytest.approx(3.817e6, rel=1e-3)  # [NUM] R2(e)
     assert f.ctx["cause_hz"] == pytest.approx(1.592e6, rel=1e-3)  # [FR] fpL = 1/(2π·Ro·CL)
     assert "at 3.82 MHz" in f.message and "pole at 1.59 MHz" in f.message
@@ -80,14 +80,14 @@ components:
 
 def test_inverting_gain_of_one_on_a_fast_part_has_noise_gain_two(tmp_path: Path) -> None:
     # [GHLM] formula, [NUM] R2(a): GBW 50 MHz, f2 10 MHz, NG 2 (gain -1) -> PM 34.94° at A0 = 1e5
-    [f] = findings(gain_minus_one(tmp_path, None), "AFE201")
+    [f] = findings(gain_minus_one(tmp_path, None), "stability.phase-margin")
     assert f.severity == Severity.ERROR and f.ctx["value"] == pytest.approx(34.94, abs=0.02)
     assert f.ctx["noise_gain_at_crossover"] == pytest.approx(2.0, rel=0.02)
 
 
 def test_resistor_between_the_inputs_raises_noise_gain_to_five(tmp_path: Path) -> None:
     # [FR][NUM] R2(a): Rx = 333.3 Ω between the inputs -> NG 5.000, PM 51.83° (warning, not error)
-    [f] = findings(gain_minus_one(tmp_path, 333.3), "AFE201")
+    [f] = findings(gain_minus_one(tmp_path, 333.3), "stability.phase-margin")
     assert f.severity == Severity.WARNING and f.ctx["value"] == pytest.approx(51.83, abs=0.05)
 
 
@@ -111,14 +111,15 @@ components:
 
 def test_five_kilohm_sensor_into_ten_kilohm_inverting_input_is_a_third_low(tmp_path: Path) -> None:
     # common practice worked pair (issue); [FR] e = Rs/(Rs + Ri) = 5k/15k
-    [f] = findings(divider_into(tmp_path, True), "AFE101")
+    [f] = findings(divider_into(tmp_path, True), "loading.inverting-input")
     assert f.severity == Severity.ERROR and f.ctx["value"] == pytest.approx(1 / 3, rel=1e-3)
     assert "33.3 %" in f.message and f.location.refs[0] == "R1"
 
 
 def test_same_sensor_into_a_follower_is_not_loaded(tmp_path: Path) -> None:
     # common practice worked pair (issue)
-    assert findings(divider_into(tmp_path, False), "AFE101", "AFE102", "AFE103") == ()
+    rules = ("loading.inverting-input", "loading.input-divider", "loading.bias-offset")
+    assert findings(divider_into(tmp_path, False), *rules) == ()
 
 
 def test_common_mode_half_a_volt_over_on_a_follower(tmp_path: Path) -> None:
@@ -128,7 +129,7 @@ def test_common_mode_half_a_volt_over_on_a_follower(tmp_path: Path) -> None:
 components:
   U1: {kind: opamp, part: REF-AMP, pins: {in+: SIG, in-: OUT, out: OUT, v+: VCC, v-: GND}}
 """, cm_low=0.0, cm_high=1.5)
-    [f] = findings(path, "AFE301")
+    [f] = findings(path, "headroom.input-common-mode")
     assert f.ctx["value"] == pytest.approx(4.0, abs=1e-6) and f.ctx["margin"] == pytest.approx(-0.5, abs=1e-6)
 
 
@@ -140,7 +141,7 @@ def test_follower_through_the_rail_to_rail_transition_and_inverting_alternative(
 components:
   U1: {kind: opamp, part: REF-AMP, pins: {in+: SIG, in-: OUT, out: OUT, v+: VCC, v-: GND}}
 """, extra=rri)
-    [f] = findings(follower, "AFE401")
+    [f] = findings(follower, "distortion.input-pair-transition")
     assert f.ctx["window_low"] == pytest.approx(3.3) and f.ctx["window_high"] == pytest.approx(4.1)
     assert f.confidence == "estimated" and f.severity == Severity.WARNING  # window from assumed defaults
     inverting = write(tmp_path, """  VMID: {voltage: 2.5 V}
@@ -151,7 +152,7 @@ components:
   R2: {kind: resistor, value: 10k, pins: {1: FB, 2: OUT}}
   U1: {kind: opamp, part: REF-AMP, pins: {in+: VMID, in-: FB, out: OUT, v+: VCC, v-: GND}}
 """, extra=rri)
-    assert findings(inverting, "AFE401") == ()
+    assert findings(inverting, "distortion.input-pair-transition") == ()
 
 
 def test_loop_gain_and_slew_rate_at_twenty_kilohertz(tmp_path: Path) -> None:
@@ -166,10 +167,10 @@ components:
   R2: {kind: resistor, value: 9k, pins: {1: FB, 2: OUT}}
   U1: {kind: opamp, part: REF-AMP, pins: {in+: SIG, in-: FB, out: OUT, v+: VPOS, v-: VNEG}}
 """, rails="", gbw="1 MHz", f2="1 GHz", ro=0.0, sr="1 V/us")
-    [t] = findings(path, "AFE403")
+    [t] = findings(path, "distortion.loop-gain-at-fmax")
     assert t.severity == Severity.ERROR and t.ctx["value"] == pytest.approx(13.98, abs=0.02)
     assert t.ctx["amplitude_error"] == pytest.approx(1.942e-2, rel=0.01)
-    [s] = findings(path, "AFE404")
+    [s] = findings(path, "distortion.slew-rate")
     # the output peak is the largest over the band (10 V at gain 10), so the need is 2π·20 kHz·10 V
     assert s.ctx["required"] == pytest.approx(1.257e6, rel=1e-3)
     assert s.severity == Severity.ERROR and "1.26 V/µs" in s.message
@@ -184,7 +185,7 @@ components:
   R2: {kind: resistor, value: 100k, pins: {1: FBP, 2: OUT}}
   U1: {kind: opamp, part: REF-AMP, pins: {in+: FBP, in-: SIG, out: OUT, v+: VCC, v-: GND}}
 """, ro=0.0)
-    [f] = findings(path, "AFE204")
+    [f] = findings(path, "stability.feedback-sense")
     assert f.severity == Severity.ERROR and f.ctx["value"] == pytest.approx(-9091, rel=1e-3)
 
 
@@ -222,6 +223,6 @@ quit
     (fa, ta), (fb, tb) = t[k - 1], t[k]
     w = (math.log(abs(ta))) / (math.log(abs(ta)) - math.log(abs(tb)))
     pm = 180.0 + math.degrees(cmath.phase(ta)) + w * (math.degrees(cmath.phase(tb)) - math.degrees(cmath.phase(ta)))
-    [f] = findings(cable_driver(tmp_path, 0.0), "AFE201")
+    [f] = findings(cable_driver(tmp_path, 0.0), "stability.phase-margin")
     assert f.ctx["value"] == pytest.approx(pm, abs=0.01)
     assert f.ctx["crossover_hz"] == pytest.approx(fa + w * (fb - fa), rel=1e-3)

@@ -1,4 +1,4 @@
-"""Headroom rules (AFE301..AFE303) and the output-near-limit warning band (AFE405) on StageResult objects,
+"""Headroom rules and the output-near-limit warning band (distortion.near-swing-limit) on StageResult objects,
 checked against RULES-REFERENCE R3 check values with thresholds on both sides."""
 
 from __future__ import annotations

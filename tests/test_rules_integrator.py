@@ -1,4 +1,4 @@
-"""AFE204 on integrators: feedback only through a capacitor is a warning (no DC path), not "no feedback"."""
+"""Feedback sense on integrators: feedback only through a capacitor is a warning (no DC path), not "no feedback"."""
 
 from __future__ import annotations
 
@@ -21,7 +21,7 @@ loads: {{OUT: {{resistance: 100k}}}}
 def _afe204(tmp_path: Path, extra: str = "") -> list:
     path = tmp_path / "integrator.yaml"
     path.write_text(DESIGN.format(extra=extra), encoding="utf-8")
-    return [f for f in check_file(path).findings if f.rule == "AFE204"]
+    return [f for f in check_file(path).findings if f.rule == "stability.feedback-sense"]
 
 
 def test_integrator_without_dc_path_is_a_warning_naming_the_capacitor(tmp_path: Path) -> None:

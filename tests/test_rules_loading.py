@@ -1,4 +1,4 @@
-"""Loading rules (AFE101..AFE103) on StageResult objects built directly: thresholds on both sides, numbers
+"""Loading rules on StageResult objects built directly: thresholds on both sides, numbers
 checked against RULES-REFERENCE R1/R5b formulas and the issue's worked thermistor pair."""
 
 from __future__ import annotations

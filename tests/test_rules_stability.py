@@ -1,4 +1,4 @@
-"""Stability rules (AFE201..AFE204) on StageResult objects built directly: thresholds on both sides, and the
+"""Stability rules on StageResult objects built directly: thresholds on both sides, and the
 cause each message names checked against RULES-REFERENCE R2 check values."""
 
 from __future__ import annotations

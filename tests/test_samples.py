@@ -1,6 +1,6 @@
 """The sample designs load, validate against the JSON Schema, and give exactly the findings their headers promise.
 
-Each sample's header carries a machine-readable line ``# expect: AFE101 AFE301`` (or ``# expect: none``).
+Each sample's header carries a machine-readable line ``# expect: loading.inverting-input`` (or ``# expect: none``).
 The circuit facts each header states are checked here from the sample's own values with published
 formulas, and the numbers behind the findings are checked against the same formulas.
 """
@@ -17,6 +17,7 @@ import pytest
 import yaml
 
 from afecheck.cli import main
+from afecheck.engine.rule import RULE_ID
 from afecheck.model.units import parse_quantity
 
 ROOT = Path(__file__).resolve().parents[1]
@@ -33,7 +34,7 @@ def expected_rules(path: Path) -> set[str]:
     words = found[0].split()
     if words == ["none"]:
         return set()
-    assert words and all(re.fullmatch(r"AFE\d{3}", w) for w in words), f"{path.name}: bad expect line {found[0]!r}"
+    assert words and all(RULE_ID.fullmatch(w) for w in words), f"{path.name}: bad expect line {found[0]!r}"
     return set(words)
 
 

@@ -1,4 +1,4 @@
-"""AFE001: parts of the design the analysis could not evaluate, reported so that nothing passes silently."""
+"""Parts of the design the analysis could not evaluate, reported so that nothing passes silently."""
 
 from __future__ import annotations
 
@@ -10,7 +10,7 @@ from afecheck.engine.finding import Finding, Severity
 from afecheck.engine.rule import RuleMeta
 
 META = RuleMeta(
-    id="AFE001", slug="analysis-incomplete", severity=Severity.INFO, family="coverage",
+    id="coverage.not-evaluated", slug="analysis-incomplete", severity=Severity.INFO, family="coverage",
     summary="part of the design could not be analysed; the rules did not judge it",
     fix="give the missing data (part model, rail voltage, signal range) or review that part by hand",
 )

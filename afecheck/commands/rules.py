@@ -11,7 +11,7 @@ HELP = "list every rule, or print one rule's page: afecheck rules NAME"
 def add_arguments(p: argparse.ArgumentParser) -> None:
     """Command-line options of this command."""
     p.add_argument("rule", metavar="NAME", nargs="?",
-                   help="a rule's id or name (e.g. AFE201 or phase-margin-below-limit): print its page")
+                   help="a rule's id or name (e.g. stability.phase-margin or phase-margin-below-limit): print its page")
     p.add_argument("--family", help="only rules of this family (loading, stability, headroom, distortion, ...)")
 
 

@@ -60,8 +60,11 @@ class Finding:
     @property
     def fingerprint(self) -> str:
         """Stable key for waivers and baselines: rule plus electrical names, never line numbers."""
+        from afecheck.engine.aliases import fingerprint_id
+
         key = "|".join(
-            (self.rule, self.design, ",".join(sorted(self.location.refs)), ",".join(sorted(self.location.nets)))
+            (fingerprint_id(self.rule), self.design, ",".join(sorted(self.location.refs)),
+             ",".join(sorted(self.location.nets)))
         )
         return hashlib.sha256(key.encode("utf-8")).hexdigest()[:16]
 

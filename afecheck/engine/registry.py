@@ -28,6 +28,7 @@ from afecheck.checks.distortion import (
 from afecheck.checks.headroom import input_common_mode, output_current, output_swing
 from afecheck.checks.loading import bias_current_offset, input_divider_error, inverting_source_loading
 from afecheck.checks.stability import feedback_sign, gain_margin, min_stable_gain, phase_margin
+from afecheck.engine.aliases import current_id, retired
 from afecheck.engine.finding import Severity
 from afecheck.engine.rule import Rule, RuleMeta
 from afecheck.errors import ConfigError, Problem
@@ -35,7 +36,7 @@ from afecheck.errors import ConfigError, Problem
 ENTRY_POINT_GROUP = "afecheck.rules"
 
 CRASH_META = RuleMeta(
-    id="AFE000", slug="rule-crashed", severity=Severity.ERROR, family="coverage", needs=(),
+    id="coverage.rule-crashed", slug="rule-crashed", severity=Severity.ERROR, family="coverage", needs=(),
     summary="a rule stopped with an internal error, so its check did not run",
     fix="report the error with the design file; meanwhile review what the rule covers by hand",
 )
@@ -60,8 +61,8 @@ class Registry:
     rules: tuple[Rule, ...]
 
     def find(self, key: str) -> Rule | None:
-        """The rule whose id (any case) or slug is ``key``."""
-        k = key.strip()
+        """The rule whose id (any case) or name is ``key``; a retired id or name finds the rule that replaced it."""
+        k = current_id(key) or key.strip()
         for rule in self.rules:
             if rule.meta.id.upper() == k.upper() or rule.meta.slug == k.lower():
                 return rule
@@ -69,7 +70,7 @@ class Registry:
 
     def find_meta(self, key: str) -> RuleMeta | None:
         """Metadata of the rule (or the engine's crash finding) whose id or slug is ``key``."""
-        k = key.strip()
+        k = current_id(key) or key.strip()
         return next((m for m in self.metas() if m.id.upper() == k.upper() or m.slug == k.lower()), None)
 
     def metas(self) -> tuple[RuleMeta, ...]:
@@ -125,13 +126,7 @@ def plugin_rules() -> list[Rule]:
 
 def retired_ids() -> tuple[str, ...]:
     """Retired rule ids from the catalogue's ``retired.yaml`` (never reused)."""
-    from importlib import resources
-
-    import yaml
-
-    text = resources.files("afecheck._catalogue").joinpath("retired.yaml").read_text(encoding="utf-8")
-    data = yaml.safe_load(text) or []
-    return tuple(str(entry["id"] if isinstance(entry, dict) else entry) for entry in data)
+    return tuple(r.id for r in retired())
 
 
 @functools.lru_cache(maxsize=1)

@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import re
 from collections.abc import Callable, Iterator
 from dataclasses import dataclass
 from typing import TYPE_CHECKING
@@ -10,6 +11,10 @@ from afecheck.engine.finding import Finding, Severity
 
 if TYPE_CHECKING:
     from afecheck.engine.context import Context
+
+
+RULE_ID = re.compile(r"[a-z]+\.[a-z0-9]+(?:-[a-z0-9]+)*")
+"""A rule identifier: its family, a dot, and the topic in words (``stability.phase-margin``)."""
 
 
 @dataclass(frozen=True)
@@ -38,8 +43,8 @@ class RuleMeta:
 
     @property
     def folder(self) -> str:
-        """Name of the rule's documentation folder in the catalogue: ``<id>-<slug>``."""
-        return f"{self.id}-{self.slug}"
+        """The rule's documentation folder in the catalogue: ``<family>/<topic>`` for id ``family.topic``."""
+        return self.id.replace(".", "/")
 
     def param(self, name: str) -> Param:
         for p in self.params:

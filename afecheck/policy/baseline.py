@@ -7,6 +7,7 @@ from collections.abc import Iterable
 from pathlib import Path
 from typing import Any
 
+from afecheck.engine.aliases import current_id
 from afecheck.engine.finding import Finding, Location, Severity
 from afecheck.errors import ConfigError, Problem
 from afecheck.report.json_report import jsonable
@@ -67,7 +68,8 @@ def load_baseline(path: str | Path) -> tuple[Finding, ...]:
                 raise ValueError(f"missing {', '.join(missing)}")
             loc = Location(file=r["file"], line=r["line"], path=r["path"], refs=tuple(r["refs"]),
                            nets=tuple(r["nets"]), pins=tuple(r["pins"]))
-            out.append(Finding(rule=r["rule"], slug=r["slug"], severity=Severity.parse(r["severity"]),
+            out.append(Finding(rule=current_id(str(r["rule"])) or r["rule"], slug=r["slug"],
+                               severity=Severity.parse(r["severity"]),
                                message=r["message"], location=loc, ctx=dict(r.get("ctx") or {}), fix=r["fix"],
                                design=r["design"]))
         except (TypeError, ValueError, AttributeError) as exc:

@@ -7,7 +7,7 @@ set, turns rules off, overrides severities and thresholds, names waiver files an
     waivers: [waivers.yaml]       # paths relative to this file
     promote: {info: warning}
     rules:
-      AFE301: {params: {min_phase_margin: 60 deg}}
+      headroom.input-common-mode: {params: {min_phase_margin: 60 deg}}
       output-swing-limit: off
 """
 

@@ -3,9 +3,9 @@
 The same ``rules:`` grammar is used by rule-set files and by the project config:
 
     rules:
-      AFE301: off                          # or on
+      headroom.input-common-mode: off                          # or on
       phase-margin-below-limit: error      # a severity: error, warning or info
-      AFE102: {severity: warning, params: {max_error: 0.5 %}}
+      loading.input-divider: {severity: warning, params: {max_error: 0.5 %}}
 """
 
 from __future__ import annotations
@@ -16,6 +16,7 @@ from dataclasses import dataclass, field
 from importlib import resources
 from pathlib import Path
 
+from afecheck.engine.aliases import current_id
 from afecheck.engine.finding import Severity
 from afecheck.engine.rule import RuleMeta
 from afecheck.model.units import UNITS, UnitError, parse_quantity
@@ -59,12 +60,24 @@ class Catalogue:
     def __init__(self, metas: Sequence[RuleMeta]):
         self.metas = tuple(metas)
         self._by_key = {m.id.upper(): m for m in self.metas} | {m.slug: m for m in self.metas}
+        self.renamed_used: dict[str, str] = {}
 
     def find(self, key: object) -> RuleMeta | None:
+        """The rule named ``key`` (id in any case, or name); a retired id or name is noted and resolved."""
         if not isinstance(key, str):
             return None
         k = key.strip()
-        return self._by_key.get(k.upper()) or self._by_key.get(k.lower())
+        meta = self._by_key.get(k.upper()) or self._by_key.get(k.lower())
+        if meta is None and (now := current_id(k)) is not None:
+            meta = self._by_key.get(now.upper())
+            if meta is not None:
+                self.renamed_used[k] = meta.id
+        return meta
+
+    def rename_notes(self) -> tuple[str, ...]:
+        """One line per retired id or name that this run's configs, rule sets or waivers still use."""
+        return tuple(f"{old} is the retired name of rule {new}: it still works; write {new} instead"
+                     for old, new in sorted(self.renamed_used.items()))
 
 
 def parse_param_value(value: object, unit: str) -> float:

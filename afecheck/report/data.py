@@ -111,6 +111,7 @@ class Report:
     baseline: str | None = None
     unused_waivers: tuple[WaiverNote, ...] = ()
     expired_waivers: tuple[WaiverNote, ...] = field(default=())
+    notes: tuple[str, ...] = ()
 
     def entries(self) -> tuple[Entry, ...]:
         return tuple(e for d in self.designs for e in d.entries)

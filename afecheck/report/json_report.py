@@ -98,6 +98,7 @@ def report_dict(report: Report) -> dict[str, Any]:
             "expired": [waiver_dict(w) for w in report.expired_waivers],
         },
         "statuses": dict(STATUS_MEANING),
+        "notes": list(report.notes),
     }
 
 

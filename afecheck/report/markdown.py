@@ -59,6 +59,7 @@ def render_markdown(report: Report) -> str:
     notes = [f"- expired waiver `{_cell(w.label)}` ({w.file}:{w.line or 0}, expired {w.expires}): finding re-opened"
              for w in report.expired_waivers]
     notes += [f"- {_cell(unused_text(w))}" for w in report.unused_waivers]
+    notes += [f"- {_cell(n)}" for n in report.notes]
     if notes:
-        out += ["**Waiver file notes**", ""] + notes + [""]
+        out += ["**Notes**", ""] + notes + [""]
     return "\n".join(out).rstrip("\n") + "\n"

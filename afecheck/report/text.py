@@ -54,5 +54,6 @@ def render_text(report: Report, color: bool = False) -> str:
         out.append(f"{w.file}:{w.line or 0}: note: waiver {w.label} expired on {w.expires}")
     for w in report.unused_waivers:
         out.append(f"{unused_text(w)}")
+    out.extend(f"note: {n}" for n in report.notes)
     out.append("afecheck: " + summary_line(report))
     return "\n".join(out) + "\n"

@@ -1,4 +1,4 @@
-"""AFE406: a class 2 ceramic capacitor (X7R, X5R, Y5V...) with signal across it in a feedback, filter or
+"""A class 2 ceramic capacitor (X7R, X5R, Y5V...) with signal across it in a feedback, filter or
 coupling position. The AC voltage across it is found in closed form from its position (RULES-REFERENCE R4f)."""
 
 from __future__ import annotations
@@ -14,7 +14,8 @@ from afecheck.engine.rule import Param, RuleMeta
 from afecheck.model.schema import DIELECTRICS_CLASS2
 
 META = RuleMeta(
-    id="AFE406", slug="class-2-ceramic-in-signal-path", severity=Severity.WARNING, family="distortion", needs=(),
+    id="distortion.class2-ceramic", slug="class-2-ceramic-in-signal-path",
+    severity=Severity.WARNING, family="distortion", needs=(),
     summary="class 2 ceramic capacitor with signal across it in a feedback, filter or coupling position",
     params=(Param("fraction", 0.01, "1", "capacitor voltage / signal voltage above which a warning is raised"),),
     fix="use a C0G/NP0 or film capacitor here; for coupling, make the capacitor large enough that little signal "

@@ -1,4 +1,4 @@
-"""AFE402: large common-mode swing in a non-inverting stage: error referred to the input via CMRR."""
+"""Large common-mode swing in a non-inverting stage: error referred to the input via CMRR."""
 
 from __future__ import annotations
 
@@ -12,7 +12,7 @@ from afecheck.engine.finding import Finding, Severity
 from afecheck.engine.rule import Param, RuleMeta
 
 META = RuleMeta(
-    id="AFE402", slug="common-mode-swing-error", severity=Severity.WARNING, family="distortion",
+    id="distortion.common-mode-error", slug="common-mode-swing-error", severity=Severity.WARNING, family="distortion",
     summary="common-mode swing through finite CMRR uses up the output error budget",
     params=(
         Param("budget_share", 0.25, "1", "share of the offset budget the CMRR error may take"),

@@ -1,4 +1,4 @@
-"""AFE407: unequal source impedances at the two inputs of a CMOS or JFET input stage with common-mode swing."""
+"""Unequal source impedances at the two inputs of a CMOS or JFET input stage with common-mode swing."""
 
 from __future__ import annotations
 
@@ -14,7 +14,8 @@ from afecheck.engine.finding import Finding, Severity
 from afecheck.engine.rule import Param, RuleMeta
 
 META = RuleMeta(
-    id="AFE407", slug="unbalanced-impedance-at-high-z-inputs", severity=Severity.WARNING, family="distortion",
+    id="distortion.impedance-balance", slug="unbalanced-impedance-at-high-z-inputs",
+    severity=Severity.WARNING, family="distortion",
     summary="unequal source impedances at a CMOS/JFET input stage that swings in common mode",
     params=(
         Param("min_vcm_peak", 1.0, "V", "common-mode AC peak above which the rule applies"),

@@ -1,4 +1,4 @@
-"""AFE403: little loop gain left at the highest signal frequency to correct open-loop nonlinearity."""
+"""Little loop gain left at the highest signal frequency to correct open-loop nonlinearity."""
 
 from __future__ import annotations
 
@@ -12,7 +12,8 @@ from afecheck.engine.finding import Finding, Severity
 from afecheck.engine.rule import Param, RuleMeta
 
 META = RuleMeta(
-    id="AFE403", slug="loop-gain-low-at-signal-frequency", severity=Severity.ERROR, family="distortion",
+    id="distortion.loop-gain-at-fmax", slug="loop-gain-low-at-signal-frequency",
+    severity=Severity.ERROR, family="distortion",
     summary="loop gain at the highest signal frequency below 40 dB (warning) or 20 dB (error)",
     params=(
         Param("warn_db", 40.0, "dB", "loop gain at f_max below which a warning is raised"),

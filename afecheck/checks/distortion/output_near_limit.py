@@ -1,4 +1,4 @@
-"""AFE405: output within 100 mV of its swing limit at full signal (not beyond: that is AFE302)."""
+"""Output within 100 mV of its swing limit at full signal (not beyond: that is headroom.output-swing)."""
 
 from __future__ import annotations
 
@@ -12,7 +12,7 @@ from afecheck.engine.finding import Finding, Severity
 from afecheck.engine.rule import Param, RuleMeta
 
 META = RuleMeta(
-    id="AFE405", slug="output-near-swing-limit", severity=Severity.WARNING, family="distortion",
+    id="distortion.near-swing-limit", slug="output-near-swing-limit", severity=Severity.WARNING, family="distortion",
     summary="output at full signal within 100 mV of its swing limit, where output-stage linearity falls",
     params=(Param("band", 0.1, "V", "headroom to the swing limit below which a warning is raised"),),
     fix="lower the gain or output offset a little, lighten the load, or choose a part with more output swing",
@@ -24,7 +24,7 @@ def check(ctx: Context) -> Iterator[Finding]:
     band = ctx.param("band")
     for stage in ctx.stages:
         if not rails_known(ctx, stage.opamp):
-            continue  # supply voltage unknown: AFE001 reports it
+            continue  # supply voltage unknown: coverage.not-evaluated reports it
         s = swing(ctx, stage)
         if s is None:
             continue

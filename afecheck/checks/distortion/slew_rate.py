@@ -1,4 +1,4 @@
-"""AFE404: slew rate below once (error) or twice (warning) the 2π·f·Vpk the output signal needs."""
+"""distortion.slew-rate: slew rate below once (error) or twice (warning) the 2π·f·Vpk the output signal needs."""
 
 from __future__ import annotations
 
@@ -12,7 +12,7 @@ from afecheck.engine.finding import Finding, Severity
 from afecheck.engine.rule import Param, RuleMeta
 
 META = RuleMeta(
-    id="AFE404", slug="slew-rate-too-low", severity=Severity.ERROR, family="distortion",
+    id="distortion.slew-rate", slug="slew-rate-too-low", severity=Severity.ERROR, family="distortion",
     summary="op-amp slew rate below 2× (warning) or 1× (error) the required 2π·f·Vpk",
     params=(
         Param("warn_factor", 2.0, "1", "required-slew-rate multiple below which a warning is raised"),

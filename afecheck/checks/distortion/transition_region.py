@@ -1,4 +1,4 @@
-"""AFE401: common-mode swing through a complementary rail-to-rail input stage's transition region."""
+"""Common-mode swing through a complementary rail-to-rail input stage's transition region."""
 
 from __future__ import annotations
 
@@ -12,7 +12,8 @@ from afecheck.engine.finding import Finding, Severity
 from afecheck.engine.rule import RuleMeta
 
 META = RuleMeta(
-    id="AFE401", slug="common-mode-crosses-input-transition", severity=Severity.WARNING, family="distortion",
+    id="distortion.input-pair-transition", slug="common-mode-crosses-input-transition",
+    severity=Severity.WARNING, family="distortion",
     summary="input common mode swings through a rail-to-rail input's pair-transition region",
     fix="use an inverting stage around a fixed reference, keep the common mode on one side of the region, or choose "
         "a zero-crossover or single-pair input part",
@@ -28,7 +29,7 @@ def check(ctx: Context) -> Iterator[Finding]:
     """Warn when a moving common mode overlaps the transition window; estimate the output step and distortion."""
     for stage in ctx.stages:
         if not rails_known(ctx, stage.opamp):
-            continue  # supply voltage unknown: AFE001 reports it
+            continue  # supply voltage unknown: coverage.not-evaluated reports it
         if stage.opamp not in ctx.loaded.design.components:
             continue
         if ctx.loaded.part(stage.opamp).input_stage != "rail-to-rail-complementary":

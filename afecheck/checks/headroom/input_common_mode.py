@@ -1,4 +1,4 @@
-"""AFE301: input common-mode voltage outside the part's range anywhere over the declared signal range."""
+"""Input common-mode voltage outside the part's range anywhere over the declared signal range."""
 
 from __future__ import annotations
 
@@ -12,7 +12,7 @@ from afecheck.engine.finding import Finding, Severity
 from afecheck.engine.rule import Param, RuleMeta
 
 META = RuleMeta(
-    id="AFE301", slug="input-common-mode-out-of-range", severity=Severity.ERROR, family="headroom",
+    id="headroom.input-common-mode", slug="input-common-mode-out-of-range", severity=Severity.ERROR, family="headroom",
     summary="op-amp input common-mode voltage outside (error) or within 100 mV of (warning) its range",
     params=(Param("warn_band", 0.1, "V", "headroom inside the common-mode range below which a warning is raised"),),
     fix="use an inverting stage around a reference inside the range, shift the input level, or choose a part whose "
@@ -25,9 +25,9 @@ def check(ctx: Context) -> Iterator[Finding]:
     band = ctx.param("warn_band")
     for stage in ctx.stages:
         if not rails_known(ctx, stage.opamp):
-            continue  # supply voltage unknown: AFE001 reports it
+            continue  # supply voltage unknown: coverage.not-evaluated reports it
         if stage.feedback != "negative":
-            continue  # no linear operating range to judge: AFE204 reports the loop
+            continue  # no linear operating range to judge: stability.feedback-sense reports the loop
         ext = cm_extremes(ctx, stage)
         if ext is None:
             yield not_evaluated(ctx, f"{stage.opamp} input common mode", stage_reason(stage, "no common-mode range"),

@@ -1,4 +1,4 @@
-"""AFE303: peak output current near or above the op-amp's output current limit."""
+"""headroom.output-current: peak output current near or above the op-amp's output current limit."""
 
 from __future__ import annotations
 
@@ -11,7 +11,7 @@ from afecheck.engine.finding import Finding, Severity
 from afecheck.engine.rule import Param, RuleMeta
 
 META = RuleMeta(
-    id="AFE303", slug="output-current-near-limit", severity=Severity.ERROR, family="headroom",
+    id="headroom.output-current", slug="output-current-near-limit", severity=Severity.ERROR, family="headroom",
     summary="peak output current above 50 % (warning) or 100 % (error) of the part's limit",
     params=(
         Param("warn_fraction", 0.5, "1", "share of the current limit above which a warning is raised"),

@@ -1,4 +1,4 @@
-"""AFE302: required output voltage beyond the op-amp's swing limit at its actual load."""
+"""headroom.output-swing: required output voltage beyond the op-amp's swing limit at its actual load."""
 
 from __future__ import annotations
 
@@ -12,7 +12,7 @@ from afecheck.engine.finding import Finding, Severity
 from afecheck.engine.rule import RuleMeta
 
 META = RuleMeta(
-    id="AFE302", slug="output-beyond-swing-limit", severity=Severity.ERROR, family="headroom",
+    id="headroom.output-swing", slug="output-beyond-swing-limit", severity=Severity.ERROR, family="headroom",
     summary="required output voltage beyond the op-amp's swing limit at its load (it clips)",
     fix="lower the gain or the input range, move the output reference, lighten the load, or choose a "
         "rail-to-rail-output part",
@@ -20,12 +20,12 @@ META = RuleMeta(
 
 
 def check(ctx: Context) -> Iterator[Finding]:
-    """Error when the highest or lowest required output passes the swing limit (warning band: AFE405)."""
+    """Error when the highest or lowest required output passes the swing limit (its warning band is another rule)."""
     for stage in ctx.stages:
         if not rails_known(ctx, stage.opamp):
-            continue  # supply voltage unknown: AFE001 reports it
+            continue  # supply voltage unknown: coverage.not-evaluated reports it
         if stage.feedback != "negative":
-            continue  # no linear operating range to judge: AFE204 reports the loop
+            continue  # no linear operating range to judge: stability.feedback-sense reports the loop
         s = swing(ctx, stage)
         if s is None:
             if stage.vout_min is None or stage.vout_max is None:

@@ -1,4 +1,4 @@
-"""AFE103: input bias current through the source resistance of a non-inverting input offsets the output."""
+"""loading.bias-offset: input bias current through the source resistance of a non-inverting input offsets the output."""
 
 from __future__ import annotations
 
@@ -12,7 +12,7 @@ from afecheck.engine.finding import Finding, Severity
 from afecheck.engine.rule import Param, RuleMeta
 
 META = RuleMeta(
-    id="AFE103", slug="bias-current-offsets-output", severity=Severity.ERROR, family="loading",
+    id="loading.bias-offset", slug="bias-current-offsets-output", severity=Severity.ERROR, family="loading",
     summary="input bias current through the source resistance offsets a non-inverting stage's output",
     params=(
         Param("budget_warn", 0.25, "1", "share of the declared offset budget above which a warning is raised"),

@@ -1,4 +1,4 @@
-"""AFE102: a non-inverting input's common-mode impedance divides the source signal (Rcm at DC, Ccm at f_max)."""
+"""A non-inverting input's common-mode impedance divides the source signal (Rcm at DC, Ccm at f_max)."""
 
 from __future__ import annotations
 
@@ -13,7 +13,7 @@ from afecheck.engine.finding import Finding, Severity
 from afecheck.engine.rule import Param, RuleMeta
 
 META = RuleMeta(
-    id="AFE102", slug="input-impedance-divides-source", severity=Severity.ERROR, family="loading",
+    id="loading.input-divider", slug="input-impedance-divides-source", severity=Severity.ERROR, family="loading",
     summary="source resistance against a non-inverting input's resistance and capacitance loses signal",
     params=(
         Param("warn_fraction", 1e-3, "1", "divider error above which a warning is raised"),

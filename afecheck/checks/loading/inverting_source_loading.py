@@ -1,4 +1,4 @@
-"""AFE101: a source's Thevenin resistance adds to an inverting (summing, difference) input resistor."""
+"""loading.inverting-input: a source's Thevenin resistance adds to an inverting (summing, difference) input resistor."""
 
 from __future__ import annotations
 
@@ -11,7 +11,7 @@ from afecheck.engine.finding import Finding, Severity
 from afecheck.engine.rule import Param, RuleMeta
 
 META = RuleMeta(
-    id="AFE101", slug="inverting-input-loads-source", severity=Severity.ERROR, family="loading",
+    id="loading.inverting-input", slug="inverting-input-loads-source", severity=Severity.ERROR, family="loading",
     summary="source resistance in series with an inverting-type input resistor changes the gain",
     params=(
         Param("warn_fraction", 1e-3, "1", "gain error Rs/(Rs+Ri) above which a warning is raised"),

@@ -1,4 +1,4 @@
-"""AFE204: an op-amp with no feedback, net positive feedback, or feedback only through capacitors."""
+"""stability.feedback-sense: an op-amp with no feedback, net positive feedback, or feedback only through capacitors."""
 
 from __future__ import annotations
 
@@ -11,7 +11,7 @@ from afecheck.engine.finding import Finding, Severity
 from afecheck.engine.rule import RuleMeta
 
 META = RuleMeta(
-    id="AFE204", slug="feedback-missing-or-positive", severity=Severity.ERROR, family="stability",
+    id="stability.feedback-sense", slug="feedback-missing-or-positive", severity=Severity.ERROR, family="stability",
     summary="op-amp without negative feedback: open loop, positive feedback, or no DC feedback path",
     fix="close the loop from the output to the inverting input; for an integrator add a resistor or reset across "
         "the capacitor; use a comparator part if switching is intended",

@@ -1,4 +1,4 @@
-"""AFE203: gain margin at the loop's -180° crossing below the limit."""
+"""stability.gain-margin: gain margin at the loop's -180° crossing below the limit."""
 
 from __future__ import annotations
 
@@ -11,7 +11,7 @@ from afecheck.engine.finding import Finding, Severity
 from afecheck.engine.rule import Param, RuleMeta
 
 META = RuleMeta(
-    id="AFE203", slug="gain-margin-below-limit", severity=Severity.WARNING, family="stability",
+    id="stability.gain-margin", slug="gain-margin-below-limit", severity=Severity.WARNING, family="stability",
     summary="loop gain margin at the -180° crossing below 6 dB (warning) or 0 dB (error)",
     params=(
         Param("warn_db", 6.0, "dB", "gain margin below which a warning is raised"),

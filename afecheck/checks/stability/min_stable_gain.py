@@ -1,4 +1,4 @@
-"""AFE202: a decompensated op-amp whose noise gain at crossover is below its minimum stable gain."""
+"""stability.min-stable-gain: a decompensated op-amp whose noise gain at crossover is below its minimum stable gain."""
 
 from __future__ import annotations
 
@@ -11,7 +11,7 @@ from afecheck.engine.finding import Finding, Severity
 from afecheck.engine.rule import RuleMeta
 
 META = RuleMeta(
-    id="AFE202", slug="noise-gain-below-minimum-stable", severity=Severity.ERROR, family="stability",
+    id="stability.min-stable-gain", slug="noise-gain-below-minimum-stable", severity=Severity.ERROR, family="stability",
     summary="decompensated op-amp run below its minimum stable noise gain at crossover",
     fix="raise the high-frequency noise gain (resistor between the inputs, smaller feedback capacitor, more gain) "
         "or choose a unity-gain-stable part",

@@ -1,4 +1,4 @@
-"""AFE201: phase margin of an op-amp loop from its return ratio (input C, feedback C and load included)."""
+"""Phase margin of an op-amp loop from its return ratio (input C, feedback C and load included)."""
 
 from __future__ import annotations
 
@@ -12,7 +12,7 @@ from afecheck.engine.finding import Finding, Severity
 from afecheck.engine.rule import Param, RuleMeta
 
 META = RuleMeta(
-    id="AFE201", slug="phase-margin-below-limit", severity=Severity.ERROR, family="stability",
+    id="stability.phase-margin", slug="phase-margin-below-limit", severity=Severity.ERROR, family="stability",
     summary="loop phase margin below 45° (error) or 60° (warning)",
     params=(
         Param("warn_deg", 60.0, "deg", "phase margin below which a warning is raised"),
