@@ -1,4 +1,4 @@
-"""AFE501: the integrated noise at a net, over its signal band, is larger than the net's noise budget."""
+"""budgets.noise: the integrated noise at a net, over its signal band, is larger than the net's noise budget."""
 
 from __future__ import annotations
 
@@ -11,7 +11,7 @@ from afecheck.engine.finding import Finding, Severity
 from afecheck.engine.rule import Param, RuleMeta
 
 META = RuleMeta(
-    id="AFE501", slug="noise-over-budget", severity=Severity.ERROR, family="budgets",
+    id="budgets.noise", slug="noise-over-budget", severity=Severity.ERROR, family="budgets",
     summary="integrated output noise over the signal band exceeds the net's noise budget",
     needs=("noise",),
     params=(
