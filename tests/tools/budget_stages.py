@@ -27,7 +27,7 @@ def random_part(rng: random.Random, white: bool = True) -> dict[str, Any]:
     }
 
 
-def random_channel(seed: int, white: bool = True) -> tuple[dict[str, Any], str]:
+def random_channel(seed: int, white: bool = True, second: bool | None = None) -> tuple[dict[str, Any], str]:
     """A design: a signal with source resistance, a first stage (non-inverting, inverting or RC-filtered follower),
     sometimes a second inverting stage, with feedback capacitors sometimes; split ±5 V rails."""
     rng = random.Random(seed)
@@ -52,7 +52,7 @@ def random_channel(seed: int, white: bool = True) -> tuple[dict[str, Any], str]:
     if first != "follower-rc" and rng.random() < 0.5:
         comps["C1"] = {"kind": "capacitor", "value": _e96(rng, 1e-12, 1e-9), "pins": {1: "A", 2: "FB1"}}
     out = "A"
-    if rng.random() < 0.5:
+    if (rng.random() < 0.5) if second is None else second:
         comps["U2"] = {"kind": "opamp", "part": "P2", "pins": {"in+": "GND", "in-": "FB2", "out": "B", "v+": "VP",
                                                                "v-": "VN"}}
         comps["R3"] = {"kind": "resistor", "value": _e96(rng, 1e3, 1e5), "pins": {1: "A", 2: "FB2"}}
@@ -76,9 +76,9 @@ def random_channel(seed: int, white: bool = True) -> tuple[dict[str, Any], str]:
     }, out
 
 
-def write_channel(tmp_path, seed: int, white: bool = True):  # noqa: ANN001, ANN201
+def write_channel(tmp_path, seed: int, white: bool = True, second: bool | None = None):  # noqa: ANN001, ANN201
     """Write the channel to a YAML file; return (path, output net)."""
-    data, out = random_channel(seed, white)
+    data, out = random_channel(seed, white, second)
     path = tmp_path / f"channel_{seed}.yaml"
     path.write_text(yaml.safe_dump(data, sort_keys=False), encoding="utf-8")
     return path, out
