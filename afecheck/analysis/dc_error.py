@@ -6,8 +6,13 @@ tolerance, each rail's and reference's tolerance; and, as a systematic term, eac
 output with the declared A0 against A0 a million times larger). Each term is the change of the net's voltage
 when that quantity alone moves to its limit, found by a DC solve of the whole channel (exact for the linear
 circuit, first order in the product of two tolerances), at both ends of the declared signal range (signal low
-and high; a thermistor at the ends of its range). From the two ends each term splits into an offset (the error
-where the ideal output line crosses 0 V) and a gain error (the change of the span over the ideal span).
+and high; a thermistor at the ends of its range). Where a declared signal drives the channel, the transfer is a
+straight line and each term splits into an offset (its error at zero scale, where the ideal output crosses
+0 V, if the range holds that point, else at mid-scale) and a gain error (the change of its error across the span
+over the ideal span). A channel driven only by a thermistor
+or a reference has no straight line to split: its offset is the term's larger error at the two ends and no gain
+error is given. A thermistor's own tolerance is the sensor's accuracy, not the electronics': it is listed
+(kind ``sensor``) but left out of the totals.
 
 Totals: worst case is the linear sum Σ|term|, statistical the root-sum-square √Σ term² (treating each limit as
 the same confidence bound, common practice). The exact worst case is also solved: every quantity at the limit
@@ -83,7 +88,7 @@ class NetDcError:
     gain_error_rss: float | None
     corner_low: float
     corner_high: float
-    """exact worst-case error (V): the most negative and most positive over both signal ends"""
+    """exact worst-case error (V), sensor tolerance left out: the most negative and most positive over both ends"""
     drift_terms: tuple[DcTerm, ...] = ()
     drift_worst: float = 0.0
     drift_rss: float = 0.0
@@ -116,7 +121,7 @@ def quantities(loaded: LoadedDesign, netlist: Netlist, drift: bool = False) -> t
         if isinstance(e, Resistor) and e.name in d.components and d.components[e.name].kind == "ntc":
             tol = d.components[e.name].tolerance
             if tol and not drift:
-                out.append(Quantity(f"{e.name} tolerance", "thermistor", (e.name,), tol, e.name, "scale"))
+                out.append(Quantity(f"{e.name} tolerance", "sensor", (e.name,), tol, e.name, "scale"))
         elif isinstance(e, Resistor) and e.name in d.components and d.components[e.name].kind == "resistor":
             comp = d.components[e.name]
             if drift:
@@ -205,13 +210,18 @@ def _v(netlist: Netlist, node: str) -> float:
     return solve_dc(netlist).voltage(node)
 
 
-def _split(ideal_low: float, ideal_high: float, low: float, high: float) -> tuple[float, float | None]:
-    """(offset at the ideal output's zero crossing, gain error as a fraction of the ideal span) of one term."""
+def _split(ideal_low: float, ideal_high: float, low: float, high: float,
+           linear: bool = True) -> tuple[float, float | None]:
+    """(offset, gain error as a fraction of the ideal span) of one term. The offset is the error at zero scale (where
+    the ideal output crosses 0 V) when that lies inside the range, else at mid-scale; without a straight-line
+    transfer (``linear`` false) or a span, the larger end error and no gain error."""
     span = ideal_high - ideal_low
-    if abs(span) < 1e-12 * max(1.0, abs(ideal_low)):
-        return 0.5 * (low + high), None
-    gain = (high - low) / span
-    return low - gain * ideal_low, gain
+    if not linear or abs(span) < 1e-12 * max(1.0, abs(ideal_low)):
+        return (low if abs(low) >= abs(high) else high), None
+    at = -ideal_low / span
+    if not 0.0 <= at <= 1.0:
+        at = 0.5
+    return low + at * (high - low), (high - low) / span
 
 
 def channel_dc_error(loaded: LoadedDesign, channel: Channel, nets: Iterable[str]) -> dict[str, NetDcError]:
@@ -237,37 +247,41 @@ def channel_dc_error(loaded: LoadedDesign, channel: Channel, nets: Iterable[str]
         for n, node in targets:
             for s in (-1.0, 1.0):
                 moves = [(q, math.copysign(q.limit, s * m[k][n]) if m[k][n] != 0 else 0.0)
-                         for q, m in zip(qs, moved, strict=True)]
+                         for q, m in zip(qs, moved, strict=True) if q.kind != "sensor"]
                 err = _v(perturbed(nl, moves), node) - ideal_v[k][n]
                 corner.setdefault(n, []).append(err)
+    linear = bool(channel.signal_branches)
     for n, _ in targets:
         lo_i, hi_i = ideal_v[0][n], ideal_v[1][n]
         terms = []
         for q, m in zip(qs, moved, strict=True):
-            off, gain = _split(lo_i, hi_i, m[0][n], m[1][n])
+            off, gain = _split(lo_i, hi_i, m[0][n], m[1][n], linear)
             terms.append(DcTerm(q.name, q.kind, q.refs, q.limit, m[0][n], m[1][n], off, gain))
         for ref, op in ends[0].opamps.items():
             g = gain_terms[0]
-            off, gain = _split(lo_i, hi_i, g[0][n], g[1][n])
+            off, gain = _split(lo_i, hi_i, g[0][n], g[1][n], linear)
             terms.append(DcTerm(f"{ref} finite open-loop gain", "open-loop gain", (ref,), op.open_loop_gain,
                                 g[0][n], g[1][n], off, gain))
             break
         if len(ends[0].opamps) > 1:
             terms[-1] = replace(terms[-1], name="finite open-loop gain", refs=tuple(ends[0].opamps))
         terms.sort(key=lambda t: (-max(abs(t.error_low), abs(t.error_high)), t.name))
-        has_gain = all(t.gain_error is not None for t in terms)
+        counted = [t for t in terms if t.kind != "sensor"]
+        has_gain = all(t.gain_error is not None for t in counted)
         dterms = []
         for q, m in zip(dqs, drifted, strict=True):
-            off, gain = _split(lo_i, hi_i, m[0][n], m[1][n])
+            off, gain = _split(lo_i, hi_i, m[0][n], m[1][n], linear)
             dterms.append(DcTerm(q.name, q.kind, q.refs, q.limit, m[0][n], m[1][n], off, gain))
         dterms.sort(key=lambda t: (-max(abs(t.error_low), abs(t.error_high)), t.name))
         drift_each = [max(abs(t.error_low), abs(t.error_high)) for t in dterms]
         rng = loaded.design.operating_temperature
         results[n] = NetDcError(
             net=n, ideal_low=lo_i, ideal_high=hi_i, terms=tuple(terms),
-            offset_worst=sum(abs(t.offset) for t in terms), offset_rss=math.sqrt(sum(t.offset**2 for t in terms)),
-            gain_error_worst=sum(abs(t.gain_error) for t in terms) if has_gain else None,  # type: ignore[arg-type]
-            gain_error_rss=math.sqrt(sum(t.gain_error**2 for t in terms)) if has_gain else None,  # type: ignore[operator]
+            offset_worst=sum(abs(t.offset) for t in counted),
+            offset_rss=math.sqrt(sum(t.offset**2 for t in counted)),
+            gain_error_worst=sum(abs(t.gain_error) for t in counted) if has_gain else None,  # type: ignore[arg-type]
+            gain_error_rss=(math.sqrt(sum(t.gain_error**2 for t in counted))  # type: ignore[operator]
+                            if has_gain else None),
             corner_low=min(corner[n]), corner_high=max(corner[n]), drift_terms=tuple(dterms),
             drift_worst=sum(drift_each), drift_rss=math.sqrt(sum(x * x for x in drift_each)),
             temperature_range=(float(rng[0]), float(rng[1])) if rng else None,

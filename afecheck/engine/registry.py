@@ -15,7 +15,7 @@ from types import ModuleType
 from typing import Any
 
 from afecheck.checks import coverage
-from afecheck.checks.budgets import noise_over_budget
+from afecheck.checks.budgets import drift_over_budget, gain_error_over_budget, noise_over_budget, offset_over_budget
 from afecheck.checks.distortion import (
     class2_ceramic,
     common_mode_swing,
@@ -48,7 +48,7 @@ _BUILTIN_MODULES: tuple[ModuleType, ...] = (
     input_common_mode, output_swing, output_current,
     transition_region, common_mode_swing, loop_gain_at_fmax, slew_rate, output_near_limit, class2_ceramic,
     input_impedance_imbalance,
-    noise_over_budget,
+    noise_over_budget, offset_over_budget, gain_error_over_budget, drift_over_budget,
 )
 
 BUILTIN_RULES: tuple[Rule, ...] = tuple(Rule(m.META, m.check) for m in _BUILTIN_MODULES)

@@ -4,8 +4,8 @@ from __future__ import annotations
 
 from collections.abc import Iterator
 
-from afecheck.checks.budgets.shared import noise_of_budgets, top_shares
-from afecheck.checks.common import finding, fmt, grade_above, not_evaluated, pct
+from afecheck.checks.budgets.shared import noise_of_budgets, over_budget, top_shares
+from afecheck.checks.common import fmt, not_evaluated
 from afecheck.engine.context import Context
 from afecheck.engine.finding import Finding, Severity
 from afecheck.engine.rule import Param, RuleMeta
@@ -33,21 +33,14 @@ def check(ctx: Context) -> Iterator[Finding]:
             yield not_evaluated(ctx, f"noise at {net}", result.not_evaluated[net], nets=(net,))
             continue
         nn = result.nets[net]
-        share = nn.output_rms / budget.noise
-        severity = grade_above(share, ctx.param("budget_warn"), ctx.param("budget_error"))
-        if severity is None:
-            continue
-        limit_share = ctx.param("budget_error" if severity == Severity.ERROR else "budget_warn")
-        limit = limit_share * budget.noise
         lead = nn.contributors[0] if nn.contributors else None
-        text = (f"{net}: {fmt(nn.output_rms, 'V')} rms of noise over {fmt(nn.band[0], 'Hz')}..{fmt(nn.band[1], 'Hz')} "
-                f"at {nn.temperature_k:.1f} K is {pct(share)} of its {fmt(budget.noise, 'V')} budget "
-                f"(limit {fmt(limit, 'V')}); largest contributors: {top_shares(nn.contributors)}")
-        yield finding(
-            ctx, severity, value=nn.output_rms, limit=limit, unit="V", margin=limit - nn.output_rms,
-            limit_source=f"budgets.{net}.noise × rule parameter", message=text, fix=META.fix,
-            refs=lead.refs if lead else (), nets=(net,), assumed=nn.assumed,
+        found = over_budget(
+            ctx, net, "noise", nn.output_rms, budget.noise, "V",
+            f"rms noise over {fmt(nn.band[0], 'Hz')}..{fmt(nn.band[1], 'Hz')} at {nn.temperature_k:.1f} K",
+            f"largest contributors: {top_shares(nn.contributors)}", refs=lead.refs if lead else (),
+            assumed=nn.assumed,
             extra={"band_low_hz": nn.band[0], "band_high_hz": nn.band[1], "temperature_k": nn.temperature_k,
                    "top_contributors": top_shares(nn.contributors),
-                   **({"input_rms": nn.input_rms} if nn.input_rms is not None else {})},
-        )
+                   **({"input_rms": nn.input_rms} if nn.input_rms is not None else {})})
+        if found is not None:
+            yield found
