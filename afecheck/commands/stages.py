@@ -26,12 +26,16 @@ def run(args: argparse.Namespace, stdout: TextIO, stderr: TextIO) -> int:
     from afecheck.analysis import analyse
     from afecheck.model.load import load_design
 
+    from afecheck.analysis.worksheet import build_worksheet
+    from afecheck.report.worksheet import render_worksheet
+
     loaded = load_design(args.file, intent=args.intent, libraries=tuple(args.parts))
     analysis = analyse(loaded)
+    worksheet = build_worksheet(loaded, analysis)
     if args.json:
-        stdout.write(render_json(loaded.design.name, loaded.file, analysis))
+        stdout.write(render_json(loaded.design.name, loaded.file, analysis, worksheet))
     else:
-        stdout.write(render_text(loaded.design.name, analysis))
+        stdout.write(render_text(loaded.design.name, analysis) + render_worksheet(worksheet))
     return 0
 
 
@@ -46,8 +50,9 @@ def _clean(value: object) -> object:
     return value
 
 
-def render_json(name: str, file: str, analysis: DesignAnalysis) -> str:
-    """The whole analysis as JSON: every stage field, every net signal, what was not evaluated."""
+def render_json(name: str, file: str, analysis: DesignAnalysis, worksheet: object = None) -> str:
+    """The whole analysis as JSON: every stage field, every net signal, what was not evaluated, and the budgets
+    worksheet (noise, DC error and drift with every contributor) when given."""
     data = {
         "schema_version": JSON_SCHEMA_VERSION,
         "design": name,
@@ -56,6 +61,8 @@ def render_json(name: str, file: str, analysis: DesignAnalysis) -> str:
         "nets": {k: dataclasses.asdict(v) for k, v in analysis.nets.items()},
         "not_evaluated": [{"refs": list(refs), "reason": reason} for refs, reason in analysis.not_evaluated],
     }
+    if worksheet is not None:
+        data["worksheet"] = dataclasses.asdict(worksheet)  # type: ignore[call-overload]
     return json.dumps(_clean(data), indent=2, sort_keys=False) + "\n"
 
 

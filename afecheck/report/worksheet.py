@@ -1,0 +1,68 @@
+"""The budgets worksheet as text: per net, noise and DC error totals against their budgets, top contributors."""
+
+from __future__ import annotations
+
+from typing import Any
+
+from afecheck.model.units import format_si
+
+TOP = 3
+
+
+def _v(x: float) -> str:
+    return format_si(float(x), "V", 3)
+
+
+def _pct(x: float) -> str:
+    return f"{100 * x:.3g} %"
+
+
+def _against(value: float, budget: float | None, show) -> str:  # noqa: ANN001 - a formatter
+    return "" if budget is None else f", budget {show(budget)} ({100 * value / budget:.0f} %)"
+
+
+def _top(items: Any, fmt) -> str:  # noqa: ANN001 - contributors or terms, and how to show one
+    return ", ".join(fmt(c) for c in list(items)[:TOP])
+
+
+def render_worksheet(ws: Any) -> str:
+    """One block per net: noise (output and input-referred RMS over the band), offset, gain error, drift."""
+    lines = ["", "Budgets worksheet (worst case = linear sum of terms, statistical = root-sum-square):"]
+    for net in ws.nets:
+        budget = ws.budgets.get(net) or {}
+        lines.append(f"  {net}")
+        nn = ws.noise.nets.get(net)
+        if nn is not None:
+            inp = "" if nn.input_rms is None else f" (input-referred {_v(nn.input_rms)} from {nn.signal})"
+            lines.append(f"    noise   {_v(nn.output_rms)} rms over {format_si(nn.band[0], 'Hz')}.."
+                         f"{format_si(nn.band[1], 'Hz')} at {nn.temperature_k:.1f} K{inp}"
+                         + _against(nn.output_rms, budget.get("noise"), _v))
+            lines.append("            top: " + _top(nn.contributors, lambda c: f"{c.name} {100 * c.share:.2g} %"))
+        elif net in ws.noise.not_evaluated:
+            lines.append(f"    noise   not evaluated: {ws.noise.not_evaluated[net]}")
+        e = ws.dc_error.nets.get(net)
+        if e is not None:
+            counted = [t for t in e.terms if t.kind != "sensor"]
+            lines.append(f"    offset  {_v(e.offset_worst)} worst, {_v(e.offset_rss)} RSS"
+                         + _against(e.offset_worst, budget.get("offset"), _v)
+                         + f"; total error at the worst corners {_v(e.corner_low)}..{_v(e.corner_high)}")
+            lines.append("            top: " + _top(sorted(counted, key=lambda t: -abs(t.offset)),
+                                                  lambda t: f"{t.name} {_v(abs(t.offset))}"))
+            if e.gain_error_worst is not None:
+                lines.append(f"    gain    {_pct(e.gain_error_worst)} worst, {_pct(e.gain_error_rss or 0.0)} RSS"
+                             + _against(e.gain_error_worst, budget.get("gain_accuracy"), _pct))
+                lines.append("            top: " + _top(sorted(counted, key=lambda t: -abs(t.gain_error or 0.0)),
+                                                      lambda t: f"{t.name} {_pct(abs(t.gain_error or 0.0))}"))
+            if e.temperature_range is not None:
+                lo, hi = e.temperature_range
+                lines.append(f"    drift   {_v(e.drift_worst)} worst, {_v(e.drift_rss)} RSS over {lo:g}..{hi:g} °C"
+                             + _against(e.drift_worst, budget.get("drift"), _v))
+                lines.append("            top: " + _top(e.drift_terms, lambda t: f"{t.name} "
+                                                      f"{_v(max(abs(t.error_low), abs(t.error_high)))}"))
+            sensor = [t for t in e.terms if t.kind == "sensor"]
+            if sensor:
+                lines.append("            sensor, not counted: " + _top(sensor, lambda t: f"{t.name} "
+                                                                      f"{_v(max(abs(t.error_low), abs(t.error_high)))}"))
+        elif net in ws.dc_error.not_evaluated:
+            lines.append(f"    DC error not evaluated: {ws.dc_error.not_evaluated[net]}")
+    return "\n".join(lines) + "\n"
