@@ -138,7 +138,7 @@ def quantities(loaded: LoadedDesign, netlist: Netlist, drift: bool = False) -> t
         elif isinstance(e, VoltageSource) and e.dc != 0.0:
             base = e.name.split("#")[0]
             src = d.rails.get(base) if e.name.endswith("#rail") else d.components.get(e.name)
-            if src is None or not hasattr(src, "tolerance"):
+            if src is None or getattr(src, "kind", "vsource") != "vsource":
                 continue
             value = (src.tempco or 0.0) * span if drift else (src.tolerance or 0.0)
             label = "tempco" if drift else "tolerance"

@@ -34,5 +34,6 @@ def worksheet_nets(loaded: LoadedDesign, analysis: DesignAnalysis) -> tuple[str,
 def build_worksheet(loaded: LoadedDesign, analysis: DesignAnalysis) -> Worksheet:
     """Noise and DC error at every worksheet net."""
     nets = worksheet_nets(loaded, analysis)
-    return Worksheet(nets=nets, budgets={n: b.model_dump() for n, b in loaded.design.budgets.items()}, noise=analyse_noise(loaded, nets),
+    budgets = {n: b.model_dump() for n, b in loaded.design.budgets.items()}
+    return Worksheet(nets=nets, budgets=budgets, noise=analyse_noise(loaded, nets),
                      dc_error=analyse_dc_error(loaded, nets))

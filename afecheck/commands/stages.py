@@ -24,9 +24,8 @@ def add_arguments(p: argparse.ArgumentParser) -> None:
 
 def run(args: argparse.Namespace, stdout: TextIO, stderr: TextIO) -> int:
     from afecheck.analysis import analyse
-    from afecheck.model.load import load_design
-
     from afecheck.analysis.worksheet import build_worksheet
+    from afecheck.model.load import load_design
     from afecheck.report.worksheet import render_worksheet
 
     loaded = load_design(args.file, intent=args.intent, libraries=tuple(args.parts))

@@ -25,6 +25,11 @@ def _top(items: Any, fmt) -> str:  # noqa: ANN001 - contributors or terms, and h
     return ", ".join(fmt(c) for c in list(items)[:TOP])
 
 
+def _largest(t: Any) -> str:
+    """A term with its larger error over the two signal ends."""
+    return f"{t.name} {_v(max(abs(t.error_low), abs(t.error_high)))}"
+
+
 def render_worksheet(ws: Any) -> str:
     """One block per net: noise (output and input-referred RMS over the band), offset, gain error, drift."""
     lines = ["", "Budgets worksheet (worst case = linear sum of terms, statistical = root-sum-square):"]
@@ -57,12 +62,10 @@ def render_worksheet(ws: Any) -> str:
                 lo, hi = e.temperature_range
                 lines.append(f"    drift   {_v(e.drift_worst)} worst, {_v(e.drift_rss)} RSS over {lo:g}..{hi:g} °C"
                              + _against(e.drift_worst, budget.get("drift"), _v))
-                lines.append("            top: " + _top(e.drift_terms, lambda t: f"{t.name} "
-                                                      f"{_v(max(abs(t.error_low), abs(t.error_high)))}"))
+                lines.append("            top: " + _top(e.drift_terms, _largest))
             sensor = [t for t in e.terms if t.kind == "sensor"]
             if sensor:
-                lines.append("            sensor, not counted: " + _top(sensor, lambda t: f"{t.name} "
-                                                                      f"{_v(max(abs(t.error_low), abs(t.error_high)))}"))
+                lines.append("            sensor, not counted: " + _top(sensor, _largest))
         elif net in ws.dc_error.not_evaluated:
             lines.append(f"    DC error not evaluated: {ws.dc_error.not_evaluated[net]}")
     return "\n".join(lines) + "\n"
