@@ -77,3 +77,27 @@ def find_channels(loaded: LoadedDesign) -> Mapping[str, Channel]:
 def channel_netlist(loaded: LoadedDesign, channel: Channel, include_offsets: bool = False) -> Netlist:
     """The channel's parts as one netlist, with the rails, signals and loads on its nets (signals at mid-range)."""
     return netlist_from_design(loaded, channel.refs, NetlistOptions(include_offsets=include_offsets))
+
+
+def channel_key(loaded: LoadedDesign, channel: Channel, *nets: str) -> tuple:
+    """The channel with its names replaced by first-seen numbers (fixed nets keep their names): equal keys mean
+    the same circuit with the same values, so results computed for one serve every repeat of it."""
+    d = loaded.design
+    numbers: dict[str, int | str] = {n: n for n in loaded.fixed_nets}
+
+    def num(net: str) -> int | str:
+        return numbers.setdefault(net, len(numbers))
+
+    key: list[object] = [tuple(num(n) for n in nets)]
+    for ref in channel.refs:
+        comp = d.components[ref]
+        values = tuple(sorted((k, v) for k, v in comp.__dict__.items()
+                              if k not in ("pins", "description", "waive") and not isinstance(v, dict)))
+        key.append((values, tuple((p, num(n)) for p, n in sorted(comp.pins.items()))))
+        if comp.kind == "opamp":
+            key.append(loaded.parts.get(comp.part))
+    for net in sorted(channel.nets, key=lambda n: str(num(n))):
+        for section in (d.signals, d.loads):
+            if net in section:
+                key.append((num(net), section[net]))
+    return tuple(key)

@@ -1,4 +1,5 @@
-"""The reviewer's worksheet: noise, DC error and drift at every stage output, loaded net and budgeted net.
+"""The reviewer's worksheet: noise, DC error and drift at every stage output, loaded net and budgeted net, and the
+drive of every ADC input.
 
 Only ``afecheck stages`` asks for the whole worksheet; the rules compute the same analyses for budgeted nets
 alone, so a design's check costs nothing here unless it declares budgets.
@@ -8,6 +9,7 @@ from __future__ import annotations
 
 from dataclasses import dataclass
 
+from afecheck.analysis.adc_drive import AdcResult, analyse_adc
 from afecheck.analysis.dc_error import DcErrorResult, analyse_dc_error
 from afecheck.analysis.noise import NoiseResult, analyse_noise
 from afecheck.analysis.results import DesignAnalysis
@@ -22,6 +24,7 @@ class Worksheet:
     budgets: dict[str, dict[str, float | None]]
     noise: NoiseResult
     dc_error: DcErrorResult
+    adc: AdcResult
 
 
 def worksheet_nets(loaded: LoadedDesign, analysis: DesignAnalysis) -> tuple[str, ...]:
@@ -32,8 +35,8 @@ def worksheet_nets(loaded: LoadedDesign, analysis: DesignAnalysis) -> tuple[str,
 
 
 def build_worksheet(loaded: LoadedDesign, analysis: DesignAnalysis) -> Worksheet:
-    """Noise and DC error at every worksheet net."""
+    """Noise and DC error at every worksheet net, and ADC drive at every ADC net."""
     nets = worksheet_nets(loaded, analysis)
     budgets = {n: b.model_dump() for n, b in loaded.design.budgets.items()}
     return Worksheet(nets=nets, budgets=budgets, noise=analyse_noise(loaded, nets),
-                     dc_error=analyse_dc_error(loaded, nets))
+                     dc_error=analyse_dc_error(loaded, nets), adc=analyse_adc(loaded, analysis))

@@ -15,6 +15,7 @@ from types import ModuleType
 from typing import Any
 
 from afecheck.checks import coverage
+from afecheck.checks.adc import anti_alias, kickback, range_fill, settling
 from afecheck.checks.budgets import drift_over_budget, gain_error_over_budget, noise_over_budget, offset_over_budget
 from afecheck.checks.distortion import (
     class2_ceramic,
@@ -49,6 +50,7 @@ _BUILTIN_MODULES: tuple[ModuleType, ...] = (
     transition_region, common_mode_swing, loop_gain_at_fmax, slew_rate, output_near_limit, class2_ceramic,
     input_impedance_imbalance,
     noise_over_budget, offset_over_budget, gain_error_over_budget, drift_over_budget,
+    range_fill, anti_alias, settling, kickback,
 )
 
 BUILTIN_RULES: tuple[Rule, ...] = tuple(Rule(m.META, m.check) for m in _BUILTIN_MODULES)

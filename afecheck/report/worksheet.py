@@ -68,4 +68,32 @@ def render_worksheet(ws: Any) -> str:
                 lines.append("            sensor, not counted: " + _top(sensor, _largest))
         elif net in ws.dc_error.not_evaluated:
             lines.append(f"    DC error not evaluated: {ws.dc_error.not_evaluated[net]}")
+        lines += _adc_lines(ws, net)
     return "\n".join(lines) + "\n"
+
+
+def _adc_lines(ws: Any, net: str) -> list[str]:
+    """Range and fill, alias attenuation, settling and kick-back of the ADC on ``net``, if any."""
+    a = ws.adc.nets.get(net)
+    if a is None:
+        reason = ws.adc.not_evaluated.get(net)
+        return [f"    ADC     not evaluated: {reason}"] if reason else []
+    lines = [f"    ADC     {a.bits} bits at {format_si(a.sample_rate, 'Hz')}, "
+             f"range {a.input_low:.4g}..{a.input_high:.4g} V"]
+    if a.codes_used is not None:
+        lines.append(f"            signal {a.signal_low:.4g}..{a.signal_high:.4g} V: margins {_v(a.margin_low)} low, "
+                     f"{_v(a.margin_high)} high; {_pct(a.codes_used)} of the codes")
+    if a.attenuation_db is not None:
+        lines.append(f"            alias {format_si(a.alias_hz, 'Hz')} attenuated {a.attenuation_db:.1f} dB "
+                     f"(6.02·N + 1.76 = {a.required_db:.1f} dB)")
+    if a.settling_time is not None:
+        given = "assumed" if a.acquisition_assumed else "declared"
+        lines.append(f"            settling {a.time_constants_needed:.2f} τ of {format_si(a.tau, 's')} = "
+                     f"{format_si(a.settling_time, 's')} in {format_si(a.acquisition_time, 's')} ({given}); driver "
+                     f"{a.driver} via {format_si(a.series_resistance, 'Ω')} into "
+                     f"{format_si(a.rc_capacitance + a.load_capacitance, 'F')}")
+    if a.capacitor_ratio is not None:
+        lines.append(f"            kick-back: C {format_si(a.rc_capacitance, 'F')} = {a.capacitor_ratio:.3g} × the "
+                     f"{format_si(a.sampling_capacitance, 'F')} sampling capacitor")
+    lines += [f"            note: {n}" for n in a.notes]
+    return lines
