@@ -5,6 +5,7 @@ from __future__ import annotations
 import itertools
 
 import pytest
+import yaml
 
 from afecheck.analysis.channel import find_channels
 from afecheck.analysis.dc_error import (
@@ -94,6 +95,11 @@ def _corner_outputs(loaded, net: str):
 
 def _check(tmp_path, seed: int, second: bool = False) -> None:
     path, out = write_channel(tmp_path, seed, second=second)
+    if second:  # two stages: bias and offset currents left out so the corners stay 2^6 and ngspice quick
+        data = yaml.safe_load(path.read_text(encoding="utf-8"))
+        for part in data["parts"].values():
+            part["bias_current"] = part["offset_current"] = 0.0
+        path.write_text(yaml.safe_dump(data), encoding="utf-8")
     res, lo, hi = _corner_outputs(load_design(path), out)
     assert res.corner_low == pytest.approx(lo, rel=1e-3)
     assert res.corner_high == pytest.approx(hi, rel=1e-3)
@@ -119,6 +125,6 @@ def test_worst_case_equals_the_worst_ngspice_corner_on_many_channels(tmp_path, s
 @needs_ngspice
 @pytest.mark.ngspice
 @pytest.mark.slow
-@pytest.mark.parametrize("seed", [0, 1])
-def test_worst_case_of_two_stages_equals_the_worst_of_1024_ngspice_corners(tmp_path, seed):
+@pytest.mark.parametrize("seed", range(6))
+def test_worst_case_through_two_stages_equals_the_worst_ngspice_corner(tmp_path, seed):
     _check(tmp_path, seed, second=True)

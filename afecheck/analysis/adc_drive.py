@@ -124,11 +124,12 @@ def _attenuation(loaded: LoadedDesign, channel: Channel, net: str, f_pass: float
     return float(20 * math.log10(best[0] / best[1])), None
 
 
-def _rc(loaded: LoadedDesign, net: str) -> tuple[str | None, float, float, tuple[str, ...]]:
-    """(driving op-amp, series resistance, capacitance of parts from the net to fixed nets, series parts)."""
+def _rc(loaded: LoadedDesign, net: str, outputs: Mapping[str | None, str]) -> tuple[str | None, float, float,
+                                                                                   tuple[str, ...]]:
+    """(driving op-amp, series resistance, capacitance of parts from the net to fixed nets, series parts);
+    ``outputs`` maps each op-amp output net to its op-amp."""
     d = loaded.design
     fixed = loaded.fixed_nets
-    outputs = {c.pins.get("out"): ref for ref, c in d.components.items() if c.kind == "opamp"}
     cap = 0.0
     series: list[tuple[str, str]] = []
     for ref, other, kind in loaded.two_pin_by_net.get(net, ()):
@@ -149,6 +150,7 @@ def analyse_adc(loaded: LoadedDesign, analysis: DesignAnalysis, cache: dict | No
     d = loaded.design
     channels = find_channels(loaded)
     stages = {s.opamp: s for s in analysis.stages}
+    outputs = {c.pins.get("out"): ref for ref, c in d.components.items() if c.kind == "opamp"}
     cache = {} if cache is None else cache
     found: dict[str, AdcDrive] = {}
     missing: dict[str, str] = {}
@@ -190,7 +192,7 @@ def analyse_adc(loaded: LoadedDesign, analysis: DesignAnalysis, cache: dict | No
                     notes.append(why)
             except (AnalysisError, InputError, SingularCircuitError, ValueError, ArithmeticError) as exc:
                 notes.append(f"attenuation not evaluated: {exc}")
-        driver, r_series, c_parts, series_refs = _rc(loaded, net)
+        driver, r_series, c_parts, series_refs = _rc(loaded, net, outputs)
         c_load = float(load.capacitance or 0.0)
         cs = adc.input_capacitance
         t_acq = adc.acquisition_time or ACQUISITION_FRACTION / adc.sample_rate

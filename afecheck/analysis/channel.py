@@ -34,7 +34,15 @@ def signal_nets(loaded: LoadedDesign, ref: str) -> tuple[str, ...]:
 
 
 def find_channels(loaded: LoadedDesign) -> Mapping[str, Channel]:
-    """Every non-fixed net mapped to its channel (union-find over the signal pins of every part)."""
+    """Every non-fixed net mapped to its channel (union-find over the signal pins of every part); found once per
+    loaded design and kept with it (designs are immutable)."""
+    cache = loaded.__dict__.setdefault("_channels", {})
+    if "all" not in cache:
+        cache["all"] = _find_channels(loaded)
+    return cache["all"]
+
+
+def _find_channels(loaded: LoadedDesign) -> Mapping[str, Channel]:
     fixed = loaded.fixed_nets
     parent: dict[str, str] = {}
 
@@ -46,18 +54,22 @@ def find_channels(loaded: LoadedDesign) -> Mapping[str, Channel]:
         return x
 
     d = loaded.design
-    for ref in d.components:
-        nets = [n for n in signal_nets(loaded, ref) if n not in fixed]
-        for n in nets:
-            find(n)
-        for a, b in zip(nets, nets[1:], strict=False):
-            parent[find(a)] = find(b)
+    free: dict[str, list[str]] = {}
+    for ref, comp in d.components.items():
+        nets = [n for p, n in comp.pins.items()
+                if n not in fixed and not (comp.kind == "opamp" and p in SUPPLY_PINS)]
+        free[ref] = nets
+        if nets:
+            root = find(nets[0])
+            for n in nets[1:]:
+                other = find(n)
+                if other != root:
+                    parent[other] = root
     for net in list(d.signals) + list(d.loads):
         if net not in fixed:
             find(net)
     refs: dict[str, list[str]] = {}
-    for ref in d.components:
-        nets = [n for n in signal_nets(loaded, ref) if n not in fixed]
+    for ref, nets in free.items():
         if nets:
             refs.setdefault(find(nets[0]), []).append(ref)
     members: dict[str, set[str]] = {}
@@ -79,25 +91,26 @@ def channel_netlist(loaded: LoadedDesign, channel: Channel, include_offsets: boo
     return netlist_from_design(loaded, channel.refs, NetlistOptions(include_offsets=include_offsets))
 
 
+_KEY_FIELDS = ("value", "r25", "beta", "temperature", "part", "dc", "ac_amplitude", "band", "source_resistance")
+
+
 def channel_key(loaded: LoadedDesign, channel: Channel, *nets: str) -> tuple:
     """The channel with its names replaced by first-seen numbers (fixed nets keep their names): equal keys mean
-    the same circuit with the same values, so results computed for one serve every repeat of it."""
+    the same circuit with the same values, so small-signal results computed for one serve every repeat of it."""
     d = loaded.design
-    numbers: dict[str, int | str] = {n: n for n in loaded.fixed_nets}
+    fixed = loaded.fixed_nets
+    numbers: dict[str, int] = {}
 
     def num(net: str) -> int | str:
-        return numbers.setdefault(net, len(numbers))
+        return net if net in fixed else numbers.setdefault(net, len(numbers))
 
     key: list[object] = [tuple(num(n) for n in nets)]
     for ref in channel.refs:
         comp = d.components[ref]
-        values = tuple(sorted((k, v) for k, v in comp.__dict__.items()
-                              if k not in ("pins", "description", "waive") and not isinstance(v, dict)))
-        key.append((values, tuple((p, num(n)) for p, n in sorted(comp.pins.items()))))
-        if comp.kind == "opamp":
-            key.append(loaded.parts.get(comp.part))
-    for net in sorted(channel.nets, key=lambda n: str(num(n))):
-        for section in (d.signals, d.loads):
-            if net in section:
-                key.append((num(net), section[net]))
+        fields = comp.__dict__
+        key.append((comp.kind, tuple(fields.get(f) for f in _KEY_FIELDS),
+                    tuple((p, num(n)) for p, n in comp.pins.items())))
+    for net in channel.nets:
+        if net in d.signals or net in d.loads:
+            key.append((num(net), d.signals.get(net), d.loads.get(net)))
     return tuple(key)

@@ -292,6 +292,9 @@ def channel_dc_error(loaded: LoadedDesign, channel: Channel, nets: Iterable[str]
 
 def analyse_dc_error(loaded: LoadedDesign, nets: Iterable[str]) -> DcErrorResult:
     """DC error and drift at each of ``nets``, channel by channel; reasons for the nets that cannot be evaluated."""
+    nets = list(dict.fromkeys(nets))
+    if not nets:
+        return DcErrorResult({}, {})
     channels = find_channels(loaded)
     groups: dict[int, tuple[Channel, list[str]]] = {}
     missing: dict[str, str] = {}

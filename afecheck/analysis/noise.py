@@ -258,6 +258,9 @@ def channel_noise(loaded: LoadedDesign, channel: Channel, nets: Iterable[str],
 
 def analyse_noise(loaded: LoadedDesign, nets: Iterable[str]) -> NoiseResult:
     """Noise at each of ``nets``, channel by channel (one adjoint solve per channel); reasons for the rest."""
+    nets = list(dict.fromkeys(nets))
+    if not nets:
+        return NoiseResult({}, {})
     channels = find_channels(loaded)
     groups: dict[int, tuple[Channel, list[str]]] = {}
     missing: dict[str, str] = {}

@@ -27,6 +27,7 @@ from afecheck.checks.distortion import (
     transition_region,
 )
 from afecheck.checks.headroom import input_common_mode, output_current, output_swing
+from afecheck.checks.limits import capacitive_load, input_current, supply_range
 from afecheck.checks.loading import bias_current_offset, input_divider_error, inverting_source_loading
 from afecheck.checks.stability import feedback_sign, gain_margin, min_stable_gain, phase_margin
 from afecheck.engine.aliases import current_id, retired
@@ -51,6 +52,7 @@ _BUILTIN_MODULES: tuple[ModuleType, ...] = (
     input_impedance_imbalance,
     noise_over_budget, offset_over_budget, gain_error_over_budget, drift_over_budget,
     range_fill, anti_alias, settling, kickback,
+    supply_range, input_current, capacitive_load,
 )
 
 BUILTIN_RULES: tuple[Rule, ...] = tuple(Rule(m.META, m.check) for m in _BUILTIN_MODULES)
