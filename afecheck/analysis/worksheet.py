@@ -13,6 +13,7 @@ from afecheck.analysis.adc_drive import AdcResult, analyse_adc
 from afecheck.analysis.dc_error import DcErrorResult, analyse_dc_error
 from afecheck.analysis.noise import NoiseResult, analyse_noise
 from afecheck.analysis.results import DesignAnalysis
+from afecheck.analysis.supply import SupplyResult, analyse_supply
 from afecheck.model.loaded import LoadedDesign
 
 
@@ -25,6 +26,7 @@ class Worksheet:
     noise: NoiseResult
     dc_error: DcErrorResult
     adc: AdcResult
+    supply: SupplyResult
 
 
 def worksheet_nets(loaded: LoadedDesign, analysis: DesignAnalysis) -> tuple[str, ...]:
@@ -39,4 +41,5 @@ def build_worksheet(loaded: LoadedDesign, analysis: DesignAnalysis) -> Worksheet
     nets = worksheet_nets(loaded, analysis)
     budgets = {n: b.model_dump() for n, b in loaded.design.budgets.items()}
     return Worksheet(nets=nets, budgets=budgets, noise=analyse_noise(loaded, nets),
-                     dc_error=analyse_dc_error(loaded, nets), adc=analyse_adc(loaded, analysis))
+                     dc_error=analyse_dc_error(loaded, nets), adc=analyse_adc(loaded, analysis),
+                     supply=analyse_supply(loaded, analysis))

@@ -69,7 +69,34 @@ def render_worksheet(ws: Any) -> str:
         elif net in ws.dc_error.not_evaluated:
             lines.append(f"    DC error not evaluated: {ws.dc_error.not_evaluated[net]}")
         lines += _adc_lines(ws, net)
+    lines += _supply_lines(ws)
     return "\n".join(lines) + "\n"
+
+
+def _g(x: float | None) -> str:
+    return "-" if x is None else f"{x:g}"
+
+
+def _supply_lines(ws: Any) -> list[str]:
+    """Per op-amp: supply span at the rails' corners against the part's range, over-driven inputs, load capacitance."""
+    lines = ["", "Supply and abuse limits:"]
+    for ref, c in ws.supply.opamps.items():
+        span = "-" if c.span_min is None else f"{c.span_min:.4g}..{c.span_max:.4g} V"
+        rated = f"{_g(c.supply_min)}..{_g(c.supply_max)} V"
+        text = (f"  {ref} ({c.part}): supply {span} (V+ {c.plus_v:g} V, V- {c.minus_v:g} V; rated {rated}); "
+                f"load {format_si(c.load_capacitance, 'F')}")
+        if c.max_capacitive_load is not None:
+            text += f" of {format_si(c.max_capacitive_load, 'F')} allowed"
+        lines.append(text)
+        if c.isolation_resistance is not None:
+            lines.append(f"    isolation resistor {format_si(c.isolation_resistance, 'Ω')} gives "
+                         f"{c.phase_margin_with_iso_deg:.1f}° of phase margin")
+        for d in c.inputs:
+            lines.append(f"    {d.pin} from {d.source}: {_v(d.beyond_v)} past a rail's diode through "
+                         f"{format_si(d.resistance, 'Ω')}: {format_si(d.current, 'A')} "
+                         f"(limit {format_si(c.input_current_limit, 'A')})")
+        lines += [f"    note: {n}" for n in c.notes]
+    return lines
 
 
 def _adc_lines(ws: Any, net: str) -> list[str]:
