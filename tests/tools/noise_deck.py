@@ -49,13 +49,19 @@ def noise_deck(loaded, net: str, f_lo: float, f_hi: float, per_decade: int = 40)
     quiet_cards = {deck.elements[n] for n in quiet} | {deck.elements[f"{n}#r{i}"] for n in
                                                        (op.loop_element for op in netlist.opamps.values())
                                                        for i in (1, 2) if f"{n}#r{i}" in deck.elements}
+    from afecheck.analysis.netlist import VoltageSource
+
+    entry = channel.signal_branches[0][1] if channel.signal_branches else next(
+        e.name for e in netlist.elements if isinstance(e, VoltageSource))
+    source = deck.elements[entry]
     lines = []
     for line in deck.text.splitlines():
         if line == ".end":
             break
         head = line.split(" ", 1)[0]
+        if head == source and " AC " not in line:
+            line += " AC 1"  # .noise refers to its input source's AC value (the result does not depend on it)
         lines.append(line + " noisy=0" if head in quiet_cards else line)
-    source = deck.elements[channel.signal_branches[0][1]]
     t_c = t_k - 273.15
     lines += [f".options temp={t_c!r} tnom={t_c!r}", ".control", "set numdgt=15",
               f"noise v({deck.nodes[net]}) {source} dec {per_decade} {f_lo!r} {f_hi!r}",
