@@ -150,9 +150,13 @@ def review_files(
     baseline: str | Path | None = None,
     today: dt.date | None = None,
     registry: Any = None,
+    detail: str = "none",
 ) -> Report:
     """Check every design under its policy (``config``, else a discovered ``.afecheck.yaml`` when ``discover``),
-    apply waivers and the baseline, and return the report data. Bad input of any file raises one InputError."""
+    apply waivers and the baseline, and return the report data. Bad input of any file raises one InputError.
+
+    ``detail``: ``"stages"`` adds each stage's numbers and headroom to the report data, ``"curves"`` also its
+    frequency responses (for the reports that draw plots); ``"none"`` keeps the check path lean."""
     from afecheck import __version__
     from afecheck.engine.runner import run_rules
     from afecheck.model.load import load_design
@@ -194,7 +198,15 @@ def review_files(
             policy = policies[key]
             levels.add(policy.fail_on)
             loaded = load_design(path, intent=intent, libraries=libraries)
-            findings = promote(run_rules(loaded, registry=reg, **policy.run_options(runnable)), policy.promote)
+            options = policy.run_options(runnable)
+            analysis, curves = None, {}
+            if detail != "none":
+                from afecheck.views import analyse_for_views
+
+                analysis, curves = analyse_for_views(loaded, "curves" if detail == "curves" else "stages")
+                if analysis is not None:
+                    options["analysis"] = analysis
+            findings = promote(run_rules(loaded, registry=reg, **options), policy.promote)
             inline = inline_waivers(loaded, catalogue)
             inline_all.extend(inline)
             waivers = cli_waivers + waivers_of(policy.waiver_files) + inline
@@ -209,10 +221,15 @@ def review_files(
         for w in waivers:
             if w.key in review.expired:
                 expired.setdefault(w.key, w)
+        rules_run = tuple(m.id for m in catalogue.metas if m.id not in policy.disabled)
+        views = ()
+        if analysis is not None:
+            from afecheck.views import stage_views
+
+            views = stage_views(loaded, analysis, curves, options["params"], rules_run)
         designs.append(DesignResult(
             file=loaded.file, name=name, hazards=tuple(loaded.design.hazards), entries=review.entries,
-            stages=opamps, ruleset=policy.ruleset, config=policy.config,
-            rules_run=tuple(m.id for m in catalogue.metas if m.id not in policy.disabled),
+            stages=opamps, ruleset=policy.ruleset, config=policy.config, rules_run=rules_run, stage_views=views,
         ))
     if problems:
         raise InputError(list(dict.fromkeys(problems)))  # a bad config shared by several designs is said once

@@ -1,4 +1,4 @@
-"""Command line: argv -> command module -> exit code (0 clean, 1 findings at the fail level, 2 bad input).
+"""Command line: argv -> command module -> exit status (see EXIT_STATUSES).
 
 Each command lives in ``afecheck/commands/<name>.py`` with ``HELP``, ``add_arguments(parser)`` and
 ``run(args, stdout, stderr) -> int``; modules are imported only when their command runs, so
@@ -9,6 +9,7 @@ from __future__ import annotations
 
 import argparse
 import importlib
+import os
 import sys
 from typing import TextIO
 
@@ -24,7 +25,17 @@ COMMANDS: dict[str, str] = {
     "baseline": "record the current findings of designs as a baseline file",
 }
 
-EXIT_CLEAN, EXIT_FINDINGS, EXIT_INPUT = 0, 1, 2
+EXIT_CLEAN, EXIT_FINDINGS, EXIT_INPUT, EXIT_INTERNAL, EXIT_INTERRUPTED, EXIT_BROKEN_PIPE = 0, 1, 2, 3, 130, 141
+EXIT_STATUSES = (
+    (EXIT_CLEAN, "no finding at or above the fail level"),
+    (EXIT_FINDINGS, "findings at or above the fail level (check)"),
+    (EXIT_INPUT, "bad input or usage: every problem listed as file:line:column, nothing written"),
+    (EXIT_INTERNAL, "internal error in afecheck itself (a bug: please report it; AFECHECK_DEBUG=1 shows the "
+                    "traceback)"),
+    (EXIT_INTERRUPTED, "interrupted (Ctrl-C)"),
+    (EXIT_BROKEN_PIPE, "the program reading standard output stopped reading (as with `| head`)"),
+)
+DEBUG_VARIABLE = "AFECHECK_DEBUG"
 
 
 class _Parser(argparse.ArgumentParser):
@@ -37,7 +48,9 @@ class _Parser(argparse.ArgumentParser):
 
 def build_parser(argv: list[str]) -> tuple[argparse.ArgumentParser, object | None]:
     """Parser with every command; only the chosen command's module is imported."""
-    parser = _Parser(prog="afecheck", description="Pre-layout review of analog front-end schematics.")
+    epilog = "exit status:\n" + "\n".join(f"  {code:<4}{meaning}" for code, meaning in EXIT_STATUSES)
+    parser = _Parser(prog="afecheck", description="Pre-layout review of analog front-end schematics.", epilog=epilog,
+                     formatter_class=argparse.RawDescriptionHelpFormatter)
     parser.add_argument("--version", action="version", version=f"afecheck {__version__}")
     sub = parser.add_subparsers(dest="command", metavar="COMMAND", parser_class=_Parser)
     chosen = next((a for a in argv if not a.startswith("-")), None)
@@ -55,6 +68,34 @@ def main(argv: list[str] | None = None, stdout: TextIO | None = None, stderr: Te
     argv = list(sys.argv[1:] if argv is None else argv)
     stdout = stdout or sys.stdout
     stderr = stderr or sys.stderr
+    from afecheck.errors import InputError
+    from afecheck.io import OutputError
+
+    try:
+        return _dispatch(argv, stdout, stderr)
+    except InputError as exc:
+        for problem in exc.problems:
+            print(f"error: {problem}", file=stderr)
+        return EXIT_INPUT
+    except OutputError as exc:
+        print(f"afecheck: error: {exc}", file=stderr)
+        return EXIT_INPUT
+    except KeyboardInterrupt:
+        print("afecheck: interrupted", file=stderr)
+        return EXIT_INTERRUPTED
+    except BrokenPipeError:
+        _quiet_broken_stdout(stdout)
+        return EXIT_BROKEN_PIPE
+    except Exception as exc:  # noqa: BLE001 - the one place that turns a bug into a status a CI gate can tell apart
+        if os.environ.get(DEBUG_VARIABLE, "") not in ("", "0"):
+            raise
+        text = " ".join(str(exc).split()) or "(no message)"
+        print(f"afecheck: internal error: {type(exc).__name__}: {text[:300]} (a bug in afecheck, please report it; "
+              f"exit {EXIT_INTERNAL}; {DEBUG_VARIABLE}=1 shows the traceback)", file=stderr)
+        return EXIT_INTERNAL
+
+
+def _dispatch(argv: list[str], stdout: TextIO, stderr: TextIO) -> int:
     parser, module = build_parser(argv)
     try:
         args = parser.parse_args(argv)
@@ -63,14 +104,13 @@ def main(argv: list[str] | None = None, stdout: TextIO | None = None, stderr: Te
     if module is None:
         parser.print_help(stdout)
         return EXIT_INPUT if args.command is None and argv else EXIT_CLEAN
-    from afecheck.errors import InputError
+    return int(module.run(args, stdout, stderr))
 
+
+def _quiet_broken_stdout(stdout: TextIO) -> None:
+    """The reader of standard output left (``afecheck rules | head``): send what is still buffered nowhere."""
     try:
-        return int(module.run(args, stdout, stderr))
-    except InputError as exc:
-        for problem in exc.problems:
-            print(f"error: {problem}", file=stderr)
-        return EXIT_INPUT
-    except KeyboardInterrupt:
-        print("afecheck: interrupted", file=stderr)
-        return 130
+        devnull = os.open(os.devnull, os.O_WRONLY)
+        os.dup2(devnull, stdout.fileno())
+    except (OSError, ValueError, AttributeError):
+        return

@@ -15,6 +15,7 @@ from fixtures.gate.fakes import REGISTRY
 
 from afecheck.cli import main
 from afecheck.commands.check import use_color
+from afecheck.io import PARTIAL
 
 GATE = Path(__file__).parent / "fixtures" / "gate"
 
@@ -130,7 +131,7 @@ def test_two_runs_write_byte_identical_files(work):
         assert _run(*args)[0] == 1
     for fmt in ("text", "json", "sarif", "junit", "markdown"):
         assert (work / f"a.{fmt}").read_bytes() == (work / f"b.{fmt}").read_bytes()
-    leftovers = [p.name for p in work.iterdir() if p.name.endswith(".tmp")]
+    leftovers = [p.name for p in work.iterdir() if PARTIAL in p.name]
     assert leftovers == []
 
 
@@ -144,7 +145,7 @@ def test_interrupted_write_leaves_the_old_report_whole(work, monkeypatch):
     code, _, err = _run("check", "logger.yaml", "--format", "json", "--output", "r.json")
     assert code == 130
     assert (work / "r.json").read_text(encoding="utf-8") == "old"
-    assert [p.name for p in work.iterdir() if p.name.endswith(".tmp")] == []
+    assert [p.name for p in work.iterdir() if PARTIAL in p.name] == []
 
 
 def test_colour_rules(monkeypatch):

@@ -44,6 +44,10 @@ def test_docs_show_commands_at_all() -> None:
 def test_every_documented_command_and_option_exists(doc: str, line: str, capsys: pytest.CaptureFixture) -> None:
     words = line.split()
     command = words[1]
+    if command.startswith("-"):  # an option of afecheck itself
+        assert main(["--help"]) == 0
+        assert re.search(rf"(?<![\w-]){re.escape(command)}(?![\w-])", capsys.readouterr().out), line
+        return
     assert command in COMMANDS, f"{doc} shows `afecheck {command}`, which is not a command"
     assert main([command, "--help"]) == 0  # argparse prints help to sys.stdout
     help_text = capsys.readouterr().out
@@ -69,3 +73,12 @@ def test_marked_outputs_are_what_the_commands_print(monkeypatch: pytest.MonkeyPa
                 f"{doc.name}: the block under `{command}` no longer matches its output:\n" + "\n".join(printed))
             checked += 1
     assert checked >= 1
+
+
+def test_readme_rule_table_lists_every_registered_rule() -> None:
+    from afecheck.engine.registry import default_registry
+
+    text = (ROOT / "README.md").read_text(encoding="utf-8")
+    table = text[text.index("| family | rules |"):].split("\n\n", 1)[0]
+    listed = set(re.findall(r"`([a-z-]+\.[a-z0-9-]+)`", table))
+    assert listed == {m.id for m in default_registry().metas()}

@@ -128,9 +128,12 @@ def test_names_are_unique_and_nets_are_per_channel() -> None:
 def test_benchmark_script_runs_on_one_channel() -> None:
     # the benchmark is a script, not a timed test: check only that it runs and prints a row for N = 1
     script = ROOT / "benchmarks" / "bench_check.py"
-    proc = subprocess.run([sys.executable, str(script), "--channels", "1", "--repeat", "1", "--no-spice"],
-                          capture_output=True, text=True, timeout=300)
+    proc = subprocess.run([sys.executable, str(script), "--channels", "1", "--repeat", "1", "--no-spice",
+                           "--batch", "2"], capture_output=True, text=True, timeout=300)
     assert proc.returncode == 0, proc.stderr
-    rows = [line.split() for line in proc.stdout.splitlines() if line.split()[:2] == ["1", "12"]]
-    # row: N parts wall cpu peak exit load analyse rules report finds ngspice ratio
-    assert len(rows) == 1 and rows[0][5] == "0" and rows[0][10] == "0", proc.stdout
+    lines = proc.stdout.splitlines()
+    assert sum(1 for line in lines if line.startswith("| 1 | 12 | ")) == 2, proc.stdout  # size row and phase row
+    phase = next(line for line in lines if line.startswith("| 1 | ") and line.count("|") == 8)
+    assert phase.split("|")[7].strip() == "0", phase  # the generated design is clean: no findings
+    assert not any("afecheck exit" in line for line in lines), proc.stdout
+    assert any(line.startswith("| 2 designs in one run") for line in lines)

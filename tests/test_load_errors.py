@@ -18,7 +18,14 @@ from hypothesis import strategies as st
 from afecheck.cli import main
 from afecheck.errors import InputError
 from afecheck.model.load import load_design
-from afecheck.model.reader import MAX_ALIAS_NODES, MAX_ALIASES, MAX_DEPTH, MAX_FILE_BYTES
+from afecheck.model.reader import (
+    MAX_ALIAS_NODES,
+    MAX_ALIASES,
+    MAX_DEPTH,
+    MAX_FILE_BYTES,
+    _flow_nesting_beyond_limit_on_one_line,
+    read_file,
+)
 
 HEAD = "afecheck: 1\nrails:\n  VCC: {voltage: 5 V}\ncomponents:\n"  # components start on line 5
 FOLLOWER = "  U1: {kind: opamp, part: AFE-GP1, pins: {in+: IN, in-: OUT, out: OUT, v+: VCC, v-: GND}}\n"
@@ -287,7 +294,25 @@ def test_deep_nesting_is_refused_quickly(tmp_path: Path, suffix: str) -> None:
     start = time.perf_counter()
     (message,) = errors(path)
     assert time.perf_counter() - start < 2.0
-    assert message.startswith(f"{path}:1") and f"nesting deeper than {MAX_DEPTH} levels" in message
+    # our refusal, never the parser's own nesting limit (libyaml 0.2.5+ stops at 1000 with its own words)
+    where = f"{path}:1:{21 + MAX_DEPTH}:" if suffix == ".yaml" else f"{path}:1:"
+    assert message == f"{where} nesting deeper than {MAX_DEPTH} levels"
+
+
+def test_deep_flow_line_inside_a_block_document_is_refused_by_our_limit(tmp_path: Path) -> None:
+    path = write(tmp_path, "afecheck: 1\nname: x\nhazards:\n  - " + "[" * 5000 + "]" * 5000 + "\n")
+    (message,) = errors(path)
+    column = len("  - ") + MAX_DEPTH - 2 + 1  # the top mapping and the list hold two levels already
+    assert message == f"{path}:4:{column}: nesting deeper than {MAX_DEPTH} levels"
+
+
+def test_brackets_inside_quotes_and_comments_are_not_nesting(tmp_path: Path) -> None:
+    brackets = "[{" * 600
+    text = f"afecheck: 1\nname: '{brackets}'\nnote: \"{brackets}\"  # {brackets}\nlist: [[1], {{a: [2]}}]\n"
+    assert _flow_nesting_beyond_limit_on_one_line(text)  # so the limit-free parser reads it: same data
+    document = read_file(write(tmp_path, text))
+    assert document.data == {"afecheck": 1, "name": brackets, "note": brackets, "list": [[1], {"a": [2]}]}
+    assert document.values[("list", 1, "a", 0)] == (4, 18)
 
 
 def test_nesting_at_the_limit_is_read(tmp_path: Path) -> None:

@@ -27,8 +27,10 @@ def test_report_modules_do_not_import_analysis():
 def test_importing_every_reporter_loads_no_analysis():
     code = ("import sys, afecheck.report as r\n"
             "import afecheck.report.text, afecheck.report.json_report, afecheck.report.sarif, "
-            "afecheck.report.junit, afecheck.report.markdown\n"
-            "bad = [m for m in sys.modules if m.startswith(('afecheck.analysis', 'afecheck.graph', 'numpy'))]\n"
+            "afecheck.report.junit, afecheck.report.markdown, afecheck.report.html, afecheck.report.plots, "
+            "afecheck.report.markup, afecheck.report.stage_lines\n"
+            "bad = [m for m in sys.modules if m.startswith(('afecheck.analysis', 'afecheck.graph', 'numpy', "
+            "'matplotlib', 'jinja2'))]\n"
             "print(bad)\n")
     out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=True).stdout
     assert out.strip() == "[]"

@@ -35,7 +35,7 @@ def test_rule_page_follows_the_template(meta) -> None:
     assert f"Name: `{meta.slug}`." in text.splitlines()[2] and f"Family: {meta.family}." in text.splitlines()[2]
     assert re.findall(r"^## (.+)$", text, flags=re.M) == SECTIONS
     example = text.split("## Flagged and passing", 1)[1].split("## Limits and their sources", 1)[0]
-    assert example.index("Flagged") < example.index("Passing")
+    assert example.index("bad.yaml") < example.index("good.yaml")
     params = text.split("## Limits and their sources", 1)[1].split("## Blind spots", 1)[0]
     assert set(re.findall(r"`(\w+)`", params)) == {p.name for p in meta.params}
 
@@ -50,8 +50,8 @@ def test_rule_page_uses_no_borrowed_headings_and_cites_only_what_readers_have(me
     text = page(meta)
     assert not any(h in text for h in BORROWED_HEADINGS)
     assert "RULES-REFERENCE" not in text and not re.search(r"\[(FR|GHLM|BODE|DER|CP|FM|NUM|SS|HH)\]", text)
-    sources = text.split("## Sources", 1)[1]
-    assert re.search(r"^- ", sources, flags=re.M)
+    sources = text.split("## Sources", 1)[1].strip()
+    assert sources and (re.search(r"\d{4}|common practice|own", sources)), "name a published source or say none"
 
 
 def test_catalogue_folders_are_exactly_the_registered_rules() -> None:

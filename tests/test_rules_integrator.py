@@ -24,10 +24,10 @@ def _afe204(tmp_path: Path, extra: str = "") -> list:
     return [f for f in check_file(path).findings if f.rule == "stability.feedback-sense"]
 
 
-def test_integrator_without_dc_path_is_a_warning_naming_the_capacitor(tmp_path: Path) -> None:
-    # RULES-REFERENCE R5m: feedback only through capacitors -> no DC feedback -> warning unless a DC path exists
+def test_integrator_without_dc_path_is_an_error_naming_the_capacitor(tmp_path: Path) -> None:
+    # Bode return ratio: feedback only through capacitors -> T(0) = 0 -> the output integrates to a rail: error
     (finding,) = _afe204(tmp_path)
-    assert finding.severity == Severity.WARNING
+    assert finding.severity == Severity.ERROR
     assert finding.location.refs[0] == "C1"
     assert finding.ctx["feedback"] == "no-dc-path"
 

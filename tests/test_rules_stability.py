@@ -108,13 +108,45 @@ def test_open_loop_is_an_error_and_negative_feedback_is_silent() -> None:
     assert run(feedback_sign, design(), [stage()]) == []
 
 
-def test_integrator_without_dc_path_warns_and_with_resistor_is_silent() -> None:
+def test_integrator_without_dc_path_is_an_error_and_with_resistor_is_silent() -> None:
+    # Bode return ratio: capacitor-only feedback leaves T(0) = 0, so the output integrates offset to a rail
     cap = {"C1": {"kind": "capacitor", "value": 1e-6, "dielectric": "film", "pins": {1: "INM", 2: "OUT"}},
            "R1": {"kind": "resistor", "value": 10e3, "pins": {1: "SIG", 2: "INM"}}}
-    [f] = run(feedback_sign, design(cap), [stage(topology="integrator")])
-    assert f.severity == Severity.WARNING and f.location.refs[0] == "C1"
+    open_dc = stage(topology="integrator", feedback="none", loop_gain_dc=0.0)
+    [f] = run(feedback_sign, design(cap), [open_dc])
+    assert f.severity == Severity.ERROR and f.location.refs[0] == "C1"
     shunt = cap | {"R2": {"kind": "resistor", "value": 1e6, "pins": {1: "INM", 2: "OUT"}}}
-    assert run(feedback_sign, design(shunt), [stage(topology="integrator")]) == []
+    assert run(feedback_sign, design(shunt), [stage(topology="integrator", loop_gain_dc=1e5 * 1e4 / 1.01e6)]) == []
+
+
+def test_feedback_judged_by_computed_loop_gain_not_by_the_part_across_in_minus() -> None:
+    # item 1: a multiple-feedback low-pass has only C2 between in- and the output, but R2-R3 close the DC loop;
+    # its computed T(0) = A0·R?/(...) is large and negative feedback, so nothing to report
+    mfb = {"C2": {"kind": "capacitor", "value": 1e-9, "dielectric": "C0G", "pins": {1: "INM", 2: "OUT"}},
+           "R2": {"kind": "resistor", "value": 1e4, "pins": {1: "N1", 2: "OUT"}},
+           "R3": {"kind": "resistor", "value": 1e4, "pins": {1: "N1", 2: "INM"}}}
+    assert run(feedback_sign, design(mfb), [stage(topology="active-filter", loop_gain_dc=3.3e4)]) == []
+    [f] = run(feedback_sign, design(mfb), [stage(topology="active-filter", feedback="none", loop_gain_dc=0.0)])
+    assert f.severity == Severity.ERROR
+
+
+@pytest.mark.parametrize("role", ["comparator", "schmitt"])
+def test_declared_switching_stage_gets_no_feedback_finding(role: str) -> None:
+    # item 12: a comparator or Schmitt trigger declared as such has open-loop or positive feedback on purpose
+    loaded = design(part=None)
+    comps = loaded.design.model_dump(by_alias=True)["components"]
+    comps["U1"]["role"] = role
+    intended = design(comps)
+    assert run(feedback_sign, intended, [stage(feedback="positive", loop_gain_dc=-9091.0)]) == []
+    assert run(feedback_sign, design(), [stage(feedback="positive", loop_gain_dc=-9091.0)]) != []
+
+
+def test_declared_integrator_without_dc_path_is_only_info() -> None:
+    cap = {"C1": {"kind": "capacitor", "value": 1e-6, "dielectric": "film", "pins": {1: "INM", 2: "OUT"}},
+           "U1": {"kind": "opamp", "part": "KIT-AMP", "role": "integrator",
+                  "pins": {"in+": "INP", "in-": "INM", "out": "OUT", "v+": "VCC", "v-": "GND"}}}
+    [f] = run(feedback_sign, design(cap), [stage(topology="integrator", feedback="none", loop_gain_dc=0.0)])
+    assert f.severity == Severity.INFO and "declared an integrator" in f.message
 
 
 @pytest.mark.parametrize(("ro", "riso"), [(100.0, 100.0), (80.0, 82.0), (250.0, 100.0), (3.0, 10.0), (50.0, 47.0)])

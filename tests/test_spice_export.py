@@ -1,4 +1,8 @@
-"""SPICE deck export and the ``afecheck spice`` command; decks run through ngspice where it is installed."""
+"""SPICE deck export and the ``afecheck spice`` command; decks run through ngspice where it is installed.
+
+The ngspice runs here are solver-consistency checks (the deck is afecheck's own export); the independent
+reference is tests/reference/. Tolerance 1e-6 relative: the same deck on both sides agrees to about
+1e-15 (REFERENCE-TOOLS); 1e-6 is a loose allowance above that (common practice)."""
 
 from __future__ import annotations
 
@@ -97,6 +101,7 @@ def test_control_block() -> None:
 
 
 @pytest.mark.ngspice
+@pytest.mark.solver_consistency
 @needs_ngspice
 def test_small_deck_in_ngspice() -> None:
     nl = small_netlist()
@@ -111,6 +116,7 @@ def test_small_deck_in_ngspice() -> None:
 
 
 @pytest.mark.ngspice
+@pytest.mark.solver_consistency
 @needs_ngspice
 def test_design_deck_in_ngspice(tmp_path) -> None:
     path = tmp_path / "hydro.yaml"
@@ -127,6 +133,7 @@ def test_design_deck_in_ngspice(tmp_path) -> None:
 
 
 @pytest.mark.ngspice
+@pytest.mark.solver_consistency
 @needs_ngspice
 def test_loop_break_deck_gives_return_ratio() -> None:
     # REFERENCE-TOOLS: breaking at the last VCVS output gives the return ratio exactly
@@ -165,6 +172,7 @@ def test_cli_stage_to_file(tmp_path) -> None:
 
 
 @pytest.mark.ngspice
+@pytest.mark.solver_consistency
 @needs_ngspice
 def test_cli_stage_deck_matches_whole_design(tmp_path) -> None:
     loaded = load_design(SAMPLE)
@@ -199,6 +207,7 @@ def test_sweep_covers_the_op_amp() -> None:
 
 
 @pytest.mark.ngspice
+@pytest.mark.solver_consistency
 @needs_ngspice
 def test_single_pole_part_in_ngspice() -> None:
     # a part without a second pole is written with one RC pole only, and still agrees with the solver

@@ -9,11 +9,13 @@ from afecheck.graph.stages import find_stages
 from afecheck.model.loaded import LoadedDesign
 
 
-def analyse_design(loaded: LoadedDesign) -> DesignAnalysis:
-    """Every op-amp stage's StageResult (in file order), the signal on every net, and what was not evaluated."""
+def analyse_design(loaded: LoadedDesign, circuits: dict | None = None) -> DesignAnalysis:
+    """Every op-amp stage's StageResult (in file order), the signal on every net, and what was not evaluated.
+
+    ``circuits``, when given, collects each op-amp's local netlist for frequency sweeps (analysis/curves.py)."""
     circuit = build_circuit(loaded)
     plan = find_stages(circuit)
-    results, nets, problems = propagate(circuit, plan)
+    results, nets, problems = propagate(circuit, plan, circuits)
     for r in results.values():
         if r.not_evaluated:
             problems.append(((r.opamp,), "; ".join(r.not_evaluated)))

@@ -31,9 +31,11 @@ def seed_signals(circuit: Circuit) -> dict[str, NetSignal]:
     return nets
 
 
-def propagate(circuit: Circuit, plan: StagePlan) -> tuple[dict[str, StageResult], dict[str, NetSignal],
-                                                          list[tuple[tuple[str, ...], str]]]:
-    """Analyse every solve unit in signal order; return stage results, net signals and what was not evaluated."""
+def propagate(circuit: Circuit, plan: StagePlan, circuits: dict | None = None
+              ) -> tuple[dict[str, StageResult], dict[str, NetSignal], list[tuple[tuple[str, ...], str]]]:
+    """Analyse every solve unit in signal order; return stage results, net signals and what was not evaluated.
+
+    ``circuits``, when given, collects each op-amp's local netlist (see :func:`analyse_unit`)."""
     results: dict[str, StageResult] = {}
     nets = seed_signals(circuit)
     problems: list[tuple[tuple[str, ...], str]] = [
@@ -42,7 +44,7 @@ def propagate(circuit: Circuit, plan: StagePlan) -> tuple[dict[str, StageResult]
     ]
     cache: dict = {}
     for unit in plan.units:
-        res = analyse_unit(circuit, plan, unit, results, cache)
+        res = analyse_unit(circuit, plan, unit, results, cache, circuits)
         for r in res.stages:
             results[r.opamp] = r
         for ns in res.nets:

@@ -37,7 +37,7 @@ from afecheck.analysis.netlist import (
     netlist_from_design,
 )
 from afecheck.analysis.results import NetSignal, SourceEquivalent, StageInput, StageResult
-from afecheck.analysis.sources import Divider, boundary_source, find_dividers
+from afecheck.analysis.sources import Divider, boundary_source, find_dividers, rail_range
 from afecheck.errors import AnalysisError, InputError, SingularCircuitError
 from afecheck.graph.build import Circuit
 from afecheck.graph.queries import has_dc_path
@@ -206,10 +206,12 @@ def _holding_elements(circuit: Circuit, stages: list[Stage], nets: set[str], see
 
 
 def analyse_unit(circuit: Circuit, plan: StagePlan, unit: tuple[str, ...],
-                 done: Mapping[str, StageResult], cache: dict | None = None) -> UnitResult:
+                 done: Mapping[str, StageResult], cache: dict | None = None,
+                 circuits: dict | None = None) -> UnitResult:
     """Solve the op-amps of ``unit`` together and return their StageResults and net signals.
 
-    ``cache`` (one dict per design) memoises loop gains of stages whose local circuits are identical.
+    ``cache`` (one dict per design) memoises loop gains of stages whose local circuits are identical;
+    ``circuits``, when given, receives op-amp -> (local netlist, {input net: its source branch}) for later sweeps.
     """
     stages = [plan.stages[r] for r in unit]
     for s in stages:
@@ -237,6 +239,8 @@ def analyse_unit(circuit: Circuit, plan: StagePlan, unit: tuple[str, ...],
         return UnitResult(tuple(_empty_result(s, circuit, tuple(p.message for p in exc.problems)) for s in stages), ())
     names = {e.name for e in netlist.elements}
     inputs = [i for i in inputs if i.branch in names]
+    if circuits is not None:
+        circuits.update({r: (netlist, {i.source.net: i.branch for i in inputs}) for r in unit})
     try:
         return _solve_unit(circuit, stages, netlist, inputs, notes, cache)
     except SingularCircuitError as exc:
@@ -437,13 +441,13 @@ def _stage_result(circuit: Circuit, s: Stage, netlist: Netlist, system: MnaSyste
     open_loop = fb != "negative" or bool(floating)
     if open_loop:
         vpk = vac
+    vcm = _common_mode(circuit, s, inp_i, lo, hi, bool(floating))
     part = circuit.loaded.design.components[s.opamp].part  # type: ignore[union-attr]
     return StageResult(
         opamp=s.opamp, part=part, topology=s.topology, refs=s.refs, in_plus=s.in_plus, in_minus=s.in_minus,
         out=s.out, group=s.group, inputs=tuple(stage_inputs),
         noise_gain_dc=ng_dc, noise_gain_at_crossover=ng_fc, noise_gain_hf=ng_hf,
-        output_resistance=rout, vcm_min=None if floating or inp_i < 0 else float(lo[inp_i]),
-        vcm_max=None if floating or inp_i < 0 else float(hi[inp_i]), vout_min=None if open_loop else vout_min,
+        output_resistance=rout, vcm_min=vcm[0], vcm_max=vcm[1], vout_min=None if open_loop else vout_min,
         vout_max=None if open_loop else vout_max, iout_peak=None if open_loop else iout_peak,
         vout_ac_peak=vac, f_max=f_max, load_resistance=load_r, load_capacitance=load_c,
         feedback=fb, loop_gain_dc=t_dc, crossover_hz=fc, phase_margin_deg=pm, gain_margin_db=gm,
@@ -451,6 +455,18 @@ def _stage_result(circuit: Circuit, s: Stage, netlist: Netlist, system: MnaSyste
         rail_plus=vp, rail_minus=vm, assumed=tuple(op.assumed), estimated="second_pole" in op.assumed,
         not_evaluated=tuple(reasons),
     )
+
+
+def _common_mode(circuit: Circuit, s: Stage, inp_i: int, lo: np.ndarray, hi: np.ndarray,
+                 floating: bool) -> tuple[float | None, float | None]:
+    """(lowest, highest) voltage on in+: the solved node range, or the fixed net's own range when in+ sits on ground
+    or a rail (it is no node of the solve then)."""
+    if floating:
+        return None, None
+    if inp_i >= 0:
+        return float(lo[inp_i]), float(hi[inp_i])
+    rng = rail_range(circuit, s.in_plus)
+    return (float(rng[0]), float(rng[1])) if rng is not None else (None, None)
 
 
 def _series_path(circuit: Circuit, start: str, goal: str, refs: frozenset[str], out: str) -> tuple[str, ...]:

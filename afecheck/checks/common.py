@@ -46,22 +46,57 @@ def db(ratio: float) -> float:
     return 20.0 * math.log10(ratio) if ratio > 0 else -math.inf
 
 
+NUMERIC_TOLERANCE = 1e-9
+"""Relative size of solver round-off: differences this small against the quantities involved are noise."""
+
+
+def print_tolerance(limit: float, digits: int = 3) -> float:
+    """Half a unit in the last printed digit of ``limit`` (``digits`` significant figures): a value closer than this
+    prints as the limit itself, so it is never reported as breaking it."""
+    if limit == 0 or not math.isfinite(limit):
+        return 0.0
+    return 0.5 * 10.0 ** (math.floor(math.log10(abs(limit))) - digits + 1)
+
+
+def noise_floor(*quantities: float) -> float:
+    """Round-off scale of a comparison: NUMERIC_TOLERANCE times the largest magnitude among ``quantities``."""
+    finite = [abs(q) for q in quantities if math.isfinite(q)]
+    return NUMERIC_TOLERANCE * max(finite, default=0.0)
+
+
 def grade_above(value: float, warn: float, err: float) -> Severity | None:
-    """Severity when larger is worse: error above ``err``, warning above ``warn``."""
-    if value > err:
+    """Severity when larger is worse: error above ``err``, warning above ``warn``; a value that prints as the limit
+    (within :func:`print_tolerance`) does not break it."""
+    if value > err + max(print_tolerance(err), noise_floor(value, err)):
         return Severity.ERROR
-    if value > warn:
+    if value > warn + max(print_tolerance(warn), noise_floor(value, warn)):
         return Severity.WARNING
     return None
 
 
 def grade_below(value: float, warn: float, err: float) -> Severity | None:
-    """Severity when smaller is worse: error below ``err``, warning below ``warn``."""
-    if value < err:
+    """Severity when smaller is worse: error below ``err``, warning below ``warn``; within print precision of a limit
+    counts as meeting it."""
+    if value < err - max(print_tolerance(err), noise_floor(value, err)):
         return Severity.ERROR
-    if value < warn:
+    if value < warn - max(print_tolerance(warn), noise_floor(value, warn)):
         return Severity.WARNING
     return None
+
+
+def grade_headroom(margin: float, band: float, *scale: float) -> Severity | None:
+    """Headroom grading: error when ``margin`` is below zero by more than round-off of the quantities in ``scale``,
+    warning when it is inside ``band`` by more than the band's print precision."""
+    if margin < -noise_floor(*scale, band):
+        return Severity.ERROR
+    if margin < band - max(print_tolerance(band), noise_floor(*scale, band)):
+        return Severity.WARNING
+    return None
+
+
+def snap(value: float, *scale: float) -> float:
+    """``value`` with round-off removed: 0.0 when it is within :func:`noise_floor` of zero."""
+    return 0.0 if abs(value) <= noise_floor(*scale) else value
 
 
 def finding(
@@ -194,3 +229,22 @@ def design_band(loaded: LoadedDesign) -> tuple[float, float] | None:
     if not bands:
         return None
     return min(b[0] for b in bands), max(b[1] for b in bands)
+
+
+def stage_role(loaded: LoadedDesign, opamp: str) -> str:
+    """The declared role of op-amp ``opamp`` (amplifier, comparator, schmitt, integrator); amplifier if undeclared."""
+    comp = loaded.design.components.get(opamp)
+    role = getattr(comp, "role", None) if comp is not None else None
+    return role or "amplifier"
+
+
+def switching(loaded: LoadedDesign, opamp: str) -> bool:
+    """True for a stage declared as a comparator or Schmitt trigger: it switches on purpose, it is not linear."""
+    return stage_role(loaded, opamp) in ("comparator", "schmitt")
+
+
+def intended_gain(loaded: LoadedDesign, opamp: str) -> float | None:
+    """The declared intended DC gain of ``opamp``'s stage (V/V, signed), None when not declared."""
+    comp = loaded.design.components.get(opamp)
+    value = getattr(comp, "intended_gain", None) if comp is not None else None
+    return None if value is None else float(value)

@@ -17,22 +17,15 @@ def add_arguments(p: argparse.ArgumentParser) -> None:
 
 def run(args: argparse.Namespace, stdout: TextIO, stderr: TextIO) -> int:
     from afecheck.api import review_files
-    from afecheck.io import same_file, write_text_atomic
+    from afecheck.io import check_outputs, recording_reads, write_outputs
     from afecheck.policy.baseline import render_baseline
-    from afecheck.policy.gate import EXIT_CLEAN, EXIT_INPUT
+    from afecheck.policy.gate import EXIT_CLEAN
 
-    for source in input_paths(args):
-        if source.exists() and same_file(source, args.output):
-            print(f"afecheck: error: --output {args.output} is an input file; afecheck never writes to its inputs",
-                  file=stderr)
-            return EXIT_INPUT
-    report = review_files(args.files, **review_options(args))
+    with recording_reads() as reads:
+        check_outputs([args.output], input_paths(args))  # the inputs named on the command line, before the long part
+        report = review_files(args.files, **review_options(args))
     recorded = [e.finding for e in report.entries() if e.status == "open"]
-    try:
-        write_text_atomic(args.output, render_baseline(recorded))
-    except OSError as exc:
-        print(f"afecheck: error: cannot write {args.output}: {exc.strerror or exc}", file=stderr)
-        return EXIT_INPUT
+    write_outputs([(args.output, render_baseline(recorded))], reads)
     waived = sum(1 for e in report.entries() if e.status == "waived")
     print(f"afecheck: recorded {len(recorded)} findings from {len(report.designs)} designs in {args.output}"
           + (f" ({waived} waived findings left out)" if waived else ""), file=stdout)

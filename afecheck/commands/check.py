@@ -111,24 +111,11 @@ def use_color(choice: str, stream: TextIO) -> bool:
 
 
 def _plan(args: argparse.Namespace, stderr: TextIO) -> list[list[str | None]] | None:
-    from afecheck.io import same_file
-
     reports = args.reports or [["text", None]]
-    to_stdout = [r for r in reports if r[1] is None]
-    if len(to_stdout) > 1:
+    if sum(1 for r in reports if r[1] is None) > 1:
         print("afecheck: error: only one --format may go to standard output; give the others an --output",
               file=stderr)
         return None
-    targets = [str(r[1]) for r in reports if r[1] is not None]
-    if len(set(targets)) != len(targets):
-        print("afecheck: error: two reports would go to the same --output file", file=stderr)
-        return None
-    for target in targets:
-        for source in input_paths(args):
-            if source.exists() and same_file(source, target):
-                print(f"afecheck: error: --output {target} is an input file; afecheck never writes to its inputs",
-                      file=stderr)
-                return None
     return reports
 
 
@@ -147,29 +134,37 @@ def is_design_file(path: str | Path) -> bool:
 
 def run(args: argparse.Namespace, stdout: TextIO, stderr: TextIO) -> int:
     from afecheck.api import review_files
-    from afecheck.io import write_text_atomic
+    from afecheck.io import check_outputs, recording_reads, write_outputs
     from afecheck.policy.gate import EXIT_INPUT, exit_code
     from afecheck.report import render
 
     plan = _plan(args, stderr)
     if plan is None:
         return EXIT_INPUT
-    if args.only_designs:
-        args.files = [f for f in args.files if is_design_file(f)]
-        if not args.files:
-            print("afecheck: no design files among the files given", file=stderr)
-            return 0
-    report = review_files(args.files, fail_on=args.fail_on, baseline=args.baseline, **review_options(args))
-    rendered = [(fmt, path, render(report, str(fmt), color=path is None and use_color(args.color, stdout)))
+    formats = {str(fmt) for fmt, _ in plan}
+    if "html" in formats:
+        from afecheck.report.html import missing_dependencies
+
+        missing = missing_dependencies()
+        if missing:
+            print(f"afecheck: error: --format html needs {' and '.join(missing)}, which are not installed; "
+                  "install them with: pip install 'afecheck[html]'", file=stderr)
+            return EXIT_INPUT
+    detail = "curves" if "html" in formats else "stages" if "markdown" in formats else "none"
+    files = [str(path) for _fmt, path in plan if path is not None]
+    with recording_reads() as reads:
+        check_outputs(files, input_paths(args))  # the inputs named on the command line, before the long part
+        if args.only_designs:
+            args.files = [f for f in args.files if is_design_file(f)]
+            if not args.files:
+                print("afecheck: no design files among the files given", file=stderr)
+                return 0
+        report = review_files(args.files, fail_on=args.fail_on, baseline=args.baseline, detail=detail,
+                              **review_options(args))
+    rendered = [(path, render(report, str(fmt), color=path is None and use_color(args.color, stdout)))
                 for fmt, path in plan]
-    for _fmt, path, text in rendered:
-        if path is not None:
-            try:
-                write_text_atomic(path, text)
-            except OSError as exc:
-                print(f"afecheck: error: cannot write {path}: {exc.strerror or exc}", file=stderr)
-                return EXIT_INPUT
-    for _fmt, path, text in rendered:
+    write_outputs([(path, text) for path, text in rendered if path is not None], reads)
+    for path, text in rendered:
         if path is None:
             stdout.write(text)
     return exit_code(report)

@@ -3,8 +3,6 @@
 from __future__ import annotations
 
 import argparse
-import os
-import tempfile
 from pathlib import Path
 from typing import TextIO
 
@@ -23,10 +21,13 @@ def add_arguments(p: argparse.ArgumentParser) -> None:
 
 def run(args: argparse.Namespace, stdout: TextIO, stderr: TextIO) -> int:
     from afecheck.analysis.spice import AcSweep, ControlBlock, spice_deck
-    from afecheck.errors import InputError, Problem
+    from afecheck.io import check_outputs, recording_reads, write_outputs
     from afecheck.model.load import load_design
 
-    loaded = load_design(args.file, intent=args.intent, libraries=tuple(args.parts))
+    with recording_reads() as reads:
+        if args.output:
+            check_outputs([args.output], [args.file, args.intent, *args.parts])
+        loaded = load_design(args.file, intent=args.intent, libraries=tuple(args.parts))
     if args.stage:
         netlist, title = _stage_netlist(loaded, args.stage), f"{loaded.design.name}: stage {args.stage}"
     else:
@@ -41,11 +42,7 @@ def run(args: argparse.Namespace, stdout: TextIO, stderr: TextIO) -> int:
     if not args.output:
         stdout.write(deck.text)
         return 0
-    try:
-        _write_atomic(Path(args.output), deck.text)
-    except OSError as exc:
-        problem = Problem(str(args.output), None, None, "", f"cannot write the deck: {exc.strerror}")
-        raise InputError([problem]) from None
+    write_outputs([(args.output, deck.text)], reads)
     print(f"wrote {args.output}", file=stderr)
     return 0
 
@@ -100,16 +97,3 @@ def _stage_netlist(loaded, refdes: str):  # noqa: ANN001, ANN202 - LoadedDesign 
         values = {n: circuit.fixed.get(n) or 0.0 for n in to_hold}
     held = [VoltageSource(f"{n}#held", n, GROUND, dc=float(values[n])) for n in to_hold]
     return netlist.with_elements(*held)
-
-
-def _write_atomic(path: Path, text: str) -> None:
-    """Write ``text`` to a temporary file beside ``path`` and move it into place."""
-    directory = path.parent if str(path.parent) else Path(".")
-    fd, tmp = tempfile.mkstemp(prefix=f".{path.name}.", suffix=".tmp", dir=directory)
-    try:
-        with os.fdopen(fd, "w", encoding="utf-8", newline="\n") as fh:
-            fh.write(text)
-        os.replace(tmp, path)
-    except BaseException:
-        Path(tmp).unlink(missing_ok=True)
-        raise

@@ -9,6 +9,7 @@ import math
 from typing import TYPE_CHECKING, TextIO
 
 if TYPE_CHECKING:
+    from afecheck.analysis.curves import StageCurves
     from afecheck.analysis.results import DesignAnalysis, StageInput, StageResult
 
 HELP = "print every op-amp stage with the numbers the rules stand on"
@@ -18,6 +19,9 @@ JSON_SCHEMA_VERSION = 1
 def add_arguments(p: argparse.ArgumentParser) -> None:
     p.add_argument("file", metavar="FILE", help="design file (YAML or JSON)")
     p.add_argument("--json", action="store_true", help="print every field of every stage as JSON")
+    p.add_argument("--curves", action="store_true",
+                   help="with the JSON (implies --json), add each stage's frequency responses: loop gain, noise gain,"
+                   " open-loop gain and the closed-loop response from each signal input (dB and degrees)")
     p.add_argument("--intent", help="design-intent file (signals, loads, budgets keyed by net)")
     p.add_argument("--parts", action="append", default=[], metavar="LIB", help="extra part library file")
 
@@ -29,10 +33,16 @@ def run(args: argparse.Namespace, stdout: TextIO, stderr: TextIO) -> int:
     from afecheck.report.worksheet import render_worksheet
 
     loaded = load_design(args.file, intent=args.intent, libraries=tuple(args.parts))
+    if args.curves:
+        from afecheck.analysis.curves import design_curves
+
+        analysis, curves = design_curves(loaded)
+        stdout.write(render_json(loaded.design.name, loaded.file, analysis, curves))
+        return 0
     analysis = analyse(loaded)
     worksheet = build_worksheet(loaded, analysis)
     if args.json:
-        stdout.write(render_json(loaded.design.name, loaded.file, analysis, worksheet))
+        stdout.write(render_json(loaded.design.name, loaded.file, analysis, worksheet=worksheet))
     else:
         stdout.write(render_text(loaded.design.name, analysis) + render_worksheet(worksheet))
     return 0
@@ -49,14 +59,21 @@ def _clean(value: object) -> object:
     return value
 
 
-def render_json(name: str, file: str, analysis: DesignAnalysis, worksheet: object = None) -> str:
-    """The whole analysis as JSON: every stage field, every net signal, what was not evaluated, and the budgets
-    worksheet (noise, DC error and drift with every contributor) when given."""
+def render_json(name: str, file: str, analysis: DesignAnalysis, curves: dict[str, StageCurves] | None = None,
+                worksheet: object = None) -> str:
+    """The whole analysis as JSON: every stage field, every net signal, what was not evaluated; with ``curves``,
+    each stage also carries its frequency responses under ``curves``; with ``worksheet``, the budgets worksheet
+    (noise, DC error and drift with every contributor, ADC drive, supply limits)."""
+    stages = [dataclasses.asdict(s) for s in analysis.stages]
+    if curves is not None:
+        for s in stages:
+            c = curves.get(s["opamp"])
+            s["curves"] = None if c is None else {k: v for k, v in dataclasses.asdict(c).items() if k != "opamp"}
     data = {
         "schema_version": JSON_SCHEMA_VERSION,
         "design": name,
         "file": file,
-        "stages": [dataclasses.asdict(s) for s in analysis.stages],
+        "stages": stages,
         "nets": {k: dataclasses.asdict(v) for k, v in analysis.nets.items()},
         "not_evaluated": [{"refs": list(refs), "reason": reason} for refs, reason in analysis.not_evaluated],
     }

@@ -38,6 +38,11 @@ class Context:
             raise value
         return value
 
+    def computed(self, key: str) -> Any:
+        """The value ``key`` already holds, or None when it was never computed or failed (computes nothing)."""
+        value = self._cache.get(key)
+        return None if isinstance(value, BaseException) else value
+
     @property
     def analysis(self) -> DesignAnalysis:
         """The design analysis (stages, net signals), computed on first use."""

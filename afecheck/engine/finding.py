@@ -56,6 +56,9 @@ class Finding:
     confidence: Confidence = "computed"
     assumed: tuple[str, ...] = ()
     design: str = ""
+    caused_by: str = ""
+    """Fingerprint of the root finding this one rests on (an upstream stage that clips, floats or could not be
+    evaluated); empty for a root or an independent finding. See docs/CONFIDENCE.md."""
 
     @property
     def fingerprint(self) -> str:

@@ -14,7 +14,7 @@ from importlib import metadata
 from types import ModuleType
 from typing import Any
 
-from afecheck.checks import coverage
+from afecheck.checks import coverage, declared
 from afecheck.checks.adc import anti_alias, kickback, range_fill, settling
 from afecheck.checks.budgets import drift_over_budget, gain_error_over_budget, noise_over_budget, offset_over_budget
 from afecheck.checks.distortion import (
@@ -26,7 +26,7 @@ from afecheck.checks.distortion import (
     slew_rate,
     transition_region,
 )
-from afecheck.checks.headroom import input_common_mode, output_current, output_swing
+from afecheck.checks.headroom import floating_input, input_common_mode, output_current, output_swing, supply_rail
 from afecheck.checks.limits import capacitive_load, input_current, supply_range
 from afecheck.checks.loading import bias_current_offset, input_divider_error, inverting_source_loading
 from afecheck.checks.stability import feedback_sign, gain_margin, min_stable_gain, phase_margin
@@ -44,12 +44,13 @@ CRASH_META = RuleMeta(
 )
 
 _BUILTIN_MODULES: tuple[ModuleType, ...] = (
-    coverage,
+    coverage, declared,
     inverting_source_loading, input_divider_error, bias_current_offset,
     phase_margin, min_stable_gain, gain_margin, feedback_sign,
     input_common_mode, output_swing, output_current,
     transition_region, common_mode_swing, loop_gain_at_fmax, slew_rate, output_near_limit, class2_ceramic,
     input_impedance_imbalance,
+    floating_input, supply_rail,
     noise_over_budget, offset_over_budget, gain_error_over_budget, drift_over_budget,
     range_fill, anti_alias, settling, kickback,
     supply_range, input_current, capacitive_load,

@@ -13,7 +13,7 @@ if TYPE_CHECKING:
     from afecheck.engine.context import Context
 
 
-RULE_ID = re.compile(r"[a-z]+\.[a-z0-9]+(?:-[a-z0-9]+)*")
+RULE_ID = re.compile(r"[a-z]+(?:-[a-z]+)*\.[a-z0-9]+(?:-[a-z0-9]+)*")
 """A rule identifier: its family, a dot, and the topic in words (``stability.phase-margin``)."""
 
 

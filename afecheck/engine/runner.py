@@ -10,6 +10,7 @@ from afecheck.engine.context import Context
 from afecheck.engine.finding import Finding, Severity
 from afecheck.engine.registry import CRASH_META, Registry, default_registry
 from afecheck.engine.rule import Rule
+from afecheck.engine.sensitivity import Sensitivity
 from afecheck.errors import AnalysisError, InputError, Problem
 from afecheck.model.loaded import LoadedDesign
 
@@ -40,11 +41,33 @@ def run_rules(loaded: LoadedDesign, **options: Any) -> tuple[Finding, ...]:
     base = Context(loaded)
     if analysis is not None:
         base.memo("analysis", lambda: analysis)
+    # an injected analysis cannot be recomputed for variant part models, so its estimates stay estimates
+    sensitivity = Sensitivity(base) if analysis is None else None
     found: list[Finding] = []
     for rule in rules:
-        for f in _run_one(rule, base.for_rule(rule.meta, bound.get(rule.meta.id, {}))):
+        params_of = bound.get(rule.meta.id, {})
+        results = _run_one(rule, base.for_rule(rule.meta, params_of))
+        if sensitivity is not None:
+            results = sensitivity.settle(results, lambda c, r=rule, p=params_of: _rerun(r, c.for_rule(r.meta, p)))
+        for f in results:
             found.append(_apply_policy(f, severities.get(f.rule)))
-    return tuple(sorted(found, key=Finding.sort_key))
+    return tuple(sorted(_grouped(base, found), key=Finding.sort_key))
+
+
+def _grouped(base: Context, found: list[Finding]) -> tuple[Finding, ...] | list[Finding]:
+    """Findings with ``caused_by`` linking downstream ones to their root, when the analysis was computed."""
+    from afecheck.engine.causes import link_causes
+
+    analysis = base.computed("analysis")
+    return found if analysis is None else link_causes(found, analysis)
+
+
+def _rerun(rule: Rule, ctx: Context) -> list[Finding]:
+    """A rule's findings on a variant design for the sensitivity test; a failure counts as no finding."""
+    try:
+        return list(rule.check(ctx))
+    except Exception:  # noqa: BLE001 - a variant that cannot be judged changes the verdict
+        return []
 
 
 def _run_one(rule: Rule, ctx: Context) -> list[Finding]:

@@ -12,6 +12,7 @@ import bisect
 import json
 import re
 from dataclasses import dataclass
+from itertools import accumulate
 from pathlib import Path
 from typing import Any
 
@@ -42,15 +43,21 @@ _BUILD = {
     f"{_YAML}bool": _CONSTRUCTOR.construct_yaml_bool,
     f"{_YAML}null": _CONSTRUCTOR.construct_yaml_null,
 }
+
+
+class _PurePythonParser(yaml.reader.Reader, yaml.scanner.Scanner, yaml.parser.Parser):
+    """PyYAML's pure-Python parser: the same events as libyaml's, with no nesting limit of its own."""
+
+    def __init__(self, stream: str):
+        yaml.reader.Reader.__init__(self, stream)
+        yaml.scanner.Scanner.__init__(self)
+        yaml.parser.Parser.__init__(self)
+
+
 try:
     from yaml._yaml import CParser as _Parser
 except ImportError:  # PyYAML built without libyaml: the pure-Python parser gives the same events
-
-    class _Parser(yaml.reader.Reader, yaml.scanner.Scanner, yaml.parser.Parser):  # type: ignore[no-redef]
-        def __init__(self, stream: str):
-            yaml.reader.Reader.__init__(self, stream)
-            yaml.scanner.Scanner.__init__(self)
-            yaml.parser.Parser.__init__(self)
+    _Parser = _PurePythonParser  # type: ignore[misc,assignment]
 
 
 # YAML 1.1 reads yes/no/on/off as booleans, 1:30 as base 60 and 010 as octal; a net called ON must stay a
@@ -379,11 +386,33 @@ class _YamlBuilder:
                 parent.value[key] = frame.value
 
 
+_OPENERS_ON_ONE_LINE = re.compile(r"^(?:[^\n\[{]*+[\[{]){" + str(MAX_DEPTH + 1) + "}", re.M)
+_BRACKET_STEP = {"[": 1, "{": 1, "]": -1, "}": -1}
+_NOT_BRACKETS = str.maketrans("", "", "".join(chr(c) for c in range(128) if chr(c) not in "[]{}"))
+
+
+def _flow_nesting_beyond_limit_on_one_line(text: str) -> bool:
+    """True when some line opens more than MAX_DEPTH flow collections ('[', '{') deeper than it closes.
+
+    libyaml scans up to a line (or 1024 characters) ahead of the events we build from, and since 0.2.5 its
+    scanner refuses a flow level over 1000 with a message of its own. Only such a line can reach that limit
+    before our builder sees MAX_DEPTH + 1 collections, so a file with one is parsed by the pure-Python parser,
+    which has no limit: our refusal then always comes first, at the exact spot, and a file that only looks
+    deep (brackets inside quotes or comments) is still read correctly.
+    """
+    for match in _OPENERS_ON_ONE_LINE.finditer(text):
+        end = text.find("\n", match.end())
+        brackets = text[match.start(): len(text) if end < 0 else end].translate(_NOT_BRACKETS)
+        if any(depth > MAX_DEPTH for depth in accumulate(_BRACKET_STEP.get(c, 0) for c in brackets)):
+            return True
+    return False
+
+
 def _read_yaml(text: str, file: str) -> Document:
     builder = _YamlBuilder(file)
     parser = None
     try:
-        parser = _Parser(text)
+        parser = (_PurePythonParser if _flow_nesting_beyond_limit_on_one_line(text) else _Parser)(text)
         while parser.check_event():
             builder.feed(parser.get_event())
     except _FatalError as stop:

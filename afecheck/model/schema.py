@@ -153,9 +153,27 @@ class Capacitor(_Component):
         return v
 
 
+StageRole = Literal["amplifier", "comparator", "schmitt", "integrator"]
+
+
 class OpAmp(_Component):
+    """An op-amp section; ``role`` and ``intended_gain`` state what the stage is meant to do, so rules judge it
+    against that intent (a declared comparator has no feedback on purpose; an intended gain may count a fixed
+    source resistance)."""
+
     kind: Literal["opamp"]
     part: str = Field(min_length=1)
+    role: StageRole | None = None
+    intended_gain: Ratio | None = Field(
+        default=None, description="DC gain (V/V, signed) from the stage's signal input to its output, counting "
+                                  "any fixed source resistance")
+
+    @field_validator("intended_gain")
+    @classmethod
+    def _nonzero_gain(cls, v: float | None) -> float | None:
+        if v is not None and v == 0:
+            raise ValueError("intended_gain must not be 0")
+        return v
 
 
 class Ntc(_Component):

@@ -57,6 +57,39 @@ ASSUMED_DEFAULTS: dict[str, float] = {
 }
 
 
+# Plausible ends of each parameter over op-amps in general, for the sensitivity test that decides whether an
+# assumption matters to a finding (docs/CONFIDENCE.md). Orders of magnitude from memory across the archetypes in
+# textbooks (Horowitz & Hill, The Art of Electronics, 3rd ed., tables 4.1, 5.4, 8.3): common practice.
+PLAUSIBLE_RANGES: dict[str, tuple[float, float]] = {
+    "open_loop_gain": (1e4, 1e7),
+    "input_resistance_diff": (1e5, 1e13),
+    "input_resistance_cm": (1e6, 1e14),
+    "input_capacitance_diff": (0.5e-12, 20e-12),
+    "input_capacitance_cm": (0.5e-12, 20e-12),
+    "output_resistance": (10.0, 1e3),
+    "bias_current": (1e-13, 1e-6),
+    "offset_voltage": (1e-5, 1e-2),
+    "offset_drift": (1e-7, 2e-5),
+    "voltage_noise": (3e-9, 1e-7),
+    "voltage_noise_corner": (1.0, 1e4),
+    "current_noise": (1e-15, 1e-11),
+    "current_noise_corner": (1.0, 1e4),
+    "cmrr": (10 ** (60 / 20), 10 ** (130 / 20)),
+    "input_cm_low": (-0.3, 3.0),
+    "input_cm_high": (-0.3, 3.0),
+    "output_drop_low": (0.005, 1.5),
+    "output_drop_high": (0.005, 1.5),
+    "output_sat_resistance": (5.0, 300.0),
+    "output_current_limit": (5e-3, 0.1),
+    "transition_below_vplus": (0.8, 2.0),
+    "transition_width": (0.1, 0.8),
+    "transition_offset_step": (0.05e-3, 2e-3),
+    "min_stable_gain": (1.0, 10.0),
+}
+SECOND_POLE_SPREAD = (0.5, 3.0)
+"""An unknown second pole lies between these multiples of its estimate from the minimum stable gain."""
+
+
 class OpAmpModel(BaseModel):
     """Macromodel of one op-amp section (all quantities SI; headrooms are volts inside each rail)."""
 
@@ -106,7 +139,19 @@ class OpAmpModel(BaseModel):
             return float(value), False
         if name == "second_pole":
             return self.estimated_second_pole(), True
+        if name == "offset_current" and self.bias_current is not None:
+            # consistent with what was declared: an offset current never exceeds the bias current
+            return min(ASSUMED_DEFAULTS[name], abs(float(self.bias_current))), True
         return ASSUMED_DEFAULTS[name], True
+
+    def plausible_range(self, name: str) -> tuple[float, float]:
+        """Ends of the plausible range of an undeclared parameter, consistent with what the part declares."""
+        if name == "second_pole":
+            f2 = self.estimated_second_pole()
+            return f2 * SECOND_POLE_SPREAD[0], f2 * SECOND_POLE_SPREAD[1]
+        if name == "offset_current":
+            return 0.0, abs(self.value("bias_current"))
+        return PLAUSIBLE_RANGES[name]
 
     def value(self, name: str) -> float:
         """The declared or assumed value of ``name`` (use :meth:`get` where the assumption must be reported)."""

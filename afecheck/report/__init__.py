@@ -6,7 +6,7 @@ from collections.abc import Callable
 
 from afecheck.report.data import Report
 
-FORMATS: tuple[str, ...] = ("text", "json", "sarif", "junit", "markdown")
+FORMATS: tuple[str, ...] = ("text", "json", "sarif", "junit", "markdown", "html")
 
 
 def render(report: Report, fmt: str, color: bool = False) -> str:
@@ -25,6 +25,10 @@ def render(report: Report, fmt: str, color: bool = False) -> str:
     }
     if fmt == "text":
         return render_text(report, color=color)
+    if fmt == "html":
+        from afecheck.report.html import render_html
+
+        return render_html(report)
     if fmt not in table:
         raise ValueError(f"unknown report format {fmt!r}; expected one of {', '.join(FORMATS)}")
     return table[fmt](report)

@@ -29,15 +29,36 @@ def rule_label(entry: Entry) -> str:
     return entry.finding.rule
 
 
+def root_label(root: Entry) -> str:
+    """How a downstream finding names the root it rests on: rule, stage and where it is reported."""
+    f = root.finding
+    stage = f" on stage {root.stage}" if root.stage else ""
+    return f"{f.rule}/{f.slug}{stage} ({where(root)})"
+
+
 def by_stage(design: DesignResult) -> Iterator[tuple[str, tuple[Entry, ...]]]:
-    """The design's entries grouped by stage: op-amp stages in design order, design-wide ones last."""
+    """The design's entries grouped by stage: op-amp stages in design order, design-wide ones last; inside a stage
+    each finding is followed by the findings that rest on it (``caused_by``)."""
     order = list(design.stages) + sorted({e.stage for e in design.entries} - set(design.stages) - {""}) + [""]
     for stage in order:
         group = tuple(e for e in design.entries if e.stage == stage)
         if group:
-            yield stage, group
+            yield stage, _roots_first(group)
 
 
+def _roots_first(group: tuple[Entry, ...]) -> tuple[Entry, ...]:
+    prints = {e.finding.fingerprint for e in group}
+    out: list[Entry] = []
+    placed: set[int] = set()
+    for e in group:
+        if id(e) in placed or (e.finding.caused_by and e.finding.caused_by in prints):
+            continue
+        for item in (e, *(d for d in group if d.finding.caused_by == e.finding.fingerprint)):
+            if id(item) not in placed:
+                placed.add(id(item))
+                out.append(item)
+    out.extend(e for e in group if id(e) not in placed)
+    return tuple(out)
 def waiver_text(w: WaiverNote) -> str:
     until = f", until {w.expires}" if w.expires else ""
     return f"{w.justification} (accepted by {w.accepted_by}{until}; {w.file}:{w.line or 0})"

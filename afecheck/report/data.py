@@ -87,6 +87,92 @@ class RuleInfo:
 
 
 @dataclass(frozen=True)
+class Trace:
+    """A frequency response as the analysis swept it: |H| in dB and phase in degrees on a log grid (Hz)."""
+
+    label: str
+    freqs_hz: tuple[float, ...]
+    magnitude_db: tuple[float, ...]
+    phase_deg: tuple[float, ...]
+
+
+@dataclass(frozen=True)
+class Headroom:
+    """Where a signal sits between an op-amp's rails: the worst-case rails, the part's limits (common-mode range
+    or output swing at the load) and the signal's extremes, all in volts; margins are inside-the-limit distances
+    (negative: beyond the limit). A limit the part does not give is None."""
+
+    label: str
+    rail_low: float
+    rail_high: float
+    limit_low: float | None
+    limit_high: float | None
+    signal_low: float
+    signal_high: float
+    margin_low: float | None
+    margin_high: float | None
+
+
+@dataclass(frozen=True)
+class InputGain:
+    """One signal input of a stage: its net and pin, the parts between, DC and in-band gain, loading."""
+
+    net: str
+    pin: str
+    kind: str
+    via: tuple[str, ...]
+    gain: float
+    ideal_gain: float
+    band_gain: float | None
+    input_resistance: float
+    loading_error: float
+
+
+@dataclass(frozen=True)
+class StageView:
+    """The numbers the rules stand on for one op-amp stage, the limits they were judged against, and (when the
+    report draws plots) the frequency responses. Filled from the analysis; reporters only format it."""
+
+    opamp: str
+    part: str
+    topology: str
+    refs: tuple[str, ...]
+    in_plus: str
+    in_minus: str
+    out: str
+    group: tuple[str, ...]
+    feedback: str
+    inputs: tuple[InputGain, ...] = ()
+    noise_gain_dc: float | None = None
+    noise_gain_at_crossover: float | None = None
+    loop_gain_dc: float | None = None
+    crossover_hz: float | None = None
+    phase_margin_deg: float | None = None
+    gain_margin_db: float | None = None
+    loop_gain_at_fmax: float | None = None
+    f_max: float = 0.0
+    vout_ac_peak: float = 0.0
+    required_slew_rate: float = 0.0
+    output_resistance: float | None = None
+    load_resistance: float | None = None
+    load_capacitance: float = 0.0
+    iout_peak: float | None = None
+    rail_minus: float = 0.0
+    rail_plus: float = 0.0
+    phase_margin_limits_deg: tuple[float, float] | None = None
+    gain_margin_limits_db: tuple[float, float] | None = None
+    headroom: tuple[Headroom, ...] = ()
+    loop_gain: Trace | None = None
+    noise_gain: Trace | None = None
+    open_loop: Trace | None = None
+    closed_loop: tuple[Trace, ...] = ()
+    band_hz: tuple[float, float] | None = None
+    estimated: bool = False
+    assumed: tuple[str, ...] = ()
+    not_evaluated: tuple[str, ...] = ()
+
+
+@dataclass(frozen=True)
 class DesignResult:
     """The reviewed findings of one design file, with the hazards it declares and the policy applied."""
 
@@ -98,6 +184,7 @@ class DesignResult:
     ruleset: str = "default"
     config: str | None = None
     rules_run: tuple[str, ...] = ()
+    stage_views: tuple[StageView, ...] = ()
 
 
 @dataclass(frozen=True)
@@ -164,5 +251,26 @@ def summary_line(report: Report) -> str:
     extra = [f"{c[k]} {k}" for k in ("waived", "unchanged", "fixed") if c[k]]
     if extra:
         head += " (" + ", ".join(extra) + ")"
+    incomplete = not_evaluated_stages(report)
+    if incomplete:
+        why = "; ".join(f"{stage}: {reason}" for stage, reason in incomplete)
+        head += f"; {plural(len(incomplete), 'stage')} not fully evaluated ({why})"
+    if report.fail_on is None:
+        return f"{head}; fail level never: gate not applied"
     verdict = "FAIL" if report.failed() else "PASS"
     return f"{head}; fail level {fail_level_label(report.fail_on)}: {verdict}"
+
+
+INCOMPLETE_RULE = "coverage.not-evaluated"
+
+
+def not_evaluated_stages(report: Report) -> tuple[tuple[str, str], ...]:
+    """(stage, first reason) of every active analysis-incomplete finding, in report order, one per stage."""
+    seen: dict[str, str] = {}
+    for e in report.entries():
+        f = e.finding
+        if f.rule == INCOMPLETE_RULE and e.active:
+            stage = e.stage or ", ".join(f.location.refs) or "design"
+            reason = str(f.ctx.get("reason", f.message)).split("; ")[0]
+            seen.setdefault(stage, reason)
+    return tuple(seen.items())

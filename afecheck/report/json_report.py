@@ -63,6 +63,7 @@ def finding_dict(entry: Entry, report: Report) -> dict[str, Any]:
         "design": f.design,
         "stage": entry.stage or None,
         "fingerprint": f.fingerprint,
+        "caused_by": f.caused_by or None,
         "status": entry.status,
         "gating": report.gating(entry),
         "waiver": waiver_dict(entry.waiver) if entry.waiver else None,

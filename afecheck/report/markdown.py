@@ -4,7 +4,8 @@ from __future__ import annotations
 
 from afecheck.report._common import message, rule_label, unused_text, where
 from afecheck.report.cautions import cautions
-from afecheck.report.data import Entry, Report, summary_line
+from afecheck.report.data import Entry, Report, plural, summary_line
+from afecheck.report.stage_lines import stage_line
 
 MAX_ROWS = 50
 _ICON = {"error": "🛑 error", "warning": "⚠️ warning", "info": "ℹ️ info"}
@@ -34,8 +35,12 @@ def _table(entries: list[Entry], with_note: bool = False) -> list[str]:
 def render_markdown(report: Report) -> str:
     """A short pull-request comment: verdict, counts by severity, open findings, and folded waived/baselined ones."""
     c = report.counts()
-    verdict = "❌ fails" if report.failed() else "✅ passes"
-    out = [f"### afecheck {verdict} the gate", "", summary_line(report), ""]
+    if report.fail_on is None:
+        head = (f"### afecheck: gate not applied (fail level never): {plural(c['error'], 'error')}, "
+                f"{plural(c['warning'], 'warning')} open")
+    else:
+        head = f"### afecheck {'❌ fails' if report.failed() else '✅ passes'} the gate"
+    out = [head, "", summary_line(report), ""]
     hazards = report.hazards()
     if hazards:
         out.append(f"> **Caution (declared hazards: {', '.join(hazards)})**")
@@ -51,6 +56,14 @@ def render_markdown(report: Report) -> str:
             out += [f"…and {len(active) - MAX_ROWS} more active findings: see the full text, JSON or SARIF report.", ""]
     else:
         out += ["No open findings.", ""]
+    stages = [(d, v) for d in report.designs for v in d.stage_views]
+    if stages:
+        several = len(report.designs) > 1
+        out += ["**Stages**", ""]
+        out += [f"- {_cell(d.name) + ': ' if several else ''}{_cell(stage_line(v))}" for d, v in stages[:MAX_ROWS]]
+        if len(stages) > MAX_ROWS:
+            out.append(f"- …and {len(stages) - MAX_ROWS} more stages: see `afecheck stages` or the HTML report.")
+        out.append("")
     for status, title in (("waived", "waived"), ("unchanged", "already in the baseline"), ("fixed", "fixed")):
         group = [e for e in entries if e.status == status]
         if group:

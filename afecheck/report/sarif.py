@@ -75,11 +75,9 @@ def _location(entry: Entry, artifact_index: dict[str, int]) -> dict[str, Any]:
         if loc.line:
             physical["region"] = {"startLine": int(loc.line)}
         out["physicalLocation"] = physical
-    logical = [{"name": r, "kind": "component"} for r in loc.refs]
-    logical += [{"name": n, "kind": "net"} for n in loc.nets]
-    logical += [{"name": p, "kind": "pin"} for p in loc.pins]
-    if logical:
-        out["logicalLocations"] = logical
+    named = [(r, "component") for r in loc.refs] + [(n, "net") for n in loc.nets] + [(p, "pin") for p in loc.pins]
+    if named:  # SARIF wants unique items; a finding may name one net twice (a follower's output and input)
+        out["logicalLocations"] = [{"name": name, "kind": kind} for name, kind in dict.fromkeys(named)]
     return out
 
 
@@ -139,7 +137,8 @@ def sarif_dict(report: Report) -> dict[str, Any]:
     rule_index = {r.id: i for i, r in enumerate(rules)}
     files = sorted({d.file for d in report.designs} | {e.finding.location.file for e in report.entries()
                                                         if e.finding.location.file})
-    artifact_index = {f: i for i, f in enumerate(files)}
+    uris = list(dict.fromkeys(file_uri(f) for f in files))  # "./a.yaml" and "a.yaml" are one artifact
+    artifact_index = {f: uris.index(file_uri(f)) for f in files}
     results = [_result(e, rule_index, artifact_index, report) for e in report.entries() if e.status != "fixed"]
     execution = [_notification(c, "warning", "hazard-caution") for c in cautions(report.hazards())]
     configuration = [
@@ -168,7 +167,7 @@ def sarif_dict(report: Report) -> dict[str, Any]:
                 "rules": [_descriptor(r) for r in rules],
             }
         },
-        "artifacts": [{"location": {"uri": file_uri(f)}, "roles": ["analysisTarget"]} for f in files],
+        "artifacts": [{"location": {"uri": uri}, "roles": ["analysisTarget"]} for uri in uris],
         "invocations": [invocation],
         "results": results,
         "columnKind": "unicodeCodePoints",
@@ -178,6 +177,7 @@ def sarif_dict(report: Report) -> dict[str, Any]:
             "hazards": list(report.hazards()),
             "cautions": list(cautions(report.hazards())),
             "fixed": fixed,
+            "policies": [{"design": d.file, "ruleset": d.ruleset, "config": d.config} for d in report.designs],
         },
     }
     return {"$schema": SARIF_SCHEMA_URI, "version": SARIF_VERSION, "runs": [run]}

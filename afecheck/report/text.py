@@ -2,7 +2,16 @@
 
 from __future__ import annotations
 
-from afecheck.report._common import by_stage, expired_text, message, rule_label, unused_text, waiver_text, where
+from afecheck.report._common import (
+    by_stage,
+    expired_text,
+    message,
+    root_label,
+    rule_label,
+    unused_text,
+    waiver_text,
+    where,
+)
 from afecheck.report.cautions import cautions
 from afecheck.report.data import Entry, Report, summary_line
 
@@ -14,13 +23,16 @@ def _paint(text: str, style: str, color: bool) -> str:
     return f"{_COLOURS[style]}{text}{_RESET}" if color else text
 
 
-def _entry_lines(entry: Entry, color: bool) -> list[str]:
+def _entry_lines(entry: Entry, color: bool, roots: dict[str, Entry] | None = None) -> list[str]:
     f = entry.finding
     sev = _paint(f"{f.severity.label.upper():<7}", f.severity.label, color)
     tag = "" if entry.status == "open" else " " + _paint(f"({entry.status})", "dim", color)
     lines = [f"{sev} {message(f)}{tag}", _paint(f"        at {where(entry)} · rule {rule_label(entry)}", "dim", color)]
     if entry.status == "fixed":
         return lines
+    root = (roots or {}).get(f.caused_by) if f.caused_by else None
+    if root is not None:
+        lines.append(f"        follows from: {root_label(root)}")
     lines.append(f"        fix: {f.fix or 'see the rule page (afecheck rules ' + f.rule + ')'}")
     if f.assumed:
         lines.append(f"        assumed: {', '.join(f.assumed)}")
@@ -41,14 +53,16 @@ def render_text(report: Report, color: bool = False) -> str:
         out.append("")
     for design in report.designs:
         out.append(_paint(f"== {design.file} ({design.name}) ==", "head", color))
+        out.append(f"rule set {design.ruleset}, " + (f"config {design.config}" if design.config else "no config file"))
         if design.hazards:
             out.append(f"hazards: {', '.join(design.hazards)}: see the cautions above")
         if not design.entries:
             out.append("no findings")
+        roots = {e.finding.fingerprint: e for e in design.entries}
         for stage, group in by_stage(design):
             out.append(_paint(f"-- stage {stage} --" if stage else "-- design-wide --", "head", color))
             for entry in group:
-                out.extend(_entry_lines(entry, color))
+                out.extend(_entry_lines(entry, color, roots))
         out.append("")
     for w in report.expired_waivers:
         out.append(f"{w.file}:{w.line or 0}: note: waiver {w.label} expired on {w.expires}")

@@ -4,7 +4,7 @@ from __future__ import annotations
 
 from collections.abc import Iterator
 
-from afecheck.checks.common import db, fmt, part_value, pct
+from afecheck.checks.common import db, fmt, part_value, pct, switching
 from afecheck.checks.common import finding as make_finding
 from afecheck.checks.headroom.limits import cm_extremes
 from afecheck.engine.context import Context
@@ -25,6 +25,8 @@ META = RuleMeta(
 def check(ctx: Context) -> Iterator[Finding]:
     """Output error NG·ΔVcm_pp/CMRR against the declared offset budget or the ADC LSB on the stage output."""
     for stage in ctx.stages:
+        if switching(ctx.loaded, stage.opamp):
+            continue  # a declared comparator or Schmitt trigger is not a linear stage
         if stage.topology not in ("follower", "non-inverting") or stage.noise_gain_dc is None:
             continue
         ext = cm_extremes(ctx, stage)

@@ -5,7 +5,7 @@ from __future__ import annotations
 import math
 from collections.abc import Iterator
 
-from afecheck.checks.common import attached, db, fmt, part_value, resistance_at
+from afecheck.checks.common import attached, db, fmt, part_value, resistance_at, switching
 from afecheck.checks.common import finding as make_finding
 from afecheck.checks.headroom.limits import in_plus_ac
 from afecheck.checks.loading.sources import plus_source_resistance
@@ -40,6 +40,8 @@ def is_high_z_input(ctx: Context, opamp: str, low_ib: float) -> bool:
 def check(ctx: Context) -> Iterator[Finding]:
     """Estimate 2πf·|Z+ − Z−|·Ccm·Vcm_pk (RULES-REFERENCE R4g) and warn past the thresholds."""
     for stage in ctx.stages:
+        if switching(ctx.loaded, stage.opamp):
+            continue  # a declared comparator or Schmitt trigger is not a linear stage
         if stage.topology not in ("follower", "non-inverting") or stage.opamp not in ctx.loaded.design.components:
             continue
         if not is_high_z_input(ctx, stage.opamp, ctx.param("low_bias_current")):

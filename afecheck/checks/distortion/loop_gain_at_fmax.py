@@ -5,7 +5,7 @@ from __future__ import annotations
 import math
 from collections.abc import Iterator
 
-from afecheck.checks.common import db, fmt, grade_below, not_evaluated, pct, stage_assumed, stage_reason
+from afecheck.checks.common import db, fmt, grade_below, not_evaluated, pct, stage_assumed, stage_reason, switching
 from afecheck.checks.common import finding as make_finding
 from afecheck.engine.context import Context
 from afecheck.engine.finding import Finding, Severity
@@ -32,6 +32,8 @@ def check(ctx: Context) -> Iterator[Finding]:
     """Grade |T(f_max)| in dB for every stage that carries an AC signal."""
     warn, err = ctx.param("warn_db"), ctx.param("error_db")
     for stage in ctx.stages:
+        if switching(ctx.loaded, stage.opamp):
+            continue  # a declared comparator or Schmitt trigger is not a linear stage
         if stage.feedback != "negative" or stage.f_max <= 0:
             continue
         t = stage.loop_gain_at_fmax

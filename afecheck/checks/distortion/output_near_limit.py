@@ -5,7 +5,7 @@ from __future__ import annotations
 from collections.abc import Iterator
 
 from afecheck.checks.common import finding as make_finding
-from afecheck.checks.common import fmt, rails_known
+from afecheck.checks.common import fmt, grade_headroom, rails_known, snap, switching
 from afecheck.checks.headroom.limits import swing
 from afecheck.engine.context import Context
 from afecheck.engine.finding import Finding, Severity
@@ -23,6 +23,8 @@ def check(ctx: Context) -> Iterator[Finding]:
     """Warn when the full-signal output extreme is inside the swing limit by less than the band."""
     band = ctx.param("band")
     for stage in ctx.stages:
+        if switching(ctx.loaded, stage.opamp):
+            continue  # a declared comparator or Schmitt trigger is not a linear stage
         if not rails_known(ctx, stage.opamp):
             continue  # supply voltage unknown: coverage.not-evaluated reports it
         s = swing(ctx, stage)
@@ -32,8 +34,9 @@ def check(ctx: Context) -> Iterator[Finding]:
             ("highest", s.high_required, s.high_limit, s.high_limit - s.high_required),
             ("lowest", s.low_required, s.low_limit, s.low_required - s.low_limit),
         ):
-            if not 0 <= margin < band:
-                continue
+            if grade_headroom(margin, band, value, limit, stage.rail_plus, stage.rail_minus) != Severity.WARNING:
+                continue  # beyond the limit is headroom.output-swing's; inside by print precision is no warning
+            margin = snap(margin, value, limit, stage.rail_plus, stage.rail_minus)
             text = (f"{stage.opamp} output reaches {fmt(value, 'V')} on {stage.out}, only {fmt(margin, 'V')} inside "
                     f"its {name} swing limit {fmt(limit, 'V')} at this load (band {fmt(band, 'V')})")
             yield make_finding(

@@ -6,7 +6,7 @@ import math
 from collections.abc import Iterator
 
 from afecheck.checks.common import finding as make_finding
-from afecheck.checks.common import fmt, not_evaluated
+from afecheck.checks.common import fmt, not_evaluated, switching
 from afecheck.engine.context import Context
 from afecheck.engine.finding import Finding, Severity
 from afecheck.engine.rule import Param, RuleMeta
@@ -31,6 +31,8 @@ def check(ctx: Context) -> Iterator[Finding]:
     """Compare the part's slew rate with 2π·f_max·Vpk at the stage output; full-power bandwidth in the message."""
     warn, err = ctx.param("warn_factor"), ctx.param("error_factor")
     for stage in ctx.stages:
+        if switching(ctx.loaded, stage.opamp):
+            continue  # a declared comparator or Schmitt trigger is not a linear stage
         required = max(stage.required_slew_rate, 2.0 * math.pi * stage.f_max * stage.vout_ac_peak)
         if required <= 0 or stage.opamp not in ctx.loaded.design.components:
             continue

@@ -4,7 +4,7 @@ from __future__ import annotations
 
 from collections.abc import Iterator
 
-from afecheck.checks.common import db, fmt, part_value, rails_known
+from afecheck.checks.common import db, fmt, part_value, rails_known, switching
 from afecheck.checks.common import finding as make_finding
 from afecheck.checks.headroom.limits import cm_extremes
 from afecheck.engine.context import Context
@@ -28,6 +28,8 @@ def transition_window(v_plus: float, below: float, width: float) -> tuple[float,
 def check(ctx: Context) -> Iterator[Finding]:
     """Warn when a moving common mode overlaps the transition window; estimate the output step and distortion."""
     for stage in ctx.stages:
+        if switching(ctx.loaded, stage.opamp):
+            continue  # a declared comparator or Schmitt trigger is not a linear stage
         if not rails_known(ctx, stage.opamp):
             continue  # supply voltage unknown: coverage.not-evaluated reports it
         if stage.opamp not in ctx.loaded.design.components:

@@ -5,7 +5,7 @@ from __future__ import annotations
 from collections.abc import Iterator
 
 from afecheck.checks.common import finding as make_finding
-from afecheck.checks.common import fmt, not_evaluated, part_value, rails_known, stage_reason
+from afecheck.checks.common import fmt, grade_headroom, not_evaluated, part_value, rails_known, snap, stage_reason
 from afecheck.checks.headroom.limits import cm_extremes, worst_rails
 from afecheck.engine.context import Context
 from afecheck.engine.finding import Finding, Severity
@@ -44,10 +44,12 @@ def check(ctx: Context) -> Iterator[Finding]:
             ("lowest", lo, v_minus + d_lo, lo - (v_minus + d_lo), a_lo, "below"),
         )
         for name, value, limit, margin, assumed, beyond in sides:
-            if margin >= band:
+            severity = grade_headroom(margin, band, v_plus, v_minus, value, limit)
+            if severity is None:
                 continue
-            severity = Severity.ERROR if margin < 0 else Severity.WARNING
-            state = f"{fmt(-margin, 'V')} {beyond}" if margin < 0 else f"only {fmt(margin, 'V')} inside"
+            value, margin = snap(value, v_plus, v_minus), snap(margin, v_plus, v_minus)
+            state = (f"{fmt(-margin, 'V')} {beyond}" if severity == Severity.ERROR
+                     else f"only {fmt(margin, 'V')} inside (band {fmt(band, 'V')})")
             rails = f"{fmt(v_minus, 'V')}..{fmt(v_plus, 'V')} at their tolerance"
             text = (f"{stage.opamp} {name} input common mode {fmt(value, 'V')} is {state} its limit "
                     f"{fmt(limit, 'V')} (part {stage.part}, rails {rails})")

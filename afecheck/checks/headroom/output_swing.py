@@ -5,7 +5,7 @@ from __future__ import annotations
 from collections.abc import Iterator
 
 from afecheck.checks.common import finding as make_finding
-from afecheck.checks.common import fmt, not_evaluated, rails_known, stage_reason
+from afecheck.checks.common import fmt, grade_headroom, not_evaluated, rails_known, stage_reason
 from afecheck.checks.headroom.limits import swing
 from afecheck.engine.context import Context
 from afecheck.engine.finding import Finding, Severity
@@ -36,7 +36,7 @@ def check(ctx: Context) -> Iterator[Finding]:
             ("highest", s.high_required, s.high_limit, s.high_limit - s.high_required),
             ("lowest", s.low_required, s.low_limit, s.low_required - s.low_limit),
         ):
-            if margin >= 0:
+            if grade_headroom(margin, 0.0, value, limit, stage.rail_plus, stage.rail_minus) is None:
                 continue
             text = (f"{stage.opamp} must reach {fmt(value, 'V')} on {stage.out} but its {name} output at this load "
                     f"is {fmt(limit, 'V')} ({fmt(-margin, 'V')} short): the signal clips")

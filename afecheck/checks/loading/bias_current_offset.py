@@ -1,4 +1,9 @@
-"""loading.bias-offset: input bias current through the source resistance of a non-inverting input offsets the output."""
+"""Input bias current through the source resistance of a non-inverting input offsets the output.
+
+A DC-accuracy rule (family ``dc-accuracy``): with an offset budget declared on the output it is judged against the
+budget; without one, against the part's own offset error at the output, NG·Vos, because a bias term smaller than
+the offset the part brings anyway is no design mistake.
+"""
 
 from __future__ import annotations
 
@@ -12,13 +17,15 @@ from afecheck.engine.finding import Finding, Severity
 from afecheck.engine.rule import Param, RuleMeta
 
 META = RuleMeta(
-    id="loading.bias-offset", slug="bias-current-offsets-output", severity=Severity.ERROR, family="loading",
+    id="dc-accuracy.bias-offset", slug="bias-current-offsets-output", severity=Severity.ERROR, family="dc-accuracy",
     summary="input bias current through the source resistance offsets a non-inverting stage's output",
     params=(
         Param("budget_warn", 0.25, "1", "share of the declared offset budget above which a warning is raised"),
         Param("budget_error", 1.0, "1", "share of the declared offset budget above which an error is raised"),
-        Param("warn_fraction", 1e-3, "1", "offset / output span above which a warning is raised (no budget)"),
-        Param("error_fraction", 1e-2, "1", "offset / output span above which an error is raised (no budget)"),
+        Param("own_offset_warn", 1.0, "1",
+              "bias offset / the part's own offset error NG·Vos above which a warning is raised (no budget)"),
+        Param("own_offset_error", 10.0, "1",
+              "bias offset / the part's own offset error NG·Vos above which an error is raised (no budget)"),
     ),
     fix="choose a low-bias-current (CMOS or JFET input) part, lower the source resistance, or (plain bipolar inputs "
         "only) match the in- resistance Rf||Rg to the source resistance",
@@ -26,12 +33,15 @@ META = RuleMeta(
 
 
 def bias_offset(ng: float, ib: float, ios: float, r_plus: float, r_minus: float) -> float:
-    """Worst-case output offset from bias currents: NG·(|Ib|·|R− − R+| + |Ios|/2·(R− + R+)) (RULES-REFERENCE R5b)."""
+    """Worst-case output offset from bias currents: NG·(|Ib|·|R− − R+| + |Ios|/2·(R− + R+)).
+
+    Jung, Op Amp Applications Handbook, Newnes, 2005, ch. 1."""
     return ng * (abs(ib) * abs(r_minus - r_plus) + abs(ios) / 2.0 * (r_minus + r_plus))
 
 
 def check(ctx: Context) -> Iterator[Finding]:
-    """Output offset NG·Ib·Rs (with the in- side's cancelling term) against the offset budget or output span."""
+    """Output offset NG·Ib·Rs (with the in- side's cancelling term) against the offset budget, else the part's own
+    offset error."""
     for stage in ctx.stages:
         if stage.topology not in ("follower", "non-inverting") or stage.noise_gain_dc is None:
             continue
@@ -57,14 +67,18 @@ def check(ctx: Context) -> Iterator[Finding]:
                 against = f"{pct(limit_share)} of the {fmt(budget.offset, 'V')} offset budget"
                 source = f"budgets.{stage.out}.offset × rule parameter"
             else:
-                span = (stage.vout_max or 0.0) - (stage.vout_min or 0.0) + 2.0 * stage.vout_ac_peak
-                if span <= 0:
+                vos, a3 = part_value(ctx, stage.opamp, "offset_voltage")
+                if not vos:
                     continue
-                share = offset / span
-                severity = grade_above(share, ctx.param("warn_fraction"), ctx.param("error_fraction"))
-                limit_share = ctx.param("error_fraction" if severity == Severity.ERROR else "warn_fraction")
-                limit, against = limit_share * span, f"{pct(limit_share)} of the {fmt(span, 'V')} output span"
-                source = "rule parameter (RULES-REFERENCE R1/R5b, common practice)"
+                own = stage.noise_gain_dc * abs(vos)
+                a1 = a1 + a3
+                share = offset / own
+                severity = grade_above(share, ctx.param("own_offset_warn"), ctx.param("own_offset_error"))
+                limit_share = ctx.param("own_offset_error" if severity == Severity.ERROR else "own_offset_warn")
+                limit = limit_share * own
+                against = (f"{limit_share:g} × the part's own offset error {fmt(own, 'V')} = NG × "
+                           f"{fmt(abs(vos), 'V')}; no offset budget declared on {stage.out}")
+                source = f"part {stage.part} offset_voltage × noise gain × rule parameter (common practice)"
             if severity is None:
                 continue
             text = (f"{stage.opamp}: bias current {fmt(ib, 'A')} through {fmt(r_plus, 'Ω')} at in+ "

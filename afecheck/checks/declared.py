@@ -1,0 +1,54 @@
+"""Fields a design declares that no analysis or rule checks yet (see afecheck/engine/consumers.py)."""
+
+from __future__ import annotations
+
+from collections.abc import Iterator
+
+from afecheck.engine.consumers import UNCHECKED, consumer, declared_fields, pattern_of
+from afecheck.engine.context import Context
+from afecheck.engine.finding import Finding, Severity
+from afecheck.engine.rule import RuleMeta
+from afecheck.model.loaded import path_text
+
+META = RuleMeta(
+    id="coverage.declared-not-checked", slug="declared-not-checked", severity=Severity.INFO, family="coverage",
+    needs=(),
+    summary="the design declares a value (a budget, a part limit, an ADC setting) that no rule checks yet",
+    fix="review that value by hand; it is listed so that a declared limit is never taken as verified",
+)
+
+
+def unchecked_paths(ctx: Context) -> list[tuple[str | int, ...]]:
+    """Key paths the user declared (design, intent, own part models) whose registered consumer is UNCHECKED."""
+    loaded = ctx.loaded
+    d = loaded.design
+    found: list[tuple[str | int, ...]] = []
+    for path in declared_fields(d):
+        if path[0] == "parts":
+            continue  # walked below, once per part the design uses
+        kind = d.components[path[1]].kind if path[0] == "components" and len(path) > 2 else None
+        if consumer(pattern_of(path, kind)) is UNCHECKED:
+            found.append(path)
+    used = sorted({c.part for c in d.components.values() if c.kind == "opamp"})  # type: ignore[union-attr]
+    for name in used:
+        if name not in loaded.parts or loaded.part_origins.get(name, "").startswith("built-in"):
+            continue  # the shipped archetypes are not the designer's declarations
+        for path in declared_fields(loaded.parts[name], ("parts", name)):
+            if consumer(pattern_of(path)) is UNCHECKED:
+                found.append(path)
+    return found
+
+
+def check(ctx: Context) -> Iterator[Finding]:
+    """One info finding listing every declared but unchecked field, pointing at the first of them."""
+    paths = unchecked_paths(ctx)
+    if not paths:
+        return
+    names = [path_text(p) for p in paths]
+    shown = ", ".join(names[:12]) + (f" and {len(names) - 12} more" if len(names) > 12 else "")
+    loc = ctx.loaded.locate(path=paths[0])
+    yield Finding(
+        rule=META.id, slug=META.slug, severity=META.severity,
+        message=f"declared, not checked: {shown}: no analysis or rule reads these values yet. Fix: {META.fix}",
+        location=loc, ctx={"fields": names, "count": len(names)}, fix=META.fix, design=ctx.loaded.design.name,
+    )

@@ -1,0 +1,124 @@
+"""Stage views for the reports: each stage's analysis numbers, the headroom limits the rules judge them against and,
+when plots are asked for, its frequency responses, gathered into plain report data (report/data.py).
+
+The headroom numbers come from the same functions the headroom rules use (checks/headroom/limits.py), so the bar a
+reviewer sees is the comparison the rule made. Nothing here formats; the reporters only format.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Collection, Mapping
+from typing import TYPE_CHECKING, Any, Literal
+
+from afecheck.model.loaded import LoadedDesign
+from afecheck.report.data import Headroom, InputGain, StageView, Trace
+
+if TYPE_CHECKING:
+    from afecheck.analysis.curves import Response, StageCurves
+    from afecheck.analysis.results import DesignAnalysis, StageResult
+    from afecheck.engine.context import Context
+
+Detail = Literal["none", "stages", "curves"]
+
+
+def analyse_for_views(loaded: LoadedDesign, detail: Detail) -> tuple[DesignAnalysis | None, dict[str, StageCurves]]:
+    """The design analysis (and with ``detail == "curves"`` every stage's curves); (None, {}) when the analysis
+    fails, so that the rules meet the failure themselves and report it as they always do."""
+    try:
+        if detail == "curves":
+            from afecheck.analysis.curves import design_curves
+
+            return design_curves(loaded)
+        from afecheck.analysis import analyse
+
+        return analyse(loaded), {}
+    except Exception:  # noqa: BLE001 - the rules run the analysis again and report what failed
+        return None, {}
+
+
+def stage_views(loaded: LoadedDesign, analysis: DesignAnalysis, curves: Mapping[str, StageCurves] | None = None,
+                params: Mapping[str, Mapping[str, float]] | None = None,
+                rules_run: Collection[str] = ()) -> tuple[StageView, ...]:
+    """One StageView per analysed stage; margin limit lines only for the stability rules that ran, at the
+    parameters they ran with."""
+    from afecheck.checks.stability import gain_margin, phase_margin
+    from afecheck.engine.context import Context
+
+    ctx = Context(loaded)
+    ctx.memo("analysis", lambda: analysis)
+    pm = _limits(phase_margin.META, params, rules_run, "warn_deg", "error_deg")
+    gm = _limits(gain_margin.META, params, rules_run, "warn_db", "error_db")
+    views = []
+    for s in analysis.stages:
+        c = (curves or {}).get(s.opamp)
+        views.append(StageView(
+            opamp=s.opamp, part=s.part, topology=s.topology, refs=s.refs, in_plus=s.in_plus, in_minus=s.in_minus,
+            out=s.out, group=s.group, feedback=s.feedback, inputs=tuple(_input(i) for i in s.inputs),
+            noise_gain_dc=s.noise_gain_dc, noise_gain_at_crossover=s.noise_gain_at_crossover,
+            loop_gain_dc=s.loop_gain_dc, crossover_hz=s.crossover_hz, phase_margin_deg=s.phase_margin_deg,
+            gain_margin_db=s.gain_margin_db, loop_gain_at_fmax=s.loop_gain_at_fmax, f_max=s.f_max,
+            vout_ac_peak=s.vout_ac_peak, required_slew_rate=s.required_slew_rate,
+            output_resistance=s.output_resistance, load_resistance=s.load_resistance,
+            load_capacitance=s.load_capacitance, iout_peak=s.iout_peak, rail_minus=s.rail_minus,
+            rail_plus=s.rail_plus, phase_margin_limits_deg=pm, gain_margin_limits_db=gm,
+            headroom=_headroom(ctx, s),
+            loop_gain=_trace(c.loop_gain if c else None), noise_gain=_trace(c.noise_gain if c else None),
+            open_loop=_trace(c.open_loop if c else None),
+            closed_loop=tuple(t for t in (_trace(r) for r in (c.closed_loop if c else ())) if t is not None),
+            band_hz=c.band_hz if c else None, estimated=s.estimated, assumed=s.assumed,
+            not_evaluated=s.not_evaluated + (c.not_evaluated if c else ()),
+        ))
+    return tuple(views)
+
+
+def _limits(meta: Any, params: Mapping[str, Mapping[str, float]] | None, rules_run: Collection[str], warn: str,
+            error: str) -> tuple[float, float] | None:
+    """(warning, error) thresholds of a rule as configured, or None when the rule did not run."""
+    if meta.id not in rules_run:
+        return None
+    mine = (params or {}).get(meta.id, {})
+    return (float(mine.get(warn, meta.param(warn).default)), float(mine.get(error, meta.param(error).default)))
+
+
+def _input(i: Any) -> InputGain:
+    return InputGain(net=i.net, pin=i.pin, kind=i.source.kind, via=i.via, gain=i.gain, ideal_gain=i.ideal_gain,
+                     band_gain=i.band_gain, input_resistance=i.input_resistance,
+                     loading_error=max(abs(i.loading_error_min), abs(i.loading_error_max)))
+
+
+def _headroom(ctx: Context, s: StageResult) -> tuple[Headroom, ...]:
+    """Input common mode and output, each against the part's limits at the worst-case rails (as the rules judge)."""
+    from afecheck.checks.common import part_value, rails_known
+    from afecheck.checks.headroom.limits import cm_extremes, output_extremes, swing, worst_rails
+
+    if not rails_known(ctx, s.opamp) or s.feedback != "negative":
+        return ()
+    low_rail, high_rail = worst_rails(ctx, s)
+    out: list[Headroom] = []
+    cm = cm_extremes(ctx, s)
+    if cm is not None:
+        d_lo, _ = part_value(ctx, s.opamp, "input_cm_low")
+        d_hi, _ = part_value(ctx, s.opamp, "input_cm_high")
+        lim_lo = None if d_lo is None else low_rail + d_lo
+        lim_hi = None if d_hi is None else high_rail - d_hi
+        out.append(_bar("input common mode", low_rail, high_rail, lim_lo, lim_hi, *cm))
+    ext = output_extremes(s)
+    if ext is not None:
+        sw = swing(ctx, s)
+        out.append(_bar("output", low_rail, high_rail, sw.low_limit if sw else None, sw.high_limit if sw else None,
+                        *ext))
+    return tuple(out)
+
+
+def _bar(label: str, rail_low: float, rail_high: float, lim_lo: float | None, lim_hi: float | None, lo: float,
+         hi: float) -> Headroom:
+    return Headroom(label=label, rail_low=float(rail_low), rail_high=float(rail_high), limit_low=lim_lo,
+                    limit_high=lim_hi, signal_low=float(lo), signal_high=float(hi),
+                    margin_low=None if lim_lo is None else float(lo - lim_lo),
+                    margin_high=None if lim_hi is None else float(lim_hi - hi))
+
+
+def _trace(r: Response | None) -> Trace | None:
+    if r is None:
+        return None
+    return Trace(label=r.label, freqs_hz=r.freqs_hz, magnitude_db=r.magnitude_db, phase_deg=r.phase_deg)

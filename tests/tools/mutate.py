@@ -1,0 +1,243 @@
+"""A small mutation runner for afecheck/analysis and afecheck/checks: flip one operator or constant, run the tests.
+
+Each mutant changes one AST node (a comparison, an arithmetic or boolean operator, a unary minus, a numeric or
+boolean constant) in a copy of the repository, then runs a targeted fast test subset (``-x``); a mutant that
+survives is run again against the ngspice reference harness (tests/reference), and counts as killed if that
+fails. Usage (from the repository root)::
+
+    nice -n 10 python tests/tools/mutate.py --sample 200 --seed 18 [--floor 0.9] [--json out.json]
+
+``--sample`` draws a fixed-seed subset of every mutant (the whole set takes hours on two shared cores);
+``--floor`` makes the exit status 1 when the kill rate falls below it. Mutant ids are ``file:line:col:change``.
+"""
+
+from __future__ import annotations
+
+import argparse
+import ast
+import json
+import random
+import shutil
+import subprocess
+import sys
+import tempfile
+import time
+from collections.abc import Iterator
+from dataclasses import dataclass
+from pathlib import Path
+
+ROOT = Path(__file__).resolve().parents[2]
+TARGETS = ("afecheck/analysis", "afecheck/checks")
+COPY = ("afecheck", "tests", "rules", "sample_designs", "pyproject.toml")
+FAST = {
+    "afecheck/checks": [
+        "tests/test_rules_loading.py", "tests/test_rules_stability.py", "tests/test_rules_headroom.py",
+        "tests/test_rules_distortion.py", "tests/test_rules_integrator.py", "tests/test_rules_end_to_end.py",
+        "tests/test_rules_agree_with_analysis.py", "tests/test_planted_bugs.py", "tests/test_rule_catalogue.py",
+        "tests/test_rules_boundaries.py",
+    ],
+    "afecheck/analysis": [
+        "tests/test_mna.py", "tests/test_loop.py", "tests/test_stage_quantities.py", "tests/test_stages.py",
+        "tests/test_sources.py", "tests/test_signals.py", "tests/test_planted_bugs.py",
+        "tests/test_rules_agree_with_analysis.py", "tests/test_published_values.py", "tests/test_spice_export.py",
+    ],
+}
+SLOW = ["tests/reference"]
+TIMEOUT_S = 300
+
+_SWAP_CMP = {ast.Lt: ast.LtE, ast.LtE: ast.Lt, ast.Gt: ast.GtE, ast.GtE: ast.Gt, ast.Eq: ast.NotEq,
+             ast.NotEq: ast.Eq, ast.Is: ast.IsNot, ast.IsNot: ast.Is, ast.In: ast.NotIn, ast.NotIn: ast.In}
+_SWAP_BIN = {ast.Add: ast.Sub, ast.Sub: ast.Add, ast.Mult: ast.Div, ast.Div: ast.Mult, ast.Pow: ast.Mult,
+             ast.FloorDiv: ast.Div, ast.Mod: ast.Mult}
+_SWAP_BOOL = {ast.And: ast.Or, ast.Or: ast.And}
+
+
+@dataclass(frozen=True)
+class Mutant:
+    """One change: where it is, what it does, and the mutated module source."""
+
+    id: str
+    file: str
+    source: str
+
+
+def _skip_nodes(tree: ast.AST) -> set[int]:
+    """Nodes never mutated: docstrings, f-string parts, annotations, and anything under them."""
+    skip: set[int] = set()
+
+    def mark(node: ast.AST) -> None:
+        for sub in ast.walk(node):
+            skip.add(id(sub))
+
+    for node in ast.walk(tree):
+        if isinstance(node, ast.JoinedStr):
+            mark(node)
+        elif isinstance(node, (ast.FunctionDef, ast.AsyncFunctionDef)):
+            if node.returns is not None:
+                mark(node.returns)
+            for a in node.args.args + node.args.kwonlyargs + node.args.posonlyargs:
+                if a.annotation is not None:
+                    mark(a.annotation)
+        elif isinstance(node, ast.AnnAssign):
+            mark(node.annotation)
+        body = getattr(node, "body", None)
+        if isinstance(body, list) and body and isinstance(body[0], ast.Expr) \
+                and isinstance(body[0].value, ast.Constant) and isinstance(body[0].value.value, str):
+            mark(body[0])
+    return skip
+
+
+def _changes(node: ast.AST) -> Iterator[tuple[str, callable]]:
+    """(label, apply) for each way this node can be mutated; apply edits the node in place and returns an undo."""
+    if isinstance(node, ast.Compare):
+        for i, op in enumerate(node.ops):
+            if type(op) in _SWAP_CMP:
+                new = _SWAP_CMP[type(op)]
+
+                def apply(node=node, i=i, new=new):
+                    old = node.ops[i]
+                    node.ops[i] = new()
+                    return lambda: node.ops.__setitem__(i, old)
+                yield f"{type(op).__name__}->{new.__name__}", apply
+    elif isinstance(node, (ast.BinOp, ast.AugAssign)) and type(node.op) in _SWAP_BIN:
+        new = _SWAP_BIN[type(node.op)]
+
+        def apply(node=node, new=new):
+            old = node.op
+            node.op = new()
+            return lambda: setattr(node, "op", old)
+        yield f"{type(node.op).__name__}->{new.__name__}", apply
+    elif isinstance(node, ast.BoolOp):
+        new = _SWAP_BOOL[type(node.op)]
+
+        def apply(node=node, new=new):
+            old = node.op
+            node.op = new()
+            return lambda: setattr(node, "op", old)
+        yield f"{type(node.op).__name__}->{new.__name__}", apply
+    elif isinstance(node, ast.UnaryOp) and isinstance(node.op, ast.USub):
+        def apply(node=node):
+            old = node.op
+            node.op = ast.UAdd()
+            return lambda: setattr(node, "op", old)
+        yield "drop-USub", apply
+    elif isinstance(node, ast.UnaryOp) and isinstance(node.op, ast.Not):
+        def apply(node=node):
+            # `not x` becomes `not not x`: the same truth value as x, without needing the parent node
+            old = node.operand
+            node.operand = ast.UnaryOp(op=ast.Not(), operand=old)
+            return lambda: setattr(node, "operand", old)
+        yield "drop-Not", apply
+    elif isinstance(node, ast.Constant) and not isinstance(node.value, str):
+        v = node.value
+        if isinstance(v, bool):
+            new_value = not v
+        elif isinstance(v, int):
+            new_value = v + 1
+        elif isinstance(v, float):
+            new_value = v * 2.0 if v != 0 else 1.0
+        else:
+            return
+
+        def apply(node=node, new_value=new_value):
+            old = node.value
+            node.value = new_value
+            return lambda: setattr(node, "value", old)
+        yield f"const {v!r}->{new_value!r}", apply
+
+
+def mutants(files: list[Path]) -> list[Mutant]:
+    """Every mutant of every file, in a fixed order."""
+    out: list[Mutant] = []
+    for path in files:
+        rel = path.relative_to(ROOT).as_posix()
+        tree = ast.parse(path.read_text(encoding="utf-8"))
+        skip = _skip_nodes(tree)
+        for node in ast.walk(tree):
+            if id(node) in skip:
+                continue
+            for label, apply in _changes(node):
+                undo = apply()
+                try:
+                    src = ast.unparse(tree)
+                finally:
+                    undo()
+                line, col = getattr(node, "lineno", 0), getattr(node, "col_offset", 0)
+                out.append(Mutant(f"{rel}:{line}:{col}:{label}", rel, src))
+    return out
+
+
+def _area(file: str) -> str:
+    return next(t for t in TARGETS if file.startswith(t))
+
+
+def _pytest(work: Path, tests: list[str]) -> bool:
+    """True when the tests pass (the mutant survives)."""
+    tests = [t for t in tests if (work / t).exists()]
+    cmd = [sys.executable, "-m", "pytest", "-x", "-q", "-p", "no:cacheprovider", "-m", "not slow", *tests]
+    try:
+        proc = subprocess.run(cmd, cwd=work, capture_output=True, text=True, timeout=TIMEOUT_S)
+    except subprocess.TimeoutExpired:
+        return False  # a mutant that hangs is caught by any run with a time limit
+    if proc.returncode > 2:  # 3..5: pytest itself failed (usage, no tests): never count that as a kill
+        raise SystemExit(f"pytest could not run {tests}:\n{proc.stdout[-2000:]}{proc.stderr[-2000:]}")
+    return proc.returncode == 0  # 1: a test failed; 2: collection broke (the mutant does not import)
+
+
+def run(sample: int | None, seed: int, report: Path | None) -> float:
+    files = sorted(p for t in TARGETS for p in (ROOT / t).rglob("*.py") if p.name != "__init__.py")
+    every = mutants(files)
+    chosen = random.Random(seed).sample(every, sample) if sample and sample < len(every) else every
+    print(f"{len(every)} mutants in {len(files)} files; running {len(chosen)} (seed {seed})", flush=True)
+    results = []
+    with tempfile.TemporaryDirectory(prefix="afecheck-mutants-") as tmp:
+        work = Path(tmp)
+        for name in COPY:
+            src = ROOT / name
+            (shutil.copytree if src.is_dir() else shutil.copy2)(src, work / name)
+        if not _pytest(work, FAST["afecheck/checks"] + FAST["afecheck/analysis"]):
+            raise SystemExit("the unmutated test subset fails: fix the suite first")
+        for k, m in enumerate(chosen, 1):
+            target = work / m.file
+            original = target.read_text(encoding="utf-8")
+            target.write_text(m.source, encoding="utf-8")
+            t0 = time.monotonic()
+            try:
+                survived = _pytest(work, FAST[_area(m.file)])
+                if survived and _area(m.file) == "afecheck/analysis":
+                    survived = _pytest(work, SLOW)
+            finally:
+                target.write_text(original, encoding="utf-8")
+            results.append({"id": m.id, "killed": not survived, "seconds": round(time.monotonic() - t0, 1)})
+            print(f"[{k}/{len(chosen)}] {'killed  ' if not survived else 'SURVIVED'} {m.id}", flush=True)
+    killed = sum(r["killed"] for r in results)
+    rate = killed / len(results) if results else 1.0
+    print(f"kill rate {killed}/{len(results)} = {rate:.1%}")
+    for r in results:
+        if not r["killed"]:
+            print(f"survivor: {r['id']}")
+    if report is not None:
+        report.write_text(json.dumps({"seed": seed, "sample": len(chosen), "total": len(every), "killed": killed,
+                                      "rate": rate, "results": results}, indent=1), encoding="utf-8")
+    return rate
+
+
+def main(argv: list[str] | None = None) -> int:
+    ap = argparse.ArgumentParser(description=__doc__.splitlines()[0])
+    ap.add_argument("--sample", type=int, default=None, help="fixed-seed subset size (default: every mutant)")
+    ap.add_argument("--seed", type=int, default=18)
+    ap.add_argument("--floor", type=float, default=0.0, help="fail below this kill rate (0..1)")
+    ap.add_argument("--json", type=Path, default=None, help="write every result here")
+    ap.add_argument("--list", action="store_true", help="only count the mutants")
+    args = ap.parse_args(argv)
+    if args.list:
+        files = sorted(p for t in TARGETS for p in (ROOT / t).rglob("*.py") if p.name != "__init__.py")
+        every = mutants(files)
+        print(len(every))
+        return 0
+    rate = run(args.sample, args.seed, args.json)
+    return 0 if rate >= args.floor else 1
+
+
+if __name__ == "__main__":
+    raise SystemExit(main())
