@@ -304,6 +304,8 @@ class Intent(_Strict):
     signals: dict[NetName, Signal] = {}
     loads: dict[NetName, Load] = {}
     budgets: dict[NetName, Budget] = {}
+    operating_temperature: tuple[Celsius, Celsius] | None = Field(
+        default=None, description="ambient range the circuit works over, when the design itself does not say")
     netlist: NetlistMapBody | None = Field(default=None, description="map for SPICE netlist input (as --map)")
 
 

@@ -15,7 +15,7 @@ from dataclasses import replace
 import numpy as np
 
 from afecheck.analysis.channel import channel_netlist, find_channels
-from afecheck.analysis.netlist import GROUND, OpAmpCore, Resistor, Vccs, Vcvs
+from afecheck.analysis.netlist import GROUND, Netlist, OpAmpCore, Resistor, Vccs, Vcvs
 from afecheck.analysis.noise import BOLTZMANN
 from afecheck.analysis.spice import spice_deck
 
@@ -45,6 +45,8 @@ def noise_deck(loaded, net: str, f_lo: float, f_hi: float, per_decade: int = 40)
             extra += [Resistor(f"NZ#{ref}.ri{pin}", f"NZ#{ref}.i{pin}", GROUND, 1.0),
                       Vccs(f"NZ#{ref}.gi{pin}", node, GROUND, f"NZ#{ref}.i{pin}", GROUND, inn / unit)]
     netlist = netlist.with_elements(*extra)
+    # written flat (no op-amp subcircuits), so the macromodel's own resistors can be marked quiet card by card
+    netlist = Netlist(netlist.elements, {r: replace(op, template=()) for r, op in netlist.opamps.items()})
     deck = spice_deck(netlist, title=f"noise at {net}")
     quiet_cards = {deck.elements[n] for n in quiet} | {deck.elements[f"{n}#r{i}"] for n in
                                                        (op.loop_element for op in netlist.opamps.values())
