@@ -150,13 +150,16 @@ def review_files(
     baseline: str | Path | None = None,
     today: dt.date | None = None,
     registry: Any = None,
+    baseline_any_design: bool = False,
 ) -> Report:
     """Check every design under its policy (``config``, else a discovered ``.afecheck.yaml`` when ``discover``),
-    apply waivers and the baseline, and return the report data. Bad input of any file raises one InputError."""
+    apply waivers and the baseline, and return the report data. Bad input of any file raises one InputError.
+
+    A baseline recorded for other designs is refused (ConfigError) unless ``baseline_any_design`` is set."""
     from afecheck import __version__
     from afecheck.engine.runner import run_rules
     from afecheck.model.load import load_design
-    from afecheck.policy.baseline import load_baseline
+    from afecheck.policy.baseline import read_baseline
     from afecheck.policy.config import discover_config, resolve_policy
     from afecheck.policy.gate import classify, promote
     from afecheck.policy.rulesets import Catalogue
@@ -171,6 +174,7 @@ def review_files(
 
     def waivers_of(files: Sequence[str | Path]) -> tuple[WaiverNote, ...]:
         out: list[WaiverNote] = []
+        _refuse_repeats(files)
         for f in files:
             key = str(f)
             if key not in waiver_cache:
@@ -178,7 +182,11 @@ def review_files(
             out.extend(waiver_cache[key])
         return tuple(out)
 
-    recorded = load_baseline(baseline) if baseline is not None else None
+    recorded = read_baseline(baseline) if baseline is not None else None
+    notes: list[str] = []
+    if recorded is not None and not recorded.names_designs:
+        notes.append(f"baseline {recorded.file} does not say which designs it was recorded for (written by an older "
+                     "afecheck); its findings are matched by design name; re-record it to add them")
     cli_waivers = waivers_of(waiver_files)
     designs: list[DesignResult] = []
     used: set[str] = set()
@@ -197,12 +205,22 @@ def review_files(
             findings = promote(run_rules(loaded, registry=reg, **policy.run_options(runnable)), policy.promote)
             inline = inline_waivers(loaded, catalogue)
             inline_all.extend(inline)
+            _refuse_repeats([*waiver_files, *policy.waiver_files])
             waivers = cli_waivers + waivers_of(policy.waiver_files) + inline
         except InputError as exc:
             problems.extend(exc.problems)
             continue
         name = loaded.design.name
-        mine = None if recorded is None else [b for b in recorded if b.design == name]
+        mine = None
+        if recorded is not None:
+            was = recorded.recorded_as(name, loaded.file) if recorded.names_designs else name
+            if was is None and not baseline_any_design:
+                problems.append(Problem(recorded.file, None, None, "designs", (
+                    f"this baseline was recorded for {recorded.describe()}, not for design {name!r} ({loaded.file}); "
+                    "record one for this design with `afecheck baseline`, or pass --baseline-any-design to use it "
+                    "anyway")))
+                continue
+            mine = recorded.for_design(name, was or "*")
         stage_of, opamps = stage_finder(loaded)
         review = classify(findings, waivers, mine, today, stage_of)
         used |= review.used
@@ -228,7 +246,26 @@ def review_files(
         baseline=None if baseline is None else str(baseline),
         unused_waivers=unused,
         expired_waivers=tuple(sorted(expired.values(), key=lambda w: (w.file, w.line or 0))),
+        notes=tuple(notes),
     )
+
+
+def _refuse_repeats(files: Sequence[str | Path]) -> None:
+    """Refuse a waiver file given twice (by identity, however it is spelt): its waivers would count twice."""
+    from afecheck.model.paths import same_file
+
+    seen: list[Path] = []
+    problems = []
+    for f in files:
+        p = Path(f)
+        first = next((s for s in seen if same_file(s, p)), None)
+        if first is not None:
+            problems.append(Problem(str(f), None, None, "", f"waiver file given twice (also as {str(first)!r}); give "
+                                                          "each waiver file once"))
+        else:
+            seen.append(p)
+    if problems:
+        raise InputError(problems)
 
 
 __all__ = ["DesignReport", "Entry", "Report", "check_design", "check_file", "review_files", "rule_catalogue"]

@@ -29,7 +29,7 @@ def run(args: argparse.Namespace, stdout: TextIO, stderr: TextIO) -> int:
     report = review_files(args.files, **review_options(args))
     recorded = [e.finding for e in report.entries() if e.status == "open"]
     try:
-        write_text_atomic(args.output, render_baseline(recorded))
+        write_text_atomic(args.output, render_baseline(recorded, [(d.name, d.file) for d in report.designs]))
     except OSError as exc:
         print(f"afecheck: error: cannot write {args.output}: {exc.strerror or exc}", file=stderr)
         return EXIT_INPUT

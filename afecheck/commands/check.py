@@ -92,6 +92,8 @@ def add_arguments(p: argparse.ArgumentParser) -> None:
                    help="write the preceding --format to PATH (atomically) instead of standard output")
     p.add_argument("--baseline", metavar="FILE",
                    help="baseline from `afecheck baseline`: only findings not in it fail the gate")
+    p.add_argument("--baseline-any-design", action="store_true",
+                   help="use the --baseline even though it was recorded for other designs (a design renamed or moved)")
     p.add_argument("--only-designs", action="store_true",
                    help="skip files that are not afecheck designs (no top-level 'afecheck' key), e.g. in a pre-commit"
                    " hook that passes every YAML file")
@@ -159,7 +161,10 @@ def run(args: argparse.Namespace, stdout: TextIO, stderr: TextIO) -> int:
         if not args.files:
             print("afecheck: no design files among the files given", file=stderr)
             return 0
-    report = review_files(args.files, fail_on=args.fail_on, baseline=args.baseline, **review_options(args))
+    report = review_files(args.files, fail_on=args.fail_on, baseline=args.baseline,
+                          baseline_any_design=args.baseline_any_design, **review_options(args))
+    for note in report.notes:
+        print(f"afecheck: note: {note}", file=stderr)
     rendered = [(fmt, path, render(report, str(fmt), color=path is None and use_color(args.color, stdout)))
                 for fmt, path in plan]
     for _fmt, path, text in rendered:
