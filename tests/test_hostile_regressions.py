@@ -332,3 +332,60 @@ def test_numbers_no_float_can_hold_are_input_errors(work, field, needle):
 def test_json_number_no_float_can_hold_is_an_input_error(work):
     (work / "d.json").write_text('{"afecheck": 1,\n "name": 1e400}\n', encoding="utf-8")
     refused("check", "d.json", needle="not a finite number", where="d.json:2:10")
+
+
+# --- names that could act on a terminal or break a report's markup ---------------------------------------------
+
+HOSTILE_NAME = "".join(chr(c) for c in range(32)) + "\x1b[2J|<&]]>\u202e\x7f\x9b`*_"
+
+
+def _hostile_design(work: Path) -> Path:
+    import yaml
+
+    data = yaml.safe_load((GATE / "logger.yaml").read_text(encoding="utf-8"))
+    data["components"]["R1" + HOSTILE_NAME] = data["components"].pop("R1")  # named in TST101's message
+    data["name"] = "logger " + HOSTILE_NAME
+    path = work / "hostile.json"
+    path.write_text(json.dumps(data), encoding="utf-8")
+    return path
+
+
+@pytest.mark.parametrize("fmt", ["text", "markdown", "junit"])
+def test_control_characters_in_names_are_shown_visibly_never_raw(work, fmt):
+    path = _hostile_design(work)
+    code, out, err = run("check", "--fail-on", "never", "--format", fmt, str(path))
+    assert code == 0, err
+    raw = {c for c in HOSTILE_NAME if not c.isprintable()} - {"\n"}
+    assert not raw & set(out), sorted(raw & set(out))
+    assert out.count("\n") == run("check", "--fail-on", "never", "--format", fmt, str(GATE / "logger.yaml"))[1].count(
+        "\n")  # a newline in a name never starts a line of its own
+    assert "\\x1b[2J" in out or "\\x1b\\[2J" in out  # the escape is shown, not sent to the terminal
+    assert "\\u202e" in out
+
+
+def test_junit_report_of_hostile_names_is_well_formed_xml(work):
+    import xml.etree.ElementTree as ET
+
+    path = _hostile_design(work)
+    code, out, _ = run("check", "--fail-on", "never", "--format", "junit", str(path))
+    root = ET.fromstring(out.encode("utf-8"))
+    text = ET.tostring(root, encoding="unicode")
+    assert "]]>" not in out.replace("]]&gt;", "")
+    assert "R1\\x00" in text and "\\x1b[2J|&lt;&amp;]]&gt;" in out
+
+
+def test_markdown_table_survives_pipes_and_markup_in_names(work):
+    path = _hostile_design(work)
+    _, out, _ = run("check", "--fail-on", "never", "--format", "markdown", str(path))
+    rows = [line for line in out.splitlines() if line.startswith("| ") and "TST" in line]
+    assert rows
+    for row in rows:  # every row keeps its six cells: no unescaped pipe inside a cell
+        import re
+
+        assert len(re.findall(r"(?<!\\)\|", row)) == 6, row
+    assert "<&" not in out and "\\<\\&" in out
+
+
+def test_lone_surrogate_in_a_json_name_is_an_input_error(work):
+    (work / "d.json").write_text('{"afecheck": 1, "name": "x\\ud800"}', encoding="utf-8")
+    refused("check", "d.json", needle="lone surrogate", where="d.json:1")

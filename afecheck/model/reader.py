@@ -201,7 +201,41 @@ def read_bytes(raw: bytes, file: str, as_json: bool = False) -> Document:
     text = text.removeprefix("\ufeff")
     if not text.strip() or (not as_json and _only_comments(text)):
         raise InputError([Problem(file, 1, None, "", "empty file: expected a mapping with the format version")])
-    return _read_json(text, file) if as_json else _read_yaml(text, file)
+    doc = _read_json(text, file) if as_json else _read_yaml(text, file)
+    _refuse_lone_surrogates(doc)
+    return doc
+
+
+def _refuse_lone_surrogates(doc: Document) -> None:
+    """A ``\\ud800`` escape read alone is no character: no report could be written with it, so refuse it here."""
+    problems: list[Problem] = []
+    stack: list[tuple[PathKey, Any]] = [((), doc.data)]
+    while stack:
+        path, node = stack.pop()
+        if isinstance(node, dict):
+            for k, v in node.items():
+                sub = path + (str(k),)
+                if isinstance(k, str) and _unencodable(k):
+                    problems.append(doc.problem(sub, "the key holds a lone surrogate escape (\\ud800-\\udfff), "
+                                                     "which is not a character"))
+                stack.append((sub, v))
+        elif isinstance(node, list):
+            stack.extend((path + (i,), v) for i, v in enumerate(node))
+        elif isinstance(node, str) and _unencodable(node):
+            problems.append(doc.problem(path, "the text holds a lone surrogate escape (\\ud800-\\udfff), which is "
+                                              "not a character"))
+    if problems:
+        raise InputError(problems)
+
+
+def _unencodable(text: str) -> bool:
+    if text.isascii():
+        return False
+    try:
+        text.encode("utf-8")
+    except UnicodeEncodeError:
+        return True
+    return False
 
 
 def _only_comments(text: str) -> bool:

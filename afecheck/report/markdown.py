@@ -2,7 +2,9 @@
 
 from __future__ import annotations
 
-from afecheck.report._common import message, rule_label, unused_text, where
+import re
+
+from afecheck.report._common import message, rule_label, unused_text, visible, where
 from afecheck.report.cautions import cautions
 from afecheck.report.data import Entry, Report, summary_line
 
@@ -10,8 +12,12 @@ MAX_ROWS = 50
 _ICON = {"error": "🛑 error", "warning": "⚠️ warning", "info": "ℹ️ info"}
 
 
+_MARKUP = re.compile(r"([\\`*_\[\]<>|~&!#])")
+
+
 def _cell(text: str) -> str:
-    return text.replace("\\", "\\\\").replace("|", "\\|").replace("\n", " ").replace("<", "&lt;")
+    """Text safe in a table cell or list item: controls shown as escapes, Markdown and HTML markup escaped."""
+    return _MARKUP.sub(r"\\\1", visible(text))
 
 
 def _table(entries: list[Entry], with_note: bool = False) -> list[str]:
@@ -20,7 +26,7 @@ def _table(entries: list[Entry], with_note: bool = False) -> list[str]:
     rows = [head, rule]
     for e in entries:
         f = e.finding
-        row = (f"| {_ICON[f.severity.label]} | `{_cell(rule_label(e))}` | `{_cell(where(e))}` | {_cell(message(f))} "
+        row = (f"| {_ICON[f.severity.label]} | {_cell(rule_label(e))} | {_cell(where(e))} | {_cell(message(f))} "
                f"| {_cell(f.fix)} |")
         if with_note:
             note = e.status
@@ -38,7 +44,7 @@ def render_markdown(report: Report) -> str:
     out = [f"### afecheck {verdict} the gate", "", summary_line(report), ""]
     hazards = report.hazards()
     if hazards:
-        out.append(f"> **Caution (declared hazards: {', '.join(hazards)})**")
+        out.append(f"> **Caution (declared hazards: {_cell(', '.join(hazards))})**")
         out.extend(f"> - {line}" for line in cautions(hazards))
         out.append("")
     out += ["| error | warning | info | waived | unchanged | fixed |", "|---:|---:|---:|---:|---:|---:|",
@@ -56,8 +62,8 @@ def render_markdown(report: Report) -> str:
         if group:
             out += ["<details>", f"<summary>{len(group)} {title}</summary>", ""]
             out += _table(group, with_note=True) + ["", "</details>", ""]
-    notes = [f"- expired waiver `{_cell(w.label)}` ({w.file}:{w.line or 0}, expired {w.expires}): finding re-opened"
-             for w in report.expired_waivers]
+    notes = [f"- expired waiver {_cell(w.label)} ({_cell(w.file)}:{w.line or 0}, expired {w.expires}): "
+             "finding re-opened" for w in report.expired_waivers]
     notes += [f"- {_cell(unused_text(w))}" for w in report.unused_waivers]
     if notes:
         out += ["**Waiver file notes**", ""] + notes + [""]

@@ -2,7 +2,16 @@
 
 from __future__ import annotations
 
-from afecheck.report._common import by_stage, expired_text, message, rule_label, unused_text, waiver_text, where
+from afecheck.report._common import (
+    by_stage,
+    expired_text,
+    message,
+    rule_label,
+    unused_text,
+    visible,
+    waiver_text,
+    where,
+)
 from afecheck.report.cautions import cautions
 from afecheck.report.data import Entry, Report, summary_line
 
@@ -18,16 +27,16 @@ def _entry_lines(entry: Entry, color: bool) -> list[str]:
     f = entry.finding
     sev = _paint(f.severity.label, f.severity.label, color)
     tag = "" if entry.status == "open" else " " + _paint(f"[{entry.status}]", "dim", color)
-    lines = [f"{where(entry)}: {sev}: {rule_label(entry)}: {message(f)}{tag}"]
+    lines = [f"{visible(where(entry))}: {sev}: {visible(rule_label(entry))}: {visible(message(f))}{tag}"]
     if entry.status == "fixed":
         return lines
-    lines.append(f"    fix: {f.fix or 'see the rule documentation (afecheck explain ' + f.rule + ')'}")
+    lines.append(f"    fix: {visible(f.fix or 'see the rule documentation (afecheck explain ' + f.rule + ')')}")
     if f.assumed:
-        lines.append(f"    assumed: {', '.join(f.assumed)}")
+        lines.append(f"    assumed: {visible(', '.join(f.assumed))}")
     if entry.waiver is not None:
-        lines.append(f"    waived: {waiver_text(entry.waiver)}")
+        lines.append(f"    waived: {visible(waiver_text(entry.waiver))}")
     if entry.expired_waiver is not None:
-        lines.append(f"    note: {expired_text(entry.expired_waiver)}")
+        lines.append(f"    note: {visible(expired_text(entry.expired_waiver))}")
     return lines
 
 
@@ -36,23 +45,23 @@ def render_text(report: Report, color: bool = False) -> str:
     out: list[str] = []
     hazards = report.hazards()
     if hazards:
-        out.append(_paint(f"CAUTION (declared hazards: {', '.join(hazards)}):", "error", color))
+        out.append(_paint(f"CAUTION (declared hazards: {visible(', '.join(hazards))}):", "error", color))
         out.extend(f"  - {line}" for line in cautions(hazards))
         out.append("")
     for design in report.designs:
-        out.append(_paint(f"== {design.file} ({design.name}) ==", "head", color))
+        out.append(_paint(f"== {visible(design.file)} ({visible(design.name)}) ==", "head", color))
         if design.hazards:
-            out.append(f"hazards: {', '.join(design.hazards)}: see the cautions above")
+            out.append(f"hazards: {visible(', '.join(design.hazards))}: see the cautions above")
         if not design.entries:
             out.append("no findings")
         for stage, group in by_stage(design):
-            out.append(_paint(f"-- stage {stage} --" if stage else "-- design-wide --", "head", color))
+            out.append(_paint(f"-- stage {visible(stage)} --" if stage else "-- design-wide --", "head", color))
             for entry in group:
                 out.extend(_entry_lines(entry, color))
         out.append("")
     for w in report.expired_waivers:
-        out.append(f"{w.file}:{w.line or 0}: note: waiver {w.label} expired on {w.expires}")
+        out.append(visible(f"{w.file}:{w.line or 0}: note: waiver {w.label} expired on {w.expires}"))
     for w in report.unused_waivers:
-        out.append(f"{unused_text(w)}")
+        out.append(visible(unused_text(w)))
     out.append("afecheck: " + summary_line(report))
     return "\n".join(out) + "\n"
