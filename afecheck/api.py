@@ -34,8 +34,9 @@ class DesignReport:
 def check_design(loaded: LoadedDesign, **options: object) -> DesignReport:
     """Run the rules on a loaded design (options go to the rule runner: select, params, severity_overrides)."""
     from afecheck.engine.runner import run_rules
+    from afecheck.policy.finite import guard_finite
 
-    findings = tuple(sorted(run_rules(loaded, **options), key=Finding.sort_key))
+    findings = tuple(sorted(guard_finite(run_rules(loaded, **options)), key=Finding.sort_key))
     d = loaded.design
     return DesignReport(file=loaded.file, name=d.name, hazards=tuple(d.hazards), findings=findings)
 
@@ -161,6 +162,7 @@ def review_files(
     from afecheck.model.load import load_design
     from afecheck.policy.baseline import read_baseline
     from afecheck.policy.config import discover_config, resolve_policy
+    from afecheck.policy.finite import guard_finite
     from afecheck.policy.gate import classify, promote
     from afecheck.policy.rulesets import Catalogue
     from afecheck.policy.waivers import load_waivers
@@ -202,7 +204,8 @@ def review_files(
             policy = policies[key]
             levels.add(policy.fail_on)
             loaded = load_design(path, intent=intent, libraries=libraries)
-            findings = promote(run_rules(loaded, registry=reg, **policy.run_options(runnable)), policy.promote)
+            findings = promote(guard_finite(run_rules(loaded, registry=reg, **policy.run_options(runnable))),
+                               policy.promote)
             inline = inline_waivers(loaded, catalogue)
             inline_all.extend(inline)
             _refuse_repeats([*waiver_files, *policy.waiver_files])
