@@ -389,3 +389,10 @@ def test_markdown_table_survives_pipes_and_markup_in_names(work):
 def test_lone_surrogate_in_a_json_name_is_an_input_error(work):
     (work / "d.json").write_text('{"afecheck": 1, "name": "x\\ud800"}', encoding="utf-8")
     refused("check", "d.json", needle="lone surrogate", where="d.json:1")
+
+
+def test_exponent_too_large_for_decimal_is_an_input_error(work):
+    # found by tests/test_fuzz_inputs.py: decimal.Overflow escaped from the unit parser
+    text = (GATE / "logger.yaml").read_text(encoding="utf-8").replace("value: 470,", "value: 0123e45678901234,")
+    (work / "d.yaml").write_text(text, encoding="utf-8")
+    refused("check", "d.yaml", needle="R1.value", where="d.yaml:10")

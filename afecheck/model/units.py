@@ -109,7 +109,7 @@ def _scaled(number: str, exponent: int, text: str, unit: str) -> float:
     """``number`` × 10**``exponent`` computed in decimal, as the nearest float; refuse inf and nan."""
     try:
         value = float(Decimal(number).scaleb(exponent))
-    except (InvalidOperation, ValueError):
+    except (InvalidOperation, ValueError, ArithmeticError):  # decimal.Overflow on an exponent like e45678901234
         raise UnitError(f"read {text!r}; expected {_accepted(unit)}") from None
     if not math.isfinite(value):
         raise UnitError(f"read {text!r}, which is not a finite number; expected {_accepted(unit)}")
