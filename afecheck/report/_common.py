@@ -91,3 +91,9 @@ def unused_text(w: WaiverNote) -> str:
     rule = f" ({w.rule})" if w.rule and w.fingerprint else ""
     what = "fingerprint" if w.fingerprint else "rule and names"
     return f"{w.file}:{w.line or 0}: waiver {w.label}{rule} matches no finding; remove it or fix its {what}"
+
+
+def policy_text(design: DesignResult) -> str:
+    """Which rule set and config judged ``design``, in the words every report uses."""
+    return f"rule set {visible(design.ruleset)}, " + (f"config {visible(design.config)}" if design.config
+                                                       else "no config file")

@@ -25,18 +25,15 @@ def _case_ids(design: DesignResult) -> list[str]:
 
 def _suite(design: DesignResult, report: Report) -> tuple[ET.Element, int, int]:
     suite = ET.Element("testsuite", {"name": visible(design.file)})
-    hazards = cautions(design.hazards)
-    if hazards:
-        props = ET.SubElement(suite, "properties")
-        for text in hazards:
-            ET.SubElement(props, "property", {"name": "caution", "value": text})
+    props = ET.SubElement(suite, "properties")
+    ET.SubElement(props, "property", {"name": "ruleset", "value": visible(design.ruleset)})
+    ET.SubElement(props, "property", {"name": "config", "value": visible(design.config or "none")})
+    for text in cautions(design.hazards):
+        ET.SubElement(props, "property", {"name": "caution", "value": text})
     tests = failures = 0
     for rule_id in _case_ids(design):
         entries = [e for e in design.entries if e.finding.rule == rule_id and e.status != "fixed"]
-        info = report.rule(rule_id)
-        slug = info.slug if info else (entries[0].finding.slug if entries else "")
-        case = ET.SubElement(suite, "testcase", {"classname": visible(design.name),
-                                                 "name": visible(f"{rule_id}/{slug}")})
+        case = ET.SubElement(suite, "testcase", {"classname": visible(design.name), "name": visible(rule_id)})
         tests += 1
         quiet = []
         for e in entries:

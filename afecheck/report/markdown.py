@@ -4,7 +4,7 @@ from __future__ import annotations
 
 import re
 
-from afecheck.report._common import message, rule_label, unused_text, visible, where
+from afecheck.report._common import message, policy_text, rule_label, unused_text, visible, where
 from afecheck.report.cautions import cautions
 from afecheck.report.data import Entry, Report, plural, summary_line
 from afecheck.report.stage_lines import stage_line
@@ -47,6 +47,9 @@ def render_markdown(report: Report) -> str:
     else:
         head = f"### afecheck {'❌ fails' if report.failed() else '✅ passes'} the gate"
     out = [head, "", summary_line(report), ""]
+    policies = sorted({policy_text(d) for d in report.designs})
+    if policies:
+        out += ["Judged with " + "; ".join(_cell(p) for p in policies) + ".", ""]
     hazards = report.hazards()
     if hazards:
         out.append(f"> **Caution (declared hazards: {_cell(', '.join(hazards))})**")

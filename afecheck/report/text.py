@@ -6,6 +6,7 @@ from afecheck.report._common import (
     by_stage,
     expired_text,
     message,
+    policy_text,
     root_label,
     rule_label,
     unused_text,
@@ -55,8 +56,7 @@ def render_text(report: Report, color: bool = False) -> str:
         out.append("")
     for design in report.designs:
         out.append(_paint(f"== {visible(design.file)} ({visible(design.name)}) ==", "head", color))
-        out.append(f"rule set {visible(design.ruleset)}, "
-                   + (f"config {visible(design.config)}" if design.config else "no config file"))
+        out.append(policy_text(design))
         if design.hazards:
             out.append(f"hazards: {visible(', '.join(design.hazards))}: see the cautions above")
         if not design.entries:
