@@ -34,8 +34,9 @@ class DesignReport:
 def check_design(loaded: LoadedDesign, **options: object) -> DesignReport:
     """Run the rules on a loaded design (options go to the rule runner: select, params, severity_overrides)."""
     from afecheck.engine.runner import run_rules
+    from afecheck.policy.finite import guard_finite
 
-    findings = tuple(sorted(run_rules(loaded, **options), key=Finding.sort_key))
+    findings = tuple(sorted(guard_finite(run_rules(loaded, **options)), key=Finding.sort_key))
     d = loaded.design
     return DesignReport(file=loaded.file, name=d.name, hazards=tuple(d.hazards), findings=findings)
 
@@ -158,7 +159,7 @@ class _Reviewer:
     One reviewer serves a serial run; in a parallel run each worker process builds its own from the same options."""
 
     def __init__(self, options: dict[str, Any]):
-        from afecheck.policy.baseline import load_baseline
+        from afecheck.policy.baseline import read_baseline
         from afecheck.policy.rulesets import Catalogue
 
         self.o = options
@@ -168,13 +169,14 @@ class _Reviewer:
         self.policies: dict[str | None, Any] = {}
         self.waiver_cache: dict[str, tuple[WaiverNote, ...]] = {}
         baseline = options.get("baseline")
-        self.recorded = load_baseline(baseline) if baseline is not None else None
+        self.recorded = read_baseline(baseline) if baseline is not None else None
         self.cli_waivers = self.waivers_of(options.get("waiver_files", ()))
 
     def waivers_of(self, files: Sequence[str | Path]) -> tuple[WaiverNote, ...]:
         from afecheck.policy.waivers import load_waivers
 
         out: list[WaiverNote] = []
+        _refuse_repeats(files)
         for f in files:
             key = str(f)
             if key not in self.waiver_cache:
@@ -187,6 +189,7 @@ class _Reviewer:
         from afecheck.engine.runner import run_rules
         from afecheck.model.load import load_design
         from afecheck.policy.config import discover_config, resolve_policy
+        from afecheck.policy.finite import guard_finite
         from afecheck.policy.gate import classify, promote
 
         o = self.o
@@ -207,14 +210,24 @@ class _Reviewer:
                 analysis, curves = analyse_for_views(loaded, "curves" if detail == "curves" else "stages")
                 if analysis is not None:
                     options["analysis"] = analysis
-            findings = promote(run_rules(loaded, registry=self.reg, **options), policy.promote)
+            findings = promote(guard_finite(run_rules(loaded, registry=self.reg, **options)), policy.promote)
             inline = inline_waivers(loaded, self.catalogue)
+            _refuse_repeats([*o.get("waiver_files", ()), *policy.waiver_files])
             file_waivers = self.waivers_of(policy.waiver_files)
             waivers = self.cli_waivers + file_waivers + inline
         except InputError as exc:
             return _Outcome(problems=list(exc.problems), renamed=dict(self.catalogue.renamed_used))
         name = loaded.design.name
-        mine = None if self.recorded is None else [b for b in self.recorded if b.design == name]
+        mine = None
+        recorded = self.recorded
+        if recorded is not None:
+            was = recorded.recorded_as(name, loaded.file) if recorded.names_designs else name
+            if was is None and not o.get("baseline_any_design"):
+                return _Outcome(problems=[Problem(recorded.file, None, None, "designs", (
+                    f"this baseline was recorded for {recorded.describe()}, not for design {name!r} ({loaded.file}); "
+                    "record one for this design with `afecheck baseline`, or pass --baseline-any-design to use it "
+                    "anyway"))], renamed=dict(self.catalogue.renamed_used))
+            mine = recorded.for_design(name, was or "*")
         stage_of, opamps = stage_finder(loaded)
         review = classify(findings, waivers, mine, o.get("today"), stage_of)
         rules_run = tuple(m.id for m in self.catalogue.metas if m.id not in policy.disabled)
@@ -298,6 +311,7 @@ def review_files(
     on_note: Any = None,
     jobs: int = 1,
     on_done: Any = None,
+    baseline_any_design: bool = False,
 ) -> Report:
     """Check every design under its policy (``config``, else a discovered ``.afecheck.yaml`` when ``discover``),
     apply waivers and the baseline, and return the report data. Bad input of any file raises one InputError.
@@ -306,12 +320,14 @@ def review_files(
     frequency responses (for the reports that draw plots); ``"none"`` keeps the check path lean.
     ``input_format``/``netlist_map`` say how to read SPICE netlists; ``on_note(text)`` hears what a reader skipped.
     ``jobs`` > 1 spreads the designs over that many processes; the report is the same as a serial run's, byte for
-    byte. ``on_done(outcome)`` is called as each design finishes (progress)."""
+    byte. ``on_done(outcome)`` is called as each design finishes (progress).
+    A baseline recorded for other designs is refused unless ``baseline_any_design`` is set."""
     from afecheck import __version__
 
     options = {"intent": intent, "libraries": libraries, "config": config, "discover": discover, "ruleset": ruleset,
                "waiver_files": tuple(waiver_files), "baseline": baseline, "today": today, "registry": registry,
-               "detail": detail, "input_format": input_format, "netlist_map": netlist_map}
+               "detail": detail, "input_format": input_format, "netlist_map": netlist_map,
+               "baseline_any_design": baseline_any_design}
     problems: list[Problem] = []
     designs: list[DesignResult] = []
     used: set[str] = set()
@@ -341,6 +357,14 @@ def review_files(
 
     catalogue = Catalogue(reg.metas())
     catalogue.renamed_used.update(renamed)
+    notes: list[str] = []
+    if baseline is not None:
+        from afecheck.policy.baseline import read_baseline
+
+        recorded = read_baseline(baseline)
+        if not recorded.names_designs:
+            notes.append(f"baseline {recorded.file} does not say which designs it was recorded for (written by an "
+                         "older afecheck); its findings are matched by design name; re-record it to add them")
     level = fail_on or min(levels or {"error"}, key=_FAIL_ORDER.index)
     unused = tuple(sorted((w for key, w in all_waivers.items() if key not in used),
                           key=lambda w: (w.file, w.line or 0)))
@@ -352,8 +376,44 @@ def review_files(
         baseline=None if baseline is None else str(baseline),
         unused_waivers=unused,
         expired_waivers=tuple(sorted(expired.values(), key=lambda w: (w.file, w.line or 0))),
-        notes=catalogue.rename_notes(),
+        notes=(*notes, *catalogue.rename_notes()),
     )
+
+
+def _refuse_repeats(files: Sequence[str | Path]) -> None:
+    """Refuse a waiver file given twice (by identity, however it is spelt): its waivers would count twice."""
+    from afecheck.model.paths import same_file
+
+    seen: list[Path] = []
+    problems = []
+    for f in files:
+        p = Path(f)
+        first = next((s for s in seen if same_file(s, p)), None)
+        if first is not None:
+            problems.append(Problem(str(f), None, None, "", f"waiver file given twice (also as {str(first)!r}); give "
+                                                          "each waiver file once"))
+        else:
+            seen.append(p)
+    if problems:
+        raise InputError(problems)
+
+
+def _refuse_repeats(files: Sequence[str | Path]) -> None:
+    """Refuse a waiver file given twice (by identity, however it is spelt): its waivers would count twice."""
+    from afecheck.model.paths import same_file
+
+    seen: list[Path] = []
+    problems = []
+    for f in files:
+        p = Path(f)
+        first = next((s for s in seen if same_file(s, p)), None)
+        if first is not None:
+            problems.append(Problem(str(f), None, None, "", f"waiver file given twice (also as {str(first)!r}); give "
+                                                          "each waiver file once"))
+        else:
+            seen.append(p)
+    if problems:
+        raise InputError(problems)
 
 
 __all__ = ["DesignReport", "Entry", "Report", "check_design", "check_file", "review_files", "rule_catalogue"]

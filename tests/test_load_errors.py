@@ -344,7 +344,7 @@ def test_broken_json(tmp_path: Path) -> None:
 
 def test_missing_file_and_folder(tmp_path: Path) -> None:
     assert errors(tmp_path / "absent.yaml") == [f"{tmp_path / 'absent.yaml'}: no such file"]
-    assert errors(tmp_path) == [f"{tmp_path}: not a regular file"]
+    assert errors(tmp_path) == [f"{tmp_path}: a folder, not a regular file: only regular files are read"]
 
 
 # -- through the command line -----------------------------------------------------------------------------------

@@ -107,7 +107,7 @@ BAD_CONFIGS = [
     ("afecheck-config: 1\nrules:\n  TST101: {severity: fatal}\n", 3, "unknown severity"),
     ("afecheck-config: 1\nrules:\n  TST101: {colour: red}\n", 3, "unknown key 'colour'"),
     ("afecheck-config: 1\nruleset: strictest\n", 2, "unknown rule set 'strictest'"),
-    ("afecheck-config: 1\nwaivers: missing.yaml\n", 2, "not found"),
+    ("afecheck-config: 1\nwaivers: missing.yaml\n", 2, "no such file"),
     ("rules: {}\n", 1, "afecheck-config: 1"),
     ("afecheck-config: 1\nrules: [\n", 3, "not valid YAML"),
 ]

@@ -126,13 +126,13 @@ def test_markdown_counts_table_and_folds_waived():
     details = md[md.index("<details>"):]
     assert "C1 is X7R" in details and "bench-measured" in details
     assert "C1 is X7R" not in md[: md.index("<details>")]
-    assert "R1 \\| 470 &lt;ohm> & more" in md  # a pipe cannot break the table
+    assert "R1 \\| 470 \\<ohm\\> \\& more" in md  # a pipe cannot break the table, nor < open a tag
     assert "> **Caution" in md
 
 
 FINDING_LINE = re.compile(r"^(?P<sev>ERROR|WARNING|INFO) +(?P<msg>\S.+)$")
 WHERE_LINE = re.compile(r"^ {8}at (?P<file>\S+?)(?::(?P<line>\d+))? · rule (?P<id>\S+)$")
-PAIRED_ID = re.compile(r"\b[A-Za-z]+\d+/[a-z0-9]+(-[a-z0-9]+)+\b")
+PAIRED_ID = re.compile(r"\b([A-Za-z]+\d+|[a-z-]+\.[a-z0-9-]+)/[a-z0-9]+(-[a-z0-9]+)+\b")
 
 
 def test_text_lines_group_by_design_and_stage_and_end_with_summary():
@@ -149,7 +149,7 @@ def test_text_lines_group_by_design_and_stage_and_end_with_summary():
     assert "\x1b[" not in text
 
 
-@pytest.mark.parametrize("fmt", ["text", "markdown"])
+@pytest.mark.parametrize("fmt", ["text", "markdown", "junit", "html"])
 def test_no_report_pairs_an_identifier_with_its_name_by_a_slash(fmt):
     assert not PAIRED_ID.search(render(_fixture_report(), fmt))
 

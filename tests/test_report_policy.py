@@ -15,11 +15,12 @@ GATE = Path(__file__).parent / "fixtures" / "gate"
 
 def _reports(folder: Path, *extra: str) -> dict[str, str]:
     args = ["check", str(folder / "logger.yaml"), "--today", "2026-12-02", *extra]
-    for fmt in ("json", "sarif"):
+    files = ("json", "sarif", "markdown", "junit", "html")
+    for fmt in files:
         args += ["--format", fmt, "--output", str(folder / f"r.{fmt}")]
     out = io.StringIO()
-    assert main([*args, "--format", "text"], out, io.StringIO()) in (0, 1)
-    return {"text": out.getvalue(), **{f: (folder / f"r.{f}").read_text(encoding="utf-8") for f in ("json", "sarif")}}
+    assert main([*args, "--format", "text"], out, io.StringIO()) == 1  # the gate fixture carries an error
+    return {"text": out.getvalue(), **{f: (folder / f"r.{f}").read_text(encoding="utf-8") for f in files}}
 
 
 def test_reports_name_the_config_and_rule_set(tmp_path):
@@ -32,6 +33,10 @@ def test_reports_name_the_config_and_rule_set(tmp_path):
     assert (design["ruleset"], design["config"]) == ("precision", str(config))
     policies = json.loads(got["sarif"])["runs"][0]["properties"]["policies"]
     assert policies == [{"design": str(tmp_path / "logger.yaml"), "ruleset": "precision", "config": str(config)}]
+    assert f"Judged with rule set precision, config {config}." in got["markdown"].replace("\\_", "_")
+    assert '<property name="ruleset" value="precision"' in got["junit"]
+    assert f'<property name="config" value="{config}"' in got["junit"]
+    assert "precision" in got["html"] and str(config) in got["html"]
 
 
 def test_reports_say_when_no_config_was_used(tmp_path):

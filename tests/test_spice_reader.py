@@ -169,6 +169,7 @@ def test_sample_locations_in_sarif_junit_markdown_and_text() -> None:
         assert f"hive_scale.cir:{line}" in text
     for fmt in ("markdown", "text"):
         _, out, _ = run_cli("check", "--format", fmt, *base)
+        out = out.replace("\\_", "_")  # Markdown escapes the underscore in file names; it renders as written
         for _, _, line in EXPECTED:
             assert f"hive_scale.cir:{line}" in out, fmt
 

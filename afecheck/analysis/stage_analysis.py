@@ -44,8 +44,12 @@ from afecheck.analysis.results import NetSignal, SourceEquivalent, StageInput, S
 from afecheck.analysis.sources import Divider, boundary_source, find_dividers, rail_range
 from afecheck.errors import AnalysisError, InputError, SingularCircuitError
 from afecheck.graph.build import Circuit
+from afecheck.graph.queries import MAX_REGION_PARTS
 from afecheck.graph.stages import Stage, StagePlan
 
+MAX_LOCAL_PARTS = MAX_REGION_PARTS
+"""Most passives plus held neighbours a unit's local circuit may hold. A stage wired into a network shared by
+hundreds of parts is reported "not evaluated" rather than solved densely once per stage (cost n³ a stage)."""
 HF_FACTOR = 10.0
 CHARGE_PROBE_HZ = 1e3  # a charge source with no declared band has its gain read here (it has none at DC)
 # Nets reached only through capacitors (a capacitive divider, a coupling node) get this leak to ground so the
@@ -194,7 +198,8 @@ def _divider_legs(circuit: Circuit, net: str, dv: Divider) -> list[tuple[str, st
 
 
 def _holding_elements(circuit: Circuit, stages: list[Stage], nets: set[str], seen_inputs: set[str],
-                      corners: Corners, forms: Mapping[str, SweptForm], sources: _Sources) -> list[Element]:
+                      corners: Corners, forms: Mapping[str, SweptForm], sources: _Sources,
+                      cache: dict | None = None) -> list[Element]:
     """Sources for other op-amps' outputs and virtual grounds the output walk stopped at; input loads of others."""
     unit = {s.opamp for s in stages}
     extra: list[Element] = []
@@ -224,16 +229,52 @@ def _holding_elements(circuit: Circuit, stages: list[Stage], nets: set[str], see
                     fixed = corners.fixed_form(plus) if plus in circuit.fixed else None
                     sources.forms[f"{net}#vg"] = fixed if fixed is not None else constant_form(float(vp or 0.0))
                 break
+    totals = _input_loads(circuit, cache)
     for net in sorted(nets - set(circuit.fixed)):
-        for ref, pin in circuit.net_pins.get(net, ()):
-            if circuit.kinds[ref] == "opamp" and ref not in unit and pin in ("in+", "in-"):
-                model = circuit.loaded.parts.get(circuit.loaded.design.components[ref].part)  # type: ignore[union-attr]
-                rcm = model.value("input_resistance_cm") if model is not None else 1e12
-                extra.append(Resistor(f"{ref}#load{pin}", _node(circuit, net), GROUND, rcm))
-                if model is not None and model.value("input_capacitance_cm") > 0:
-                    extra.append(Capacitor(f"{ref}#loadc{pin}", _node(circuit, net), GROUND,
-                                           model.value("input_capacitance_cm")))
+        if net not in totals:
+            continue
+        count, g, c = totals[net]
+        for ref in unit:  # the unit's own inputs are in its netlist already: take them out of the sums
+            for pin in ("in+", "in-"):
+                if circuit.pins[ref].get(pin) == net:
+                    _, g_own, c_own = _input_load(circuit, ref)
+                    count, g, c = count - 1, g - g_own, c - c_own
+        if count > 0 and g > 0:
+            extra.append(Resistor(f"{net}#inputs.r", _node(circuit, net), GROUND, 1.0 / g))
+        if count > 0 and c > 0:
+            extra.append(Capacitor(f"{net}#inputs.c", _node(circuit, net), GROUND, c))
     return extra
+
+
+def _input_load(circuit: Circuit, ref: str) -> tuple[int, float, float]:
+    """(1, conductance, capacitance) one op-amp input puts from its net to ground: 1/Rcm and Ccm of its model."""
+    model = circuit.loaded.parts.get(circuit.loaded.design.components[ref].part)  # type: ignore[union-attr]
+    rcm = model.value("input_resistance_cm") if model is not None else 1e12
+    ccm = model.value("input_capacitance_cm") if model is not None else 0.0
+    return 1, 1.0 / rcm, max(ccm, 0.0)
+
+
+def _input_loads(circuit: Circuit, cache: dict | None) -> dict[str, tuple[int, float, float]]:
+    """Per net, (count, total conductance, total capacitance) of every op-amp input on it, lumped in parallel.
+
+    Computed once a design (in ``cache``): a stage then holds the other stages' input loads on a shared net as
+    one resistor and one capacitor, so a net read by n op-amps costs O(1) per stage instead of O(n).
+    """
+    if cache is not None and "input_loads" in cache:
+        return cache["input_loads"]
+    totals: dict[str, tuple[int, float, float]] = {}
+    for ref, kind in circuit.kinds.items():
+        if kind != "opamp":
+            continue
+        one = _input_load(circuit, ref)
+        for pin in ("in+", "in-"):
+            net = circuit.pins[ref].get(pin)
+            if net is not None:
+                count, g, c = totals.get(net, (0, 0.0, 0.0))
+                totals[net] = (count + 1, g + one[1], c + one[2])
+    if cache is not None:
+        cache["input_loads"] = totals
+    return totals
 
 
 def analyse_unit(circuit: Circuit, plan: StagePlan, unit: tuple[str, ...],
@@ -253,8 +294,16 @@ def analyse_unit(circuit: Circuit, plan: StagePlan, unit: tuple[str, ...],
         if not s.out or not s.in_plus or not s.in_minus:
             return UnitResult(tuple(_empty_result(x, circuit, ("an op-amp input or output pin is unconnected",))
                                     for x in stages), ())
+    passives = frozenset().union(*(frozenset(s.refs) for s in stages))
+    held = set().union(*(s.output_region.boundary for s in stages))
+    truncated = any(r.truncated for s in stages for r in (s.plus_region, s.minus_region, s.output_region))
+    if truncated or len(passives) + len(held) > MAX_LOCAL_PARTS:
+        reason = (f"its local circuit holds more than {MAX_LOCAL_PARTS} passives and neighbouring nets: the stage "
+                  "shares a network with too many parts to analyse stage by stage; check it by simulation "
+                  "(afecheck spice)")
+        return UnitResult(tuple(_empty_result(s, circuit, (reason,)) for s in stages), ())
     try:
-        netlist, inputs, notes, sources, ntcs = _unit_netlist(circuit, stages, done, corners, forms)
+        netlist, inputs, notes, sources, ntcs = _unit_netlist(circuit, stages, done, corners, forms, cache)
     except InputError as exc:
         return UnitResult(tuple(_empty_result(s, circuit, tuple(p.message for p in exc.problems)) for s in stages), ())
     if circuits is not None:
@@ -270,7 +319,8 @@ def analyse_unit(circuit: Circuit, plan: StagePlan, unit: tuple[str, ...],
 
 
 def _unit_netlist(circuit: Circuit, stages: list[Stage], done: Mapping[str, StageResult], corners: Corners,
-                  forms: Mapping[str, SweptForm]) -> tuple[Netlist, list[_Input], list[str], _Sources, tuple[str, ...]]:
+                  forms: Mapping[str, SweptForm], cache: dict | None = None,
+                  ) -> tuple[Netlist, list[_Input], list[str], _Sources, tuple[str, ...]]:
     """The local circuit of ``stages``: their op-amps and passives, a source on every input, holding elements
     and loads; with its inputs, notes, what each source stands for, and its thermistors (InputError if it
     cannot be built)."""
@@ -282,7 +332,7 @@ def _unit_netlist(circuit: Circuit, stages: list[Stage], done: Mapping[str, Stag
     legs = {r for dv in dividers.values() for r in dv.legs}
     nets = set().union(*(set(s.nets) for s in stages))
     inputs, extra, notes, sources = _collect_inputs(circuit, stages, dividers, done, corners, forms)
-    extra += _holding_elements(circuit, stages, nets, {i.source.net for i in inputs}, corners, forms, sources)
+    extra += _holding_elements(circuit, stages, nets, {i.source.net for i in inputs}, corners, forms, sources, cache)
     extra += [Resistor(f"{net}#leak", _node(circuit, net), GROUND, LEAK_RESISTANCE)
               for net in sorted(nets) if net not in circuit.fixed and not corners.dc_path(net)]
     d = circuit.loaded.design

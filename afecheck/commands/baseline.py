@@ -25,7 +25,7 @@ def run(args: argparse.Namespace, stdout: TextIO, stderr: TextIO) -> int:
         check_outputs([args.output], input_paths(args))  # the inputs named on the command line, before the long part
         report = review_files(args.files, **review_options(args))
     recorded = [e.finding for e in report.entries() if e.status == "open"]
-    write_outputs([(args.output, render_baseline(recorded))], reads)
+    write_outputs([(args.output, render_baseline(recorded, [(d.name, d.file) for d in report.designs]))], reads)
     waived = sum(1 for e in report.entries() if e.status == "waived")
     print(f"afecheck: recorded {len(recorded)} findings from {len(report.designs)} designs in {args.output}"
           + (f" ({waived} waived findings left out)" if waived else ""), file=stdout)

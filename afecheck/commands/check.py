@@ -97,6 +97,8 @@ def add_arguments(p: argparse.ArgumentParser) -> None:
                    help="write the preceding --format to PATH (atomically) instead of standard output")
     p.add_argument("--baseline", metavar="FILE",
                    help="baseline from `afecheck baseline`: only findings not in it fail the gate")
+    p.add_argument("--baseline-any-design", action="store_true",
+                   help="use the --baseline even though it was recorded for other designs (a design renamed or moved)")
     p.add_argument("--only-designs", action="store_true",
                    help="skip files that are not afecheck designs (no top-level 'afecheck' key), e.g. in a pre-commit"
                    " hook that passes every YAML file")
@@ -185,9 +187,12 @@ def run(args: argparse.Namespace, stdout: TextIO, stderr: TextIO) -> int:
                 return 0
         jobs = args.jobs or os.cpu_count() or 1
         with progress_line(len(args.files), stderr, quiet=args.quiet) as done:
-            report = review_files(args.files, fail_on=args.fail_on, baseline=args.baseline, detail=detail,
+            report = review_files(args.files, fail_on=args.fail_on, baseline=args.baseline,
+                                  baseline_any_design=args.baseline_any_design, detail=detail,
                                   on_note=lambda note: print(f"note: {note}", file=stderr), jobs=jobs,
                                   on_done=done, **review_options(args))
+    for note in report.notes:
+        print(f"afecheck: note: {note}", file=stderr)
     rendered = [(path, render(report, str(fmt), color=path is None and use_color(args.color, stdout)))
                 for fmt, path in plan]
     write_outputs([(path, text) for path, text in rendered if path is not None], reads)

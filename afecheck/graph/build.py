@@ -51,6 +51,24 @@ class Circuit:
                 g.add_edge(("comp", ref), ("net", net), pin=pin)
         return g
 
+    @cached_property
+    def memo(self) -> dict:
+        """Answers of whole-circuit queries, computed once (see graph/queries.py); the circuit never changes."""
+        return {}
+
+    def pins_of_kinds(self, net: str, kinds: frozenset[str]) -> tuple[tuple[str, str], ...]:
+        """The (ref, pin) on ``net`` whose component kind is in ``kinds``; the index is built once per ``kinds``,
+        so a walk through passives never scans the hundreds of op-amp pins a shared net may carry."""
+        index = self.memo.get(("pins", kinds))
+        if index is None:
+            index = {}
+            for n, pins in self.net_pins.items():
+                chosen = tuple(rp for rp in pins if self.kinds[rp[0]] in kinds)
+                if chosen:
+                    index[n] = chosen
+            self.memo[("pins", kinds)] = index
+        return index.get(net, ())
+
     @property
     def opamps(self) -> tuple[str, ...]:
         """Reference designators of every op-amp, in file order."""

@@ -26,17 +26,39 @@ def _is_anchor(circuit: Circuit, net: str) -> bool:
     return net in circuit.fixed or net in circuit.opamp_outputs or net in circuit.signal_nets
 
 
+_DC_KINDS = CONDUCTIVE_KINDS | {"vsource", "signal_source"}
+
+
 def has_dc_path(circuit: Circuit, net: str) -> bool:
     """True if ``net`` reaches a defined voltage (ground, rail, source, signal, op-amp output) with capacitors open.
 
     Resistors, thermistors, voltage sources and signal sources conduct; capacitors do not (RULES-REFERENCE R5a).
+    Answered from one walk out of every anchor at once, made on the first question, so n questions cost O(n).
     """
-    return dc_path_to_anchor(circuit, net) is not None
+    return net in dc_anchored_nets(circuit)
+
+
+def dc_anchored_nets(circuit: Circuit) -> frozenset[str]:
+    """Every net joined to a defined-voltage net by DC-conducting parts (the nets that do not float)."""
+    held = circuit.memo.get("dc-anchored")
+    if held is not None:
+        return held
+    seen = {*circuit.fixed, *circuit.opamp_outputs, *circuit.signal_nets}
+    queue = deque(seen)
+    while queue:
+        n = queue.popleft()
+        for ref, _pin in circuit.pins_of_kinds(n, _DC_KINDS):
+            for other in circuit.pins[ref].values():
+                if other not in seen:
+                    seen.add(other)
+                    queue.append(other)
+    circuit.memo["dc-anchored"] = result = frozenset(seen)
+    return result
 
 
 def dc_path_to_anchor(circuit: Circuit, net: str) -> tuple[str, ...] | None:
     """Nets from ``net`` to the nearest defined-voltage net along DC-conducting parts, or None if it floats."""
-    conductive = CONDUCTIVE_KINDS | {"vsource", "signal_source"}
+    conductive = _DC_KINDS
     prev: dict[str, str | None] = {net: None}
     queue = deque([net])
     while queue:
@@ -63,14 +85,23 @@ class Region:
     nets: frozenset[str]
     refs: frozenset[str]
     boundary: frozenset[str]
+    truncated: bool = False
+    """True when the walk stopped at MAX_REGION_PARTS: the region is incomplete and must not be analysed."""
+
+
+MAX_REGION_PARTS = 100
+"""Most passives one stage's region may gather; a stage wired into a network shared by more is not analysed stage
+by stage (each such walk would cost O(n), and n stages O(n²))."""
 
 
 def passive_region(
-    circuit: Circuit, starts: Iterable[str], stop: Callable[[str], bool], kinds: frozenset[str] = PASSIVE_KINDS
+    circuit: Circuit, starts: Iterable[str], stop: Callable[[str], bool], kinds: frozenset[str] = PASSIVE_KINDS,
+    limit: int = MAX_REGION_PARTS,
 ) -> Region:
     """Walk from ``starts`` through parts of ``kinds`` (resistors, capacitors, NTCs) until ``stop(net)`` is true.
 
-    A start net is always expanded; a stop net is recorded in ``boundary`` and not crossed.
+    A start net is always expanded; a stop net is recorded in ``boundary`` and not crossed. The walk ends early,
+    with ``truncated`` set, once it holds more than ``limit`` parts.
     """
     starts = tuple(starts)
     nets: set[str] = set(starts)
@@ -79,10 +110,12 @@ def passive_region(
     queue = deque(starts)
     while queue:
         n = queue.popleft()
-        for ref, _pin in circuit.net_pins.get(n, ()):
-            if circuit.kinds[ref] not in kinds or ref in refs:
+        for ref, _pin in circuit.pins_of_kinds(n, kinds):
+            if ref in refs:
                 continue
             refs.add(ref)
+            if len(refs) > limit:
+                return Region(frozenset(nets), frozenset(refs), frozenset(boundary), truncated=True)
             for other in circuit.pins[ref].values():
                 if other in nets or other in boundary:
                     continue

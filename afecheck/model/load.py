@@ -7,19 +7,18 @@ all of them in one round. The input files are only read, never written.
 from __future__ import annotations
 
 import difflib
-import re
 from collections.abc import Callable
 from pathlib import Path
 
 from afecheck.errors import InputError, Problem
 from afecheck.model.loaded import LoadedDesign, PathKey, path_text
+from afecheck.model.paths import PathRefusedError, referenced_file
 from afecheck.model.reader import Document, read_file
 from afecheck.model.schema import PIN_NAMES, Design, Intent
 from afecheck.model.validate import validate
 from afecheck.parts.library import PartEntry, PartSet, builtin_entries, combine, read_library
 
 INTENT_SECTIONS = ("signals", "loads", "budgets")
-_WINDOWS_DRIVE = re.compile(r"^[A-Za-z]:")
 
 
 def load_design(
@@ -132,29 +131,17 @@ def _collect(problems: list[Problem], fn: Callable, *args: object) -> object:
 def _same(a: Path, b: Path) -> bool:
     try:
         return a.resolve() == b.resolve()
-    except OSError:
+    except (OSError, ValueError, RuntimeError):
         return False
 
 
 def _inside(folder: Path, text: str, doc: Document, key: PathKey, problems: list[Problem]) -> Path | None:
-    """``folder/text`` if it is a file inside the design file's folder; else a problem at ``key``."""
-    if Path(text).is_absolute() or text.startswith(("/", "\\")) or _WINDOWS_DRIVE.match(text):
-        problems.append(doc.problem(key, f"absolute path {text!r} refused: give a path relative to the design "
-                                         "file's folder"))
-        return None
-    target = folder / text
+    """``folder/text`` if it is a regular file inside the design file's folder; else a problem at ``key``."""
     try:
-        escaped = not target.resolve().is_relative_to(folder.resolve())
-    except (OSError, RuntimeError):
-        escaped = True
-    if escaped:
-        problems.append(doc.problem(key, f"path {text!r} leads outside the design file's folder; referenced files "
-                                         "must lie in that folder or below it"))
+        return referenced_file(folder, text, "the design file's folder")
+    except PathRefusedError as exc:
+        problems.append(doc.problem(key, str(exc)))
         return None
-    if not target.is_file():
-        problems.append(doc.problem(key, f"no such file {str(target)!r}"))
-        return None
-    return target
 
 
 def _read_intent(path: Path) -> tuple[Document, Intent]:

@@ -9,8 +9,12 @@ Every problem is an :class:`~afecheck.errors.InputError` carrying ``file:line:co
 from __future__ import annotations
 
 import bisect
+import errno
 import json
+import math
+import os
 import re
+import stat
 from dataclasses import dataclass, field
 from itertools import accumulate
 from pathlib import Path
@@ -32,6 +36,8 @@ MAX_ALIAS_NODES = 10_000
 """Most values that alias uses may add in total once expanded (defeats "billion laughs")."""
 MAX_DEPTH = 64
 """Deepest nesting of mappings and sequences."""
+MAX_DIGITS = 400
+"""Longest integer read, in characters: far beyond any float, well inside Python's 4300-digit conversion limit."""
 
 _YAML = "tag:yaml.org,2002:"
 _SCALAR_TAGS = {f"{_YAML}{t}" for t in ("str", "int", "float", "bool", "null")}
@@ -72,6 +78,15 @@ _OCTAL_LOOKING = re.compile(r"^[-+]?0[0-9_]+$")
 _DECIMAL = "decimal"
 
 
+def _not_finite(text: str) -> str:
+    shown = text if len(text) <= 40 else text[:37] + "..."
+    return f"{shown!r} is not a finite number (too large for a float, infinite or not a number); give a real value"
+
+
+def _too_many_digits(count: int) -> str:
+    return f"an integer written with {count} characters; at most {MAX_DIGITS} are read (no value needs more)"
+
+
 def _short(tag: str) -> str:
     """A tag as written in YAML shorthand (``!!python/object``)."""
     return "!!" + tag[len(_YAML):] if tag.startswith(_YAML) else tag
@@ -99,6 +114,8 @@ class Document:
     data: Any
     keys: dict[PathKey, Position]
     values: dict[PathKey, Position]
+    texts: dict[PathKey, str] = field(default_factory=dict)
+    """Source text of each YAML scalar value, for fields whose spelling matters (``0123`` is not 123)."""
     origins: dict[PathKey, str] = field(default_factory=dict)
     """File of a key path that lies in another file than ``file`` (a netlist's includes, its map file)."""
     defaults: frozenset[PathKey] = frozenset()
@@ -135,21 +152,58 @@ class Document:
 
 
 def read_file(path: Path, display: str | None = None) -> Document:
-    """Read ``path`` as JSON (``.json``) or YAML (anything else) within the limits; raise InputError."""
+    """Read ``path`` as JSON (``.json``) or YAML (anything else) within the limits; raise InputError.
+
+    Only regular files are read: the type is checked with ``os.stat`` before opening and again on the open
+    descriptor (opened non-blocking, so a FIFO swapped in meanwhile cannot hang the run), and at most
+    MAX_FILE_BYTES + 1 bytes are read, so a device that never ends is never read for ever.
+    """
     name = display or str(path)
-    try:
-        size = path.stat().st_size
-        if not path.is_file():
-            raise InputError([Problem(name, None, None, "", "not a regular file")])
-        if size > MAX_FILE_BYTES:
-            raise InputError([Problem(name, 1, None, "", f"file is {size} bytes; the limit is {MAX_FILE_BYTES}")])
-        with path.open("rb") as stream:
-            raw = stream.read(MAX_FILE_BYTES + 1)  # the file may have grown since stat()
-    except FileNotFoundError:
-        raise InputError([Problem(name, None, None, "", "no such file")]) from None
-    except OSError as exc:
-        raise InputError([Problem(name, None, None, "", f"cannot read the file: {exc.strerror or exc}")]) from None
+    raw = read_capped(path, name)
     return read_bytes(raw, name, as_json=path.suffix.lower() == ".json")
+
+
+def read_capped(path: Path, name: str) -> bytes:
+    """The bytes of the regular file ``path`` (at most MAX_FILE_BYTES); every refusal an InputError at ``name``."""
+    def refuse(message: str, line: int | None = None) -> InputError:
+        return InputError([Problem(name, line, None, "", message)])
+
+    try:
+        kind = _file_kind(os.stat(path).st_mode)
+        if kind:
+            raise refuse(f"{kind}, not a regular file: only regular files are read")
+        fd = os.open(path, os.O_RDONLY | getattr(os, "O_NONBLOCK", 0) | getattr(os, "O_NOCTTY", 0))
+        with os.fdopen(fd, "rb") as stream:
+            info = os.fstat(stream.fileno())
+            kind = _file_kind(info.st_mode)
+            if kind:
+                raise refuse(f"{kind}, not a regular file: only regular files are read")
+            if info.st_size > MAX_FILE_BYTES:
+                raise refuse(f"file is {info.st_size} bytes; the limit is {MAX_FILE_BYTES}", 1)
+            raw = stream.read(MAX_FILE_BYTES + 1)  # the file may have grown since fstat()
+    except FileNotFoundError:
+        raise refuse("no such file") from None
+    except ValueError:
+        raise refuse("the file name holds a NUL byte") from None
+    except OSError as exc:
+        if exc.errno == errno.ENAMETOOLONG:
+            raise refuse("the file name is too long for the file system") from None
+        raise refuse(f"cannot read the file: {exc.strerror or exc}") from None
+    if len(raw) > MAX_FILE_BYTES:
+        raise refuse(f"file is over {MAX_FILE_BYTES} bytes; the limit is {MAX_FILE_BYTES}", 1)
+    return raw
+
+
+def _file_kind(mode: int) -> str:
+    """'' for a regular file, else what it is, in words."""
+    if stat.S_ISREG(mode):
+        return ""
+    for test, word in ((stat.S_ISDIR, "a folder"), (stat.S_ISFIFO, "a FIFO (named pipe)"),
+                       (stat.S_ISCHR, "a character device"), (stat.S_ISBLK, "a block device"),
+                       (stat.S_ISSOCK, "a socket")):
+        if test(mode):
+            return word
+    return "a special file"
 
 
 def read_bytes(raw: bytes, file: str, as_json: bool = False) -> Document:
@@ -169,7 +223,41 @@ def read_bytes(raw: bytes, file: str, as_json: bool = False) -> Document:
     text = text.removeprefix("\ufeff")
     if not text.strip() or (not as_json and _only_comments(text)):
         raise InputError([Problem(file, 1, None, "", "empty file: expected a mapping with the format version")])
-    return _read_json(text, file) if as_json else _read_yaml(text, file)
+    doc = _read_json(text, file) if as_json else _read_yaml(text, file)
+    _refuse_lone_surrogates(doc)
+    return doc
+
+
+def _refuse_lone_surrogates(doc: Document) -> None:
+    """A ``\\ud800`` escape read alone is no character: no report could be written with it, so refuse it here."""
+    problems: list[Problem] = []
+    stack: list[tuple[PathKey, Any]] = [((), doc.data)]
+    while stack:
+        path, node = stack.pop()
+        if isinstance(node, dict):
+            for k, v in node.items():
+                sub = path + (str(k),)
+                if isinstance(k, str) and _unencodable(k):
+                    problems.append(doc.problem(sub, "the key holds a lone surrogate escape (\\ud800-\\udfff), "
+                                                     "which is not a character"))
+                stack.append((sub, v))
+        elif isinstance(node, list):
+            stack.extend((path + (i,), v) for i, v in enumerate(node))
+        elif isinstance(node, str) and _unencodable(node):
+            problems.append(doc.problem(path, "the text holds a lone surrogate escape (\\ud800-\\udfff), which is "
+                                              "not a character"))
+    if problems:
+        raise InputError(problems)
+
+
+def _unencodable(text: str) -> bool:
+    if text.isascii():
+        return False
+    try:
+        text.encode("utf-8")
+    except UnicodeEncodeError:
+        return True
+    return False
 
 
 def _only_comments(text: str) -> bool:
@@ -234,6 +322,7 @@ class _YamlBuilder:
         self.file = file
         self.keys: dict[PathKey, Position] = {}
         self.values: dict[PathKey, Position] = {}
+        self.texts: dict[PathKey, str] = {}
         self.problems: list[Problem] = []
         self.anchors: dict[str, tuple[Any, int, list[tuple[bool, PathKey, Position]]]] = {}
         self.recording: list[_Frame] = []
@@ -323,6 +412,9 @@ class _YamlBuilder:
             self.problems.append(_mark(self.file, event.start_mark,
                                        "merge keys ('<<') are not supported; write the keys out"))
         value: Any = event.value
+        if tag in (_DECIMAL, f"{_YAML}int") and len(event.value) > MAX_DIGITS:
+            self.problems.append(_mark(self.file, event.start_mark, _too_many_digits(len(event.value))))
+            tag, value = f"{_YAML}null", None
         if tag == _DECIMAL:
             value = int(event.value.replace("_", ""), 10)
         elif tag in _BUILD:
@@ -331,8 +423,12 @@ class _YamlBuilder:
             except (ValueError, yaml.YAMLError):
                 self.problems.append(_mark(self.file, event.start_mark, f"cannot read {event.value!r} as {tag[18:]}"))
                 value = None
-        if isinstance(value, float) and value != value:
-            value = event.value
+        if isinstance(value, float) and not math.isfinite(value):
+            self.problems.append(_mark(self.file, event.start_mark, _not_finite(event.value)))
+            value = None
+        path = self._path_for_child(event.start_mark)
+        if path is not None:
+            self.texts[path] = event.value
         self._node(value, event.anchor, event.start_mark, 1)
 
     def _node(self, value: Any, anchor: str | None, mark: Any, size: int) -> None:
@@ -449,12 +545,34 @@ def _read_yaml(text: str, file: str) -> Document:
             dispose()
     if builder.problems:
         raise InputError(builder.problems)
-    return Document(file, builder.root, builder.keys, builder.values)
+    return Document(file, builder.root, builder.keys, builder.values, builder.texts)
 
 
 _JSON_TOKEN = re.compile(r'"(?:[^"\\]|\\.)*"(?:\s*:)?|[{}\[\]]|[^\s{}\[\]:,"]+')
 _NEWLINE = re.compile(r"\n")
 _JSON_CONSTANT = re.compile(r"(?<![\"\w])(?:-?Infinity|NaN)(?![\"\w])")
+
+
+class _BadNumberError(ValueError):
+    """A JSON number afecheck will not read: its text and why."""
+
+    def __init__(self, text: str, message: str):
+        super().__init__(message)
+        self.text = text
+        self.message = message
+
+
+def _json_int(text: str) -> int:
+    if len(text) > MAX_DIGITS:
+        raise _BadNumberError(text, _too_many_digits(len(text)))
+    return int(text)
+
+
+def _json_float(text: str) -> float:
+    value = float(text)
+    if not math.isfinite(value):
+        raise _BadNumberError(text, _not_finite(text))
+    return value
 
 
 def _refuse_constant(name: str) -> None:
@@ -464,7 +582,12 @@ def _refuse_constant(name: str) -> None:
 def _read_json(text: str, file: str) -> Document:
     """Parse strictly (no NaN/Infinity), then walk the text once more to record positions and duplicates."""
     try:
-        data = json.loads(text, parse_constant=_refuse_constant)
+        data = json.loads(text, parse_constant=_refuse_constant, parse_int=_json_int, parse_float=_json_float)
+    except _BadNumberError as exc:
+        at = text.find(exc.text)
+        line = text.count("\n", 0, at) + 1 if at >= 0 else 1
+        column = at - text.rfind("\n", 0, at) if at >= 0 else None
+        raise InputError([Problem(file, line, column, "", exc.message)]) from None
     except json.JSONDecodeError as exc:
         raise InputError([Problem(file, exc.lineno, exc.colno, "", f"not valid JSON: {exc.msg}")]) from None
     except RecursionError:

@@ -110,7 +110,7 @@ def _scaled(number: str, exponent: int, text: str, unit: str) -> float:
     """``number`` × 10**``exponent`` computed in decimal, as the nearest float; refuse inf and nan."""
     try:
         value = float(Decimal(number).scaleb(exponent))
-    except (InvalidOperation, ValueError):
+    except (InvalidOperation, ValueError, ArithmeticError):  # decimal.Overflow on an exponent like e45678901234
         raise UnitError(f"read {text!r}; expected {_accepted(unit)}") from None
     if not math.isfinite(value):
         raise UnitError(f"read {text!r}, which is not a finite number; expected {_accepted(unit)}")
@@ -234,8 +234,10 @@ def parse_tolerance(value: object) -> float:
     """Read a tolerance (``1%``, ``±0.1 %``, ``50 ppm``, ``0.01``, IEC 60062 letter ``F``) as a fraction."""
     if isinstance(value, bool) or value is None:
         raise UnitError(f"read {value!r}; expected {_TOLERANCE_HELP}")
-    if isinstance(value, (int, float)):
-        frac = float(value)
+    if isinstance(value, int):
+        frac = _scaled(str(value), 0, repr(value), "1")
+    elif isinstance(value, float):
+        frac = value
     elif isinstance(value, str):
         text = value.strip()
         if text in TOLERANCE_LETTERS:
@@ -262,8 +264,10 @@ def parse_tolerance(value: object) -> float:
 
 def parse_temperature_c(value: object) -> float:
     """Read a temperature in °C (``25``, ``25 C``, ``25 °C``, ``298.15 K``)."""
-    if isinstance(value, (int, float)) and not isinstance(value, bool):
-        t = float(value)
+    if isinstance(value, int) and not isinstance(value, bool):
+        t = _scaled(str(value), 0, repr(value), "1")
+    elif isinstance(value, float):
+        t = value
     elif isinstance(value, str):
         text = value.strip()
         m = _NUMBER_RE.match(text)

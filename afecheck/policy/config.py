@@ -19,12 +19,13 @@ from pathlib import Path
 from typing import Any
 
 from afecheck.engine.finding import Severity
+from afecheck.model.paths import PathRefusedError, referenced_file, same_file
 from afecheck.policy._yaml import Problems
 from afecheck.policy.rulesets import (
     Catalogue,
     RuleSet,
     RuleSetting,
-    find_ruleset,
+    builtin_ruleset_names,
     load_ruleset,
     merge,
     read_policy_file,
@@ -61,7 +62,10 @@ class Policy:
 
 def discover_config(design: str | Path) -> Path | None:
     """The nearest ``.afecheck.yaml`` in the design's folder or its parents, stopping at a repository root."""
-    folder = Path(design).resolve().parent
+    try:
+        folder = Path(design).resolve().parent
+    except (OSError, ValueError, RuntimeError):
+        return None  # the loader reports the design's own name
     for d in (folder, *folder.parents):
         candidate = d / CONFIG_NAME
         if candidate.is_file():
@@ -72,7 +76,11 @@ def discover_config(design: str | Path) -> Path | None:
 
 
 def resolve_policy(catalogue: Catalogue, config: str | Path | None = None, ruleset: str | None = None) -> Policy:
-    """Rule set (``ruleset`` argument, else the config's, else ``default``) with the config's settings on top."""
+    """Rule set (``ruleset`` argument, else the config's, else ``default``) with the config's settings on top.
+
+    Paths the config names (waivers, a rule-set file) must lie in the config's folder, the project root it
+    stands for; a ``ruleset`` given here (from the command line) is the user's own and is read as given.
+    """
     cfg_settings: dict[str, RuleSetting] = {}
     cfg_promote: dict[Severity, Severity] = {}
     cfg_fail_on: str | None = None
@@ -81,20 +89,36 @@ def resolve_policy(catalogue: Catalogue, config: str | Path | None = None, rules
     set_name = ruleset
     if config is not None:
         cpath = Path(config)
-        base_dir = cpath.parent
         data, problems, cfg_settings, cfg_promote, cfg_fail_on = read_policy_file(
             cpath, CONFIG_KEY, CONFIG_KEYS, "a project config", catalogue)
         waivers = _waiver_paths(data.get("waivers"), cpath.parent, problems)
         if set_name is None and data.get("ruleset") is not None:
-            set_name = str(data["ruleset"])
-            if find_ruleset(set_name, base_dir)[0] is None:
-                problems.add(("ruleset",), f"unknown rule set {set_name!r}; give a shipped set name or a .yaml path")
+            set_name, base_dir = _config_ruleset(data["ruleset"], cpath.parent, problems)
         problems.raise_if_any()
     rs: RuleSet = load_ruleset(set_name or DEFAULT_RULESET, catalogue, base_dir)
     settings = merge(rs.settings, cfg_settings)
     promote = {**rs.promote, **cfg_promote}
     return _policy(catalogue, rs, settings, promote, cfg_fail_on or rs.fail_on or "error", waivers,
                    None if config is None else str(config))
+
+
+def _config_ruleset(raw: object, folder: Path, problems: Problems) -> tuple[str | None, Path | None]:
+    """(name, folder to read it from) of the config's ``ruleset:``: a shipped set, or a file in the config's folder."""
+    if not isinstance(raw, str) or not raw.strip():
+        problems.add(("ruleset",), "expected the name of a shipped rule set or a rule-set file name")
+        return None, None
+    if raw in builtin_ruleset_names():
+        return raw, None
+    if not raw.endswith((".yaml", ".yml", ".json")):
+        problems.add(("ruleset",), f"unknown rule set {raw!r}; give a shipped set name "
+                                   f"({', '.join(builtin_ruleset_names())}) or a .yaml path")
+        return None, None
+    try:
+        referenced_file(folder, raw, "the config's folder")
+    except PathRefusedError as exc:
+        problems.add(("ruleset",), str(exc))
+        return None, None
+    return raw, folder
 
 
 def _waiver_paths(raw: object, base: Path, problems: Problems) -> tuple[str, ...]:
@@ -104,12 +128,17 @@ def _waiver_paths(raw: object, base: Path, problems: Problems) -> tuple[str, ...
     if not isinstance(items, list) or not all(isinstance(i, str) for i in items):
         problems.add(("waivers",), "expected a file name or a list of file names")
         return ()
-    out = []
+    out: list[str] = []
     for i, name in enumerate(items):
-        path = base / name
-        if not path.is_file():
-            where = ("waivers",) if isinstance(raw, str) else ("waivers", i)
-            problems.add(where, f"waiver file {str(path)!r} not found")
+        where = ("waivers",) if isinstance(raw, str) else ("waivers", i)
+        try:
+            path = referenced_file(base, name, "the config's folder")
+        except PathRefusedError as exc:
+            problems.add(where, str(exc))
+            continue
+        if any(same_file(path, Path(o)) for o in out):
+            problems.add(where, f"waiver file {name!r} is listed twice; list each file once")
+            continue
         out.append(str(path))
     return tuple(out)
 

@@ -10,6 +10,7 @@ The same ``rules:`` grammar is used by rule-set files and by the project config:
 
 from __future__ import annotations
 
+import math
 import re
 from collections.abc import Mapping, Sequence
 from dataclasses import dataclass, field
@@ -19,8 +20,9 @@ from pathlib import Path
 from afecheck.engine.aliases import current_id
 from afecheck.engine.finding import Severity
 from afecheck.engine.rule import RuleMeta
+from afecheck.model.paths import PathRefusedError, referenced_file, same_file
 from afecheck.model.units import UNITS, UnitError, parse_quantity
-from afecheck.policy._yaml import Problems, load_yaml
+from afecheck.policy._yaml import Problems, load_document
 
 RULESET_KEY = "afecheck-ruleset"
 RULESET_KEYS = {RULESET_KEY, "description", "extends", "fail-on", "promote", "rules"}
@@ -80,22 +82,44 @@ class Catalogue:
                      for old, new in sorted(self.renamed_used.items()))
 
 
+_SIGNED_UNITS = ("dB", "deg")
+"""Thresholds that may be below zero (a gain margin in dB, a phase in degrees); every other one is a size."""
+
+
 def parse_param_value(value: object, unit: str) -> float:
-    """Read a threshold given in a config file as SI float; units via parse_quantity, plus deg, dB and %."""
+    """Read a threshold given in a config file as SI float; units via parse_quantity, plus deg, dB and %.
+
+    The result is finite, and not negative unless the unit is dB or degrees: 1e400 (infinite once read),
+    a number of 300 digits or a negative share are refused here, never compared.
+    """
+    result = _param_number(value, unit)
+    if not math.isfinite(result):
+        raise UnitError(f"read {_shown(value)}, which is not a finite number")
+    if result < 0 and unit not in _SIGNED_UNITS:
+        raise UnitError(f"read {_shown(value)}; a threshold in {unit} cannot be negative")
+    return result
+
+
+def _shown(value: object) -> str:
+    text = repr(value) if not isinstance(value, int) or abs(value) < 10**40 else f"a {len(str(value))}-digit number"
+    return text if len(text) <= 60 else text[:57] + "..."
+
+
+def _param_number(value: object, unit: str) -> float:
     if unit in _SUFFIXES:
         if isinstance(value, bool) or not isinstance(value, (int, float, str)):
-            raise UnitError(f"read {value!r}; expected a number in {unit}")
+            raise UnitError(f"read {_shown(value)}; expected a number in {unit}")
         if isinstance(value, (int, float)):
-            return float(value)
+            return parse_quantity(value, "1")
         m = _NUMBER.match(value)
         if not m or m.group(2) not in _SUFFIXES[unit]:
             accepted = ", ".join(repr(s) for s in _SUFFIXES[unit] if s)
-            raise UnitError(f"read {value!r}; expected a number with unit {accepted}")
-        return float(m.group(1)) * _SUFFIXES[unit][m.group(2)]
+            raise UnitError(f"read {_shown(value)}; expected a number with unit {accepted}")
+        return parse_quantity(m.group(1), "1") * _SUFFIXES[unit][m.group(2)]
     if unit in ("1", "") and isinstance(value, str):
         m = _NUMBER.match(value)
         if m and m.group(2) in ("%", "ppm"):
-            return float(m.group(1)) * _SUFFIXES["%"][m.group(2)]
+            return parse_quantity(m.group(1), "1") * _SUFFIXES["%"][m.group(2)]
     return parse_quantity(value, unit if unit in UNITS else "1")
 
 
@@ -206,16 +230,22 @@ def merge(base: Mapping[str, RuleSetting], top: Mapping[str, RuleSetting]) -> di
 FAIL_ON_VALUES = ("error", "warning", "info", "never")
 
 
+def _is_version_one(value: object) -> bool:
+    """The format version 1 as an integer (``true`` and ``1.0`` are not versions)."""
+    return type(value) is int and value == 1
+
+
 def read_policy_file(path: Path, version_key: str, allowed: set[str], what: str, catalogue: Catalogue
                      ) -> tuple[dict, Problems, dict[str, RuleSetting], dict[Severity, Severity], str | None]:
     """The part rule sets and project configs share: version key, known keys, rules, promote, fail-on.
 
     Returns the raw data and the problems collected so far (the caller adds its own keys' problems).
     """
-    data, positions = load_yaml(path)
-    problems = Problems(str(path), positions)
-    if not isinstance(data, dict) or data.get(version_key) != 1:
-        problems.add((), f"{what} starts with '{version_key}: 1'")
+    doc = load_document(path)
+    data = doc.data
+    problems = Problems(doc)
+    if not isinstance(data, dict) or not _is_version_one(data.get(version_key)):
+        problems.add((), f"{what} is a mapping that starts with '{version_key}: 1'")
         problems.raise_if_any()
     for k in data:
         if k not in allowed:
@@ -235,33 +265,57 @@ def builtin_ruleset_names() -> tuple[str, ...]:
 
 
 def find_ruleset(name: str, base_dir: Path | None) -> tuple[Path | None, str]:
-    """(file, label) of a shipped set by name or a set file by path; (None, name) when there is no such set."""
+    """(file, label) of a shipped set by name or a set file by path; (None, name) when there is no such set.
+
+    With ``base_dir`` (a path written in a config or rule-set file) the file must lie inside that folder;
+    a file outside it raises PathRefusedError.
+    """
     if name in builtin_ruleset_names():
         ref = resources.files("afecheck._catalogue").joinpath("sets", f"{name}.yaml")
         return Path(str(ref)), name
-    candidate = Path(name) if base_dir is None else base_dir / name
-    if name.endswith((".yaml", ".yml", ".json")) and candidate.is_file():
-        return candidate, candidate.stem
-    return None, name
+    if not name.endswith((".yaml", ".yml", ".json")):
+        return None, name
+    if base_dir is not None:
+        found = referenced_file(base_dir, name, f"the folder of the file that names it ({base_dir})")
+        return found, found.stem
+    candidate = Path(name)
+    try:
+        return (candidate, candidate.stem) if candidate.is_file() else (None, name)
+    except (OSError, ValueError):
+        return None, name
 
 
 def load_ruleset(name: str, catalogue: Catalogue, base_dir: Path | None = None, _chain: tuple = ()) -> RuleSet:
-    """A shipped rule set by name, or a rule-set file by path (relative to ``base_dir``), with ``extends`` resolved."""
+    """A shipped rule set by name, or a rule-set file by path (relative to ``base_dir`` and confined to it),
+    with ``extends`` resolved (each parent confined to the folder of the set that extends it)."""
     from afecheck.errors import ConfigError, Problem
 
-    path, label = find_ruleset(name, base_dir)
+    where = _chain[-1] if _chain else str(base_dir or ".")
+    key = "extends" if _chain else "ruleset"
+    try:
+        path, label = find_ruleset(name, base_dir)
+    except PathRefusedError as exc:
+        raise ConfigError([Problem(where, None, None, key, str(exc))]) from None
     if path is None:
         known = ", ".join(builtin_ruleset_names())
         message = f"unknown rule set {name!r}; shipped sets: {known}; or give a path to a .yaml file"
-        raise ConfigError([Problem(str(base_dir or "."), None, None, "ruleset", message)])
-    if str(path) in _chain:
+        raise ConfigError([Problem(where, None, None, key, message)])
+    if any(same_file(path, Path(c)) for c in _chain):
         raise ConfigError([Problem(str(path), None, None, "extends", "rule sets extend each other in a loop")])
     data, problems, settings, promote, fail_on = read_policy_file(path, RULESET_KEY, RULESET_KEYS, "a rule set",
                                                                   catalogue)
+    extends = data.get("extends")
+    if extends is not None and (not isinstance(extends, str) or not extends.strip()):
+        problems.add(("extends",), "expected the name of a shipped rule set or a rule-set file name")
     problems.raise_if_any()
     parent = None
-    if data.get("extends"):
-        parent = load_ruleset(str(data["extends"]), catalogue, path.parent, (*_chain, str(path)))
+    if extends:
+        try:
+            parent = load_ruleset(extends, catalogue, path.parent, (*_chain, str(path)))
+        except ConfigError as exc:
+            line = problems.line(("extends",))
+            raise ConfigError([Problem(p.file, p.line or line, p.column, p.path, p.message)
+                               if p.file == str(path) else p for p in exc.problems]) from None
         settings = merge(parent.settings, settings)
         promote = {**parent.promote, **promote}
         fail_on = fail_on if fail_on is not None else parent.fail_on

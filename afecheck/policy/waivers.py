@@ -15,7 +15,8 @@ import datetime as dt
 import re
 from pathlib import Path
 
-from afecheck.policy._yaml import Problems, load_yaml_scalars
+from afecheck.model.reader import Document
+from afecheck.policy._yaml import Problems, load_document
 from afecheck.policy.rulesets import Catalogue
 from afecheck.report.data import WaiverNote
 
@@ -24,25 +25,27 @@ ENTRY_KEYS = {"fingerprint", "rule", "justification", "accepted-by", "expires"}
 _FINGERPRINT = re.compile(r"^[0-9a-f]{16}$")
 
 
+_ISO_DATE = re.compile(r"^\d{4}-\d{2}-\d{2}$")
+
+
 def _date(value: object) -> str | None:
-    if isinstance(value, dt.datetime):
+    """An expiry date written ``YYYY-MM-DD`` as that text, else None. The reader never builds date objects
+    (YAML timestamps stay text), so a date is parsed here from its spelling alone."""
+    if not isinstance(value, str) or not _ISO_DATE.match(value.strip()):
         return None
-    if isinstance(value, dt.date):
-        return value.isoformat()
-    if isinstance(value, str):
-        try:
-            return dt.date.fromisoformat(value.strip()).isoformat()
-        except ValueError:
-            return None
-    return None
+    try:
+        return dt.date.fromisoformat(value.strip()).isoformat()
+    except ValueError:
+        return None
 
 
 def load_waivers(path: str | Path, catalogue: Catalogue | None = None) -> tuple[WaiverNote, ...]:
     """Every waiver in ``path``; all problems (missing fields, bad dates, unknown rules) raised together."""
-    data, positions, scalars = load_yaml_scalars(path)
-    problems = Problems(str(path), positions)
-    if not isinstance(data, dict) or data.get(WAIVERS_KEY) != 1:
-        problems.add((), f"a waiver file starts with '{WAIVERS_KEY}: 1'")
+    doc = load_document(path)
+    data = doc.data
+    problems = Problems(doc)
+    if not isinstance(data, dict) or type(data.get(WAIVERS_KEY)) is not int or data.get(WAIVERS_KEY) != 1:
+        problems.add((), f"a waiver file is a mapping that starts with '{WAIVERS_KEY}: 1'")
         problems.raise_if_any()
     for k in data:
         if k not in (WAIVERS_KEY, "waivers"):
@@ -62,9 +65,10 @@ def load_waivers(path: str | Path, catalogue: Catalogue | None = None) -> tuple[
             if k not in ENTRY_KEYS:
                 problems.add((*where, k), f"unknown key {k!r}; expected one of {', '.join(sorted(ENTRY_KEYS))}")
                 ok = False
-        fp = scalars.get((*where, "fingerprint"), str(raw.get("fingerprint", ""))).strip().strip("'\"")
+        fp = _fingerprint_text(doc, (*where, "fingerprint"), raw.get("fingerprint"))
         if not _FINGERPRINT.match(fp):
-            problems.add((*where, "fingerprint"), f"read {fp!r}; expected the 16 hex digits shown in the report")
+            shown = fp if len(fp) <= 40 else fp[:37] + "..."
+            problems.add((*where, "fingerprint"), f"read {shown!r}; expected the 16 hex digits shown in the report")
             ok = False
         for k in ("justification", "accepted-by"):
             if not isinstance(raw.get(k), str) or not raw[k].strip():
@@ -74,10 +78,16 @@ def load_waivers(path: str | Path, catalogue: Catalogue | None = None) -> tuple[
         if raw.get("expires") is not None:
             expires = _date(raw["expires"])
             if expires is None:
-                problems.add((*where, "expires"), f"read {raw['expires']!r}; expected a date such as 2027-06-30")
+                shown = repr(raw["expires"])
+                shown = shown if len(shown) <= 40 else shown[:37] + "..."
+                problems.add((*where, "expires"), f"read {shown}; expected a date written YYYY-MM-DD such as "
+                             "2027-06-30")
                 ok = False
         rule = raw.get("rule")
-        if rule is not None and catalogue is not None:
+        if rule is not None and not isinstance(rule, str):
+            problems.add((*where, "rule"), "expected a rule id or slug")
+            ok = False
+        elif rule is not None and catalogue is not None:
             meta = catalogue.find(rule)
             if meta is None:
                 problems.add((*where, "rule"), f"unknown rule {rule!r}")
@@ -91,6 +101,14 @@ def load_waivers(path: str | Path, catalogue: Catalogue | None = None) -> tuple[
                                   line=problems.line(where)))
     problems.raise_if_any()
     return tuple(out)
+
+
+def _fingerprint_text(doc: Document, path: tuple, value: object) -> str:
+    """A fingerprint as written: the scalar's source text (``0123e456...`` must not become a number)."""
+    text = doc.texts.get(tuple(str(p) if not isinstance(p, int) else p for p in path))
+    if text is not None:
+        return text.strip()
+    return value.strip() if isinstance(value, str) else ""
 
 
 def is_expired(waiver: WaiverNote, today: dt.date) -> bool:

@@ -2,10 +2,29 @@
 
 from __future__ import annotations
 
+import re
 from collections.abc import Iterator
 
 from afecheck.engine.finding import Finding
 from afecheck.report.data import DesignResult, Entry, WaiverNote
+
+_BIDI = "\u061c\u200e\u200f\u202a\u202b\u202c\u202d\u202e\u2066\u2067\u2068\u2069"
+_HIDDEN = re.compile(f"[\\x00-\\x1f\\x7f-\\x9f{_BIDI}\\ufffe\\uffff\\ud800-\\udfff]")
+
+
+def _escape(m: re.Match[str]) -> str:
+    code = ord(m.group())
+    return f"\\x{code:02x}" if code < 0x100 else f"\\u{code:04x}"
+
+
+def visible(text: object) -> str:
+    """``text`` with every character that could act on a terminal or reorder what a reviewer reads shown as an
+    escape: C0 and C1 controls (ESC, newline, tab...), DEL, bidirectional overrides, lone surrogates and the
+    two non-characters XML forbids. ``ESC[2J`` prints as ``\\x1b[2J``; ordinary text is unchanged."""
+    text = str(text)
+    if text.isascii() and text.isprintable():
+        return text
+    return _HIDDEN.sub(_escape, text)
 
 
 def message(f: Finding) -> str:
@@ -72,3 +91,9 @@ def unused_text(w: WaiverNote) -> str:
     rule = f" ({w.rule})" if w.rule and w.fingerprint else ""
     what = "fingerprint" if w.fingerprint else "rule and names"
     return f"{w.file}:{w.line or 0}: waiver {w.label}{rule} matches no finding; remove it or fix its {what}"
+
+
+def policy_text(design: DesignResult) -> str:
+    """Which rule set and config judged ``design``, in the words every report uses."""
+    return f"rule set {visible(design.ruleset)}, " + (f"config {visible(design.config)}" if design.config
+                                                       else "no config file")

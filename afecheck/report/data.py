@@ -199,6 +199,7 @@ class Report:
     unused_waivers: tuple[WaiverNote, ...] = ()
     expired_waivers: tuple[WaiverNote, ...] = field(default=())
     notes: tuple[str, ...] = ()
+    """One-line notes for the person running the check (e.g. an old baseline format), printed on stderr."""
 
     def entries(self) -> tuple[Entry, ...]:
         return tuple(e for d in self.designs for e in d.entries)

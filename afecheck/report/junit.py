@@ -4,7 +4,7 @@ from __future__ import annotations
 
 import xml.etree.ElementTree as ET
 
-from afecheck.report._common import message, rule_label, where
+from afecheck.report._common import message, rule_label, visible, where
 from afecheck.report.cautions import cautions
 from afecheck.report.data import DesignResult, Entry, Report
 
@@ -16,7 +16,7 @@ def _finding_text(entry: Entry) -> str:
         lines.append(f"fix: {f.fix}")
     if entry.waiver is not None:
         lines.append(f"waived: {entry.waiver.justification} (accepted by {entry.waiver.accepted_by})")
-    return "\n".join(lines)
+    return "\n".join(visible(line) for line in lines)  # no character XML 1.0 forbids, none that acts on a terminal
 
 
 def _case_ids(design: DesignResult) -> list[str]:
@@ -24,25 +24,23 @@ def _case_ids(design: DesignResult) -> list[str]:
 
 
 def _suite(design: DesignResult, report: Report) -> tuple[ET.Element, int, int]:
-    suite = ET.Element("testsuite", {"name": design.file})
-    hazards = cautions(design.hazards)
-    if hazards:
-        props = ET.SubElement(suite, "properties")
-        for text in hazards:
-            ET.SubElement(props, "property", {"name": "caution", "value": text})
+    suite = ET.Element("testsuite", {"name": visible(design.file)})
+    props = ET.SubElement(suite, "properties")
+    ET.SubElement(props, "property", {"name": "ruleset", "value": visible(design.ruleset)})
+    ET.SubElement(props, "property", {"name": "config", "value": visible(design.config or "none")})
+    for text in cautions(design.hazards):
+        ET.SubElement(props, "property", {"name": "caution", "value": text})
     tests = failures = 0
     for rule_id in _case_ids(design):
         entries = [e for e in design.entries if e.finding.rule == rule_id and e.status != "fixed"]
-        info = report.rule(rule_id)
-        slug = info.slug if info else (entries[0].finding.slug if entries else "")
-        case = ET.SubElement(suite, "testcase", {"classname": design.name, "name": f"{rule_id}/{slug}"})
+        case = ET.SubElement(suite, "testcase", {"classname": visible(design.name), "name": visible(rule_id)})
         tests += 1
         quiet = []
         for e in entries:
             if report.gating(e):
                 failures += 1
                 failure = ET.SubElement(case, "failure", {"type": e.finding.severity.label,
-                                                          "message": message(e.finding)})
+                                                          "message": visible(message(e.finding))})
                 failure.text = _finding_text(e)
             else:
                 quiet.append(_finding_text(e))

@@ -2,7 +2,9 @@
 
 from __future__ import annotations
 
-from afecheck.report._common import message, rule_label, unused_text, where
+import re
+
+from afecheck.report._common import message, policy_text, rule_label, unused_text, visible, where
 from afecheck.report.cautions import cautions
 from afecheck.report.data import Entry, Report, plural, summary_line
 from afecheck.report.stage_lines import stage_line
@@ -11,8 +13,12 @@ MAX_ROWS = 50
 _ICON = {"error": "🛑 error", "warning": "⚠️ warning", "info": "ℹ️ info"}
 
 
+_MARKUP = re.compile(r"([\\`*_\[\]<>|~&!#])")
+
+
 def _cell(text: str) -> str:
-    return text.replace("\\", "\\\\").replace("|", "\\|").replace("\n", " ").replace("<", "&lt;")
+    """Text safe in a table cell or list item: controls shown as escapes, Markdown and HTML markup escaped."""
+    return _MARKUP.sub(r"\\\1", visible(text))
 
 
 def _table(entries: list[Entry], with_note: bool = False) -> list[str]:
@@ -21,7 +27,7 @@ def _table(entries: list[Entry], with_note: bool = False) -> list[str]:
     rows = [head, rule]
     for e in entries:
         f = e.finding
-        row = (f"| {_ICON[f.severity.label]} | `{_cell(rule_label(e))}` | `{_cell(where(e))}` | {_cell(message(f))} "
+        row = (f"| {_ICON[f.severity.label]} | {_cell(rule_label(e))} | {_cell(where(e))} | {_cell(message(f))} "
                f"| {_cell(f.fix)} |")
         if with_note:
             note = e.status
@@ -41,9 +47,12 @@ def render_markdown(report: Report) -> str:
     else:
         head = f"### afecheck {'❌ fails' if report.failed() else '✅ passes'} the gate"
     out = [head, "", summary_line(report), ""]
+    policies = sorted({policy_text(d) for d in report.designs})
+    if policies:
+        out += ["Judged with " + "; ".join(_cell(p) for p in policies) + ".", ""]
     hazards = report.hazards()
     if hazards:
-        out.append(f"> **Caution (declared hazards: {', '.join(hazards)})**")
+        out.append(f"> **Caution (declared hazards: {_cell(', '.join(hazards))})**")
         out.extend(f"> - {line}" for line in cautions(hazards))
         out.append("")
     out += ["| error | warning | info | waived | unchanged | fixed |", "|---:|---:|---:|---:|---:|---:|",
@@ -69,8 +78,8 @@ def render_markdown(report: Report) -> str:
         if group:
             out += ["<details>", f"<summary>{len(group)} {title}</summary>", ""]
             out += _table(group, with_note=True) + ["", "</details>", ""]
-    notes = [f"- expired waiver `{_cell(w.label)}` ({w.file}:{w.line or 0}, expired {w.expires}): finding re-opened"
-             for w in report.expired_waivers]
+    notes = [f"- expired waiver {_cell(w.label)} ({_cell(w.file)}:{w.line or 0}, expired {w.expires}): "
+             "finding re-opened" for w in report.expired_waivers]
     notes += [f"- {_cell(unused_text(w))}" for w in report.unused_waivers]
     notes += [f"- {_cell(n)}" for n in report.notes]
     if notes:

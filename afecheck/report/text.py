@@ -6,9 +6,11 @@ from afecheck.report._common import (
     by_stage,
     expired_text,
     message,
+    policy_text,
     root_label,
     rule_label,
     unused_text,
+    visible,
     waiver_text,
     where,
 )
@@ -27,19 +29,20 @@ def _entry_lines(entry: Entry, color: bool, roots: dict[str, Entry] | None = Non
     f = entry.finding
     sev = _paint(f"{f.severity.label.upper():<7}", f.severity.label, color)
     tag = "" if entry.status == "open" else " " + _paint(f"({entry.status})", "dim", color)
-    lines = [f"{sev} {message(f)}{tag}", _paint(f"        at {where(entry)} · rule {rule_label(entry)}", "dim", color)]
+    lines = [f"{sev} {visible(message(f))}{tag}",
+             _paint(f"        at {visible(where(entry))} · rule {visible(rule_label(entry))}", "dim", color)]
     if entry.status == "fixed":
         return lines
     root = (roots or {}).get(f.caused_by) if f.caused_by else None
     if root is not None:
-        lines.append(f"        follows from: {root_label(root)}")
-    lines.append(f"        fix: {f.fix or 'see the rule page (afecheck rules ' + f.rule + ')'}")
+        lines.append(f"        follows from: {visible(root_label(root))}")
+    lines.append(f"        fix: {visible(f.fix or 'see the rule page (afecheck rules ' + f.rule + ')')}")
     if f.assumed:
-        lines.append(f"        assumed: {', '.join(f.assumed)}")
+        lines.append(f"        assumed: {visible(', '.join(f.assumed))}")
     if entry.waiver is not None:
-        lines.append(f"        waived: {waiver_text(entry.waiver)}")
+        lines.append(f"        waived: {visible(waiver_text(entry.waiver))}")
     if entry.expired_waiver is not None:
-        lines.append(f"        note: {expired_text(entry.expired_waiver)}")
+        lines.append(f"        note: {visible(expired_text(entry.expired_waiver))}")
     return lines
 
 
@@ -48,26 +51,25 @@ def render_text(report: Report, color: bool = False) -> str:
     out: list[str] = []
     hazards = report.hazards()
     if hazards:
-        out.append(_paint(f"CAUTION (declared hazards: {', '.join(hazards)}):", "error", color))
+        out.append(_paint(f"CAUTION (declared hazards: {visible(', '.join(hazards))}):", "error", color))
         out.extend(f"  - {line}" for line in cautions(hazards))
         out.append("")
     for design in report.designs:
-        out.append(_paint(f"== {design.file} ({design.name}) ==", "head", color))
-        out.append(f"rule set {design.ruleset}, " + (f"config {design.config}" if design.config else "no config file"))
+        out.append(_paint(f"== {visible(design.file)} ({visible(design.name)}) ==", "head", color))
+        out.append(policy_text(design))
         if design.hazards:
-            out.append(f"hazards: {', '.join(design.hazards)}: see the cautions above")
+            out.append(f"hazards: {visible(', '.join(design.hazards))}: see the cautions above")
         if not design.entries:
             out.append("no findings")
         roots = {e.finding.fingerprint: e for e in design.entries}
         for stage, group in by_stage(design):
-            out.append(_paint(f"-- stage {stage} --" if stage else "-- design-wide --", "head", color))
+            out.append(_paint(f"-- stage {visible(stage)} --" if stage else "-- design-wide --", "head", color))
             for entry in group:
                 out.extend(_entry_lines(entry, color, roots))
         out.append("")
     for w in report.expired_waivers:
-        out.append(f"{w.file}:{w.line or 0}: note: waiver {w.label} expired on {w.expires}")
+        out.append(visible(f"{w.file}:{w.line or 0}: note: waiver {w.label} expired on {w.expires}"))
     for w in report.unused_waivers:
-        out.append(f"{unused_text(w)}")
-    out.extend(f"note: {n}" for n in report.notes)
+        out.append(visible(unused_text(w)))
     out.append("afecheck: " + summary_line(report))
     return "\n".join(out) + "\n"
