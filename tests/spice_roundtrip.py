@@ -27,9 +27,10 @@ _REFINE = ("tolerance", "dielectric", "description", "r25", "beta", "temperature
 
 def netlist_form(loaded: LoadedDesign) -> dict[str, Any]:
     """The design as plain data with grounded signal sources moved to ``signals:``."""
-    data = loaded.design.model_dump(mode="json", by_alias=True, exclude_none=True)
+    data = loaded.design.model_dump(mode="json", by_alias=True, exclude_none=True, exclude_unset=True)
     data.pop("intent", None)
     data["part_libraries"] = []
+    data.setdefault("signals", {})
     used = {c.get("part") for c in data["components"].values()}
     data["parts"] = {name: model.model_dump(mode="json", exclude_none=True) for name, model in loaded.parts.items()
                      if name in used and not loaded.part_origins.get(name, "").startswith("built-in")}
@@ -71,7 +72,7 @@ def round_trip(loaded: LoadedDesign, folder: Path) -> RoundTrip:
     for section in ("signals", "loads", "budgets"):
         entries = {}
         for net, entry in getattr(d, section).items():
-            data = entry.model_dump(mode="json", exclude_none=True)
+            data = entry.model_dump(mode="json", exclude_none=True, exclude_unset=True)
             if "reference" in data:
                 data["reference"] = nets[data["reference"]]
             entries[nets[net]] = data

@@ -3,12 +3,14 @@
 Each netlist carries its own ``.control`` block (afecheck reads and ignores it) and an op-amp subcircuit
 whose body is the standard-element macromodel of the part it is mapped to (Vos in series with in+, input
 resistances, bias currents, a VCVS, an output resistance), so ngspice and afecheck simulate the same circuit.
-The DC operating point afecheck computes, and each stage's output from its signal ranges, must equal the
-voltages ngspice prints (ngspice 39, batch mode, 15 digits).
+The DC operating point afecheck computes must equal the voltages ngspice prints, and each stage's output range
+the extremes ngspice prints over the part's Vos, Ib and Ios at both signs (ngspice 39, batch mode, 15 digits).
 """
 
 from __future__ import annotations
 
+import itertools
+import re
 import textwrap
 from pathlib import Path
 
@@ -169,12 +171,26 @@ def test_dc_operating_point_equals_ngspice(case: str, tmp_path: Path) -> None:
     assert set(nets) <= set(canonical), sorted(canonical)
     for low, _spelling in nets.items():
         assert mine.voltage(canonical[low]) == pytest.approx(theirs[f"v({low})"], rel=1e-9, abs=1e-12), low
-    # each stage's output from its (point) signal ranges is the operating point ngspice prints
+    # each stage's output range from its (point) signal ranges spans the operating points ngspice prints with the
+    # part's Vos, Ib and Ios at both signs (issue 10: each is a ± quantity), all eight combinations
+    runs = []
+    for signs in itertools.product((1, -1), repeat=3):
+        (tmp_path / "models" / "opamp.lib").write_text(_signed(LIB, *signs), encoding="ascii")
+        runs.append(parse_print(run_ngspice(_signed(deck, *signs), tmp_path)[0]))
     for stage in analyse(loaded).stages:
-        out = stage.out.lower()
-        if f"v({out})" in theirs and stage.vout_min is not None:
-            assert stage.vout_min == pytest.approx(theirs[f"v({out})"], rel=1e-6, abs=1e-9), stage.opamp
-            assert stage.vout_max == pytest.approx(stage.vout_min, rel=1e-9, abs=1e-12)
+        out = f"v({stage.out.lower()})"
+        if out in theirs and stage.vout_min is not None:
+            assert stage.vout_min == pytest.approx(min(r[out] for r in runs), rel=1e-6, abs=1e-9), stage.opamp
+            assert stage.vout_max == pytest.approx(max(r[out] for r in runs), rel=1e-6, abs=1e-9), stage.opamp
+
+
+def _signed(text: str, sv: int, sb: int, so: int) -> str:
+    """``text`` with OPAMP_BODY's sources at the given signs of Vos (1.5 mV), Ib (20 nA) and Ios (4 nA):
+    Ib+ = Ib + Ios/2 and Ib- = Ib - Ios/2."""
+    for value, signed in (("22n", (20 * sb + 2 * so) * 1e-9), ("18n", (20 * sb - 2 * so) * 1e-9),
+                          ("1.5m", 1.5e-3 * sv)):
+        text = re.sub(rf"\bDC {re.escape(value)}\b", f"DC {signed!r}", text, flags=re.IGNORECASE)
+    return text
 
 
 def test_the_decks_read_as_intended(tmp_path: Path) -> None:

@@ -99,7 +99,10 @@ CONSUMERS: dict[str, str | None] = {
     # intent: signals, loads, budgets
     "signals": "graph.build", "signals.*.dc": "analysis.signals", "signals.*.ac_amplitude": "analysis.signals",
     "signals.*.band": "analysis.signals", "signals.*.source_resistance": "analysis.sources",
-    "signals.*.description": TEXT,
+    "signals.*.description": TEXT, "signals.*.kind": "analysis.sources",
+    "signals.*.current": "model.schema", "signals.*.ac_current": "model.schema", "signals.*.charge": "model.schema",
+    "signals.*.capacitance": "analysis.netlist", "signals.*.shunt_resistance": "analysis.netlist",
+    "signals.*.leakage_resistance": "analysis.netlist",
     "loads": "analysis.netlist", "loads.*.resistance": "analysis.netlist", "loads.*.capacitance": "analysis.netlist",
     "loads.*.reference": "analysis.netlist", "loads.*.adc": "distortion.common-mode-error",
     "loads.*.adc.full_scale": "distortion.common-mode-error",

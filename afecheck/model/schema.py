@@ -346,8 +346,8 @@ class Signal(_Strict):
     @model_validator(mode="after")
     def _fields_of_kind(self) -> Signal:
         own = set(_KIND_FIELDS[self.kind])
-        foreign = sorted(f for k, names in _KIND_FIELDS.items() if k != self.kind for f in names
-                         if f not in own and f in self.model_fields_set)
+        foreign = sorted({f for k, names in _KIND_FIELDS.items() if k != self.kind for f in names
+                          if f not in own and f in self.model_fields_set})
         if foreign:
             raise ValueError(f"a {self.kind} signal takes no {', '.join(foreign)} "
                              f"(its fields are {', '.join(_KIND_FIELDS[self.kind])}, band, description)")

@@ -9,6 +9,8 @@ Lines starting ``*@`` in the deck tell the test what to compare:
                               (scale: Thevenin volts per source volt, e.g. R2/(R1+R2) for a divider off a rail)
 ``*@ rs IN 5000``             the declared source resistance in front of net IN (for the input resistance)
 ``*@ corner VS 0 1``          element VS takes each listed value (all combinations with the other corners)
+                              and, at each of those, every op-amp's offset voltage and its bias and offset
+                              currents take both signs, all combinations (see :func:`sign_corners`)
 ``*@ nets IN OUT``            nets whose DC range (min and max over the corners) is compared
 ``*@ loop U1 [tol_deg]``      compare U1's crossover, phase margin and gain margin with the loop opened in ngspice
 ``*@ dctol 1e-4``             absolute DC tolerance in volts for this case (the deck says why beside it)
@@ -107,11 +109,44 @@ class DcAnswer:
     at_net: dict[str, list[float]]
 
 
+def _instances(deck: str) -> dict[str, dict[str, float]]:
+    """Each ``afe_opamp`` instance of a deck (continuation lines joined) and its ib, ios and vos parameters."""
+    joined: list[str] = []
+    for line in deck.splitlines():
+        if line.startswith("+") and joined:
+            joined[-1] += " " + line[1:]
+        else:
+            joined.append(line)
+    out = {}
+    for line in joined:
+        tokens = line.split()
+        if tokens and tokens[0].upper().startswith("X") and "afe_opamp" in tokens:
+            params = dict(t.lower().split("=", 1) for t in tokens if "=" in t)
+            out[tokens[0].lower()] = {k: float(params.get(k, "0")) for k in ("ib", "ios", "vos")}
+    return out
+
+
+def sign_corners(deck: str) -> list[list[list[str]]]:
+    """Corner axes for the op-amps' ± quantities: per instance, Vos at both signs and (Ib, Ios) at all four sign
+    pairs, each option the ``alter`` lines that set it on the subcircuit's own sources (Ib+ = Ib + Ios/2 into
+    in+, Ib- = Ib - Ios/2 into in-, as in opamp.lib). Quantities that are zero add no axis."""
+    axes: list[list[list[str]]] = []
+    for inst, p in sorted(_instances(deck).items()):
+        if p["vos"]:
+            axes.append([[f"alter v.{inst}.vos dc = {sv * p['vos']!r}"] for sv in (1.0, -1.0)])
+        if p["ib"] or p["ios"]:
+            pairs = sorted({(sb * p["ib"], so * p["ios"]) for sb in (1.0, -1.0) for so in (1.0, -1.0)})
+            axes.append([[f"alter i.{inst}.ibp dc = {ib + ios / 2!r}", f"alter i.{inst}.ibm dc = {ib - ios / 2!r}"]
+                         for ib, ios in pairs])
+    return axes
+
+
 def dc_answers(deck: str, outputs: dict[str, str], work: Path) -> DcAnswer:
     """Transfer functions (at the deck's nominal values) then an operating point at every corner.
 
     ``outputs`` maps an op-amp refdes to its output net. tf gives the DC transfer ratio and the input resistance
-    seen by the source.
+    seen by the source. The DC ranges are the extremes ngspice finds over the deck's corners and, at each, every
+    sign combination of the op-amps' offset voltages and bias and offset currents (each is a ± quantity).
     """
     d = directives(deck)
     ctl = ["set numdgt=15"]
@@ -119,15 +154,20 @@ def dc_answers(deck: str, outputs: dict[str, str], work: Path) -> DcAnswer:
     for opamp, net, src, _scale in d.inputs:
         for target in (outputs[opamp], net):
             jobs.append((opamp, net, target, src))
-            ctl += [f"echo @@tf {len(jobs) - 1}", f"tf v({target}) {src}", "print all"]
+            ctl += [f"echo @@tf {len(jobs) - 1}", f"tf v({target}) {src}", "print all", "destroy all"]
     names = sorted(set(d.nets))
     combos = list(itertools.product(*[v for _, v in d.corners])) or [()]
-    for k, combo in enumerate(combos):
+    signs = list(itertools.product(*sign_corners(deck))) if names else []
+    k = 0
+    for combo in combos:
         ctl += [_alter(el, v) for (el, _), v in zip(d.corners, combo, strict=True)]
-        if names:
-            ctl += ["op", f"echo @@corner {k}", "print " + " ".join(f"v({n})" for n in names)]
+        for option in signs:
+            ctl += [line for alters in option for line in alters]
+            # each analysis leaves a plot behind and ngspice slows with their number: drop them once printed
+            ctl += ["op", f"echo @@corner {k}", "print " + " ".join(f"v({n})" for n in names), "destroy all"]
+            k += 1
         for _opamp, net, src, _scale in d.inputs:
-            ctl += [f"echo @@ctf {net} {src}", f"tf v({net}) {src}", "print all"]
+            ctl += [f"echo @@ctf {net} {src}", f"tf v({net}) {src}", "print all", "destroy all"]
     text, _ = _run(_circuit(deck) + ".control\n" + "\n".join(ctl) + "\nquit\n.endc\n.end\n", work)
     blocks = text.split("@@")
     tf: dict[tuple[str, str], tuple[float, float]] = {}

@@ -10,7 +10,8 @@ Tolerances, and where they come from: both sides solve the same linear equations
 in one Newton step on a linear circuit: common practice); gains and loading errors to 1e-6 relative (tf is the
 same linear solve). Crossover within 1e-4 relative and phase margin within 0.01° (ngspice sampled at 1000 points
 a decade and interpolated, REFERENCE-TOOLS: 0.02° at 20 points a decade); gain margin within 0.01 dB.
-Stages whose upstream op-amps afecheck replaces by Thevenin equivalents carry the tolerance named in their deck.
+DC ranges are the extremes ngspice finds over every combination of the deck's corners and of each op-amp's offset
+voltage, bias and offset currents at both signs (issue 10: each is a ± quantity), so no correlation is assumed.
 """
 
 from __future__ import annotations
