@@ -97,3 +97,11 @@ def bridge_view(ref: str, comp: Bridge, excitation_v: float) -> SensorView:
     slope = (outs[1] - outs[0]) / (hi - lo) * per_unit if hi != lo else 0.0
     return SensorView(ref, comp.unit or "of full scale", (min(outs), max(outs)), (min(rths), max(rths)), slope,
                       0.5 * excitation_v)
+
+
+def divider_self_heating_c(v: float, r_top: float, r_range: tuple[float, float], dissipation: float) -> float:
+    """Largest temperature rise ΔT = P/δ of a sensor of ``r_range`` below ``r_top`` from ``v``: P = V²·R/(R_top+R)²
+    peaks where R = R_top (maximum power transfer), else at the range end nearest it."""
+    lo, hi = sorted(r_range)
+    r = min(max(r_top, lo), hi)
+    return v * v * r / (r_top + r) ** 2 / dissipation
