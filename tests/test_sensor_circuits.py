@@ -8,7 +8,10 @@ Thermocouple: the channel's input range against the NIST Monograph 175 (ITS-90) 
 
 from __future__ import annotations
 
+import math
 import re
+import subprocess
+import sys
 from pathlib import Path
 
 import pytest
@@ -123,3 +126,34 @@ def test_self_heating_of_a_divider_sensor_by_arithmetic() -> None:
     assert rise == pytest.approx(0.131, abs=5e-4)
     # the power peaks where the sensor matches the top resistor: inside the range it is V²/(4R)
     assert divider_self_heating_c(2.0, 1000.0, (500.0, 2000.0), 1e-3) == pytest.approx(1.0 / 1000.0 / 1e-3)
+
+
+def _divider_out(tmp_path: Path, sensor: str) -> tuple[float, float]:
+    rails = "  VREF: {voltage: 2.5 V}\n  VCC: {voltage: 12 V}\n  VEE: {voltage: -12 V}\n"
+    parts = ("  R1: {kind: resistor, value: 10k, pins: {1: VREF, 2: T}}\n"
+             f"  RT1: {{{sensor}, pins: {{1: T, 2: GND}}}}\n"
+             "  U1: {kind: opamp, part: IDEAL, pins: {in+: T, in-: OUT, out: OUT, v+: VCC, v-: VEE}}\n")
+    out = analyse(load_design(_design(tmp_path, rails, parts))).nets["OUT"]
+    return out.dc_min, out.dc_max
+
+
+def test_ntc_from_three_points_reproduces_them_in_a_divider(tmp_path: Path) -> None:
+    # three points of a 10 kΩ, B 3950 K part by the Beta model (IEC 60539-1): the Steinhart-Hart curve passes
+    # through them exactly (Steinhart & Hart 1968), so the divider ends equal V·R/(10k + R) at 0 °C and 50 °C
+    r = {t: 10e3 * math.exp(3950.0 * (1 / (t + 273.15) - 1 / 298.15)) for t in (0.0, 25.0, 50.0)}
+    pts = ", ".join(f"[{t}, {v!r}]" for t, v in r.items())
+    lo, hi = _divider_out(tmp_path, f"kind: ntc, points: [{pts}], temperature: [0, 50]")
+    # (the follower's gain of 1e6 leaves 1e-6 relative)
+    assert lo == pytest.approx(2.5 * r[50.0] / (10e3 + r[50.0]), rel=3e-6)
+    assert hi == pytest.approx(2.5 * r[0.0] / (10e3 + r[0.0]), rel=3e-6)
+    beta_lo, beta_hi = _divider_out(tmp_path, "kind: ntc, r25: 10k, beta: 3950, temperature: [0, 50]")
+    assert (lo, hi) == pytest.approx((beta_lo, beta_hi), rel=1e-6)
+
+
+def test_ntc_with_two_models_is_refused_with_exit_status_2(tmp_path: Path) -> None:
+    path = _design(tmp_path, "  VREF: {voltage: 2.5 V}\n",
+                   "  RT1: {kind: ntc, r25: 10k, beta: 3950, steinhart_hart: [1e-3, 2e-4, 1e-7], "
+                   "pins: {1: VREF, 2: GND}}\n")
+    proc = subprocess.run([sys.executable, "-m", "afecheck", "check", str(path)], capture_output=True, text=True)
+    assert proc.returncode == 2
+    assert "exactly one model" in proc.stderr + proc.stdout and "Traceback" not in proc.stderr
