@@ -4,8 +4,8 @@ from __future__ import annotations
 
 import datetime as dt
 import re
-from collections.abc import Sequence
-from dataclasses import dataclass
+from collections.abc import Iterator, Sequence
+from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
 
@@ -137,6 +137,148 @@ def _registry(registry: Any):
     return default_registry()
 
 
+@dataclass
+class _Outcome:
+    """What reviewing one design gives the run: its result (or the problems), and its waiver bookkeeping."""
+
+    design: DesignResult | None = None
+    problems: list[Problem] = field(default_factory=list)
+    used: set[str] = field(default_factory=set)
+    expired: list[WaiverNote] = field(default_factory=list)
+    level: str | None = None
+    waivers: list[WaiverNote] = field(default_factory=list)
+    notes: tuple[str, ...] = ()
+    renamed: dict[str, str] = field(default_factory=dict)
+    reads: list[str] = field(default_factory=list)
+
+
+class _Reviewer:
+    """Reviews designs one at a time under one set of options; caches policies and waiver files between designs.
+
+    One reviewer serves a serial run; in a parallel run each worker process builds its own from the same options."""
+
+    def __init__(self, options: dict[str, Any]):
+        from afecheck.policy.baseline import load_baseline
+        from afecheck.policy.rulesets import Catalogue
+
+        self.o = options
+        self.reg = _registry(options.get("registry"))
+        self.catalogue = Catalogue(self.reg.metas())
+        self.runnable = [r.meta.id for r in self.reg.rules]
+        self.policies: dict[str | None, Any] = {}
+        self.waiver_cache: dict[str, tuple[WaiverNote, ...]] = {}
+        baseline = options.get("baseline")
+        self.recorded = load_baseline(baseline) if baseline is not None else None
+        self.cli_waivers = self.waivers_of(options.get("waiver_files", ()))
+
+    def waivers_of(self, files: Sequence[str | Path]) -> tuple[WaiverNote, ...]:
+        from afecheck.policy.waivers import load_waivers
+
+        out: list[WaiverNote] = []
+        for f in files:
+            key = str(f)
+            if key not in self.waiver_cache:
+                self.waiver_cache[key] = load_waivers(f, self.catalogue)
+            out.extend(self.waiver_cache[key])
+        return tuple(out)
+
+    def review(self, path: str | Path) -> _Outcome:
+        """Load, analyse, run the rules and classify one design; input errors come back as problems."""
+        from afecheck.engine.runner import run_rules
+        from afecheck.model.load import load_design
+        from afecheck.policy.config import discover_config, resolve_policy
+        from afecheck.policy.gate import classify, promote
+
+        o = self.o
+        config, detail = o.get("config"), o.get("detail", "none")
+        try:
+            cfg = Path(config) if config is not None else (discover_config(path) if o.get("discover", True) else None)
+            key = None if cfg is None else str(cfg)
+            if key not in self.policies:
+                self.policies[key] = resolve_policy(self.catalogue, cfg, o.get("ruleset"))
+            policy = self.policies[key]
+            loaded = load_design(path, intent=o.get("intent"), libraries=o.get("libraries", ()),
+                                 input_format=o.get("input_format"), netlist_map=o.get("netlist_map"))
+            options = policy.run_options(self.runnable)
+            analysis, curves = None, {}
+            if detail != "none":
+                from afecheck.views import analyse_for_views
+
+                analysis, curves = analyse_for_views(loaded, "curves" if detail == "curves" else "stages")
+                if analysis is not None:
+                    options["analysis"] = analysis
+            findings = promote(run_rules(loaded, registry=self.reg, **options), policy.promote)
+            inline = inline_waivers(loaded, self.catalogue)
+            file_waivers = self.waivers_of(policy.waiver_files)
+            waivers = self.cli_waivers + file_waivers + inline
+        except InputError as exc:
+            return _Outcome(problems=list(exc.problems), renamed=dict(self.catalogue.renamed_used))
+        name = loaded.design.name
+        mine = None if self.recorded is None else [b for b in self.recorded if b.design == name]
+        stage_of, opamps = stage_finder(loaded)
+        review = classify(findings, waivers, mine, o.get("today"), stage_of)
+        rules_run = tuple(m.id for m in self.catalogue.metas if m.id not in policy.disabled)
+        views = ()
+        if analysis is not None:
+            from afecheck.views import stage_views
+
+            views = stage_views(loaded, analysis, curves, options["params"], rules_run)
+        design = DesignResult(
+            file=loaded.file, name=name, hazards=tuple(loaded.design.hazards), entries=review.entries,
+            stages=opamps, ruleset=policy.ruleset, config=policy.config, rules_run=rules_run, stage_views=views,
+        )
+        return _Outcome(design=design, used=set(review.used), expired=[w for w in waivers if w.key in review.expired],
+                        level=policy.fail_on, waivers=[*self.cli_waivers, *file_waivers, *inline],
+                        notes=tuple(loaded.notes), renamed=dict(self.catalogue.renamed_used))
+
+
+_WORKER: _Reviewer | None = None
+
+
+def _start_worker(options: dict[str, Any]) -> None:
+    global _WORKER
+    _WORKER = _Reviewer(options)
+
+
+def _review_in_worker(path: str | Path) -> _Outcome:
+    """One design in a worker process, with the files it read (so no output of the run can overwrite one)."""
+    from afecheck.io import recording_reads
+
+    assert _WORKER is not None
+    with recording_reads() as reads:
+        out = _WORKER.review(path)
+    out.reads = list(dict.fromkeys(reads))
+    return out
+
+
+def _outcomes(paths: Sequence[str | Path], options: dict[str, Any], jobs: int,
+              on_done: Any = None) -> Iterator[_Outcome]:
+    """Each design's outcome in input order: in this process, or spread over ``jobs`` worker processes."""
+    serial = _Reviewer(options)  # also checks the shared files (baseline, waivers) before any worker starts
+    if jobs <= 1 or len(paths) < 2 or options.get("registry") is not None:
+        for path in paths:
+            out = serial.review(path)
+            if on_done is not None:
+                on_done(out)
+            yield out
+        return
+    import multiprocessing
+    from concurrent.futures import ProcessPoolExecutor
+
+    from afecheck.io import note_reads
+
+    # fork (where the system has it) hands each worker the modules already imported: no second start-up
+    context = multiprocessing.get_context("fork" if "fork" in multiprocessing.get_all_start_methods() else "spawn")
+    with ProcessPoolExecutor(max_workers=min(jobs, len(paths)), mp_context=context, initializer=_start_worker,
+                             initargs=(options,)) as pool:
+        chunk = max(1, len(paths) // (8 * jobs))
+        for out in pool.map(_review_in_worker, paths, chunksize=chunk):
+            note_reads(out.reads)
+            if on_done is not None:
+                on_done(out)
+            yield out
+
+
 def review_files(
     paths: Sequence[str | Path],
     *,
@@ -154,94 +296,52 @@ def review_files(
     input_format: str | None = None,
     netlist_map: str | Path | None = None,
     on_note: Any = None,
+    jobs: int = 1,
+    on_done: Any = None,
 ) -> Report:
     """Check every design under its policy (``config``, else a discovered ``.afecheck.yaml`` when ``discover``),
     apply waivers and the baseline, and return the report data. Bad input of any file raises one InputError.
 
     ``detail``: ``"stages"`` adds each stage's numbers and headroom to the report data, ``"curves"`` also its
     frequency responses (for the reports that draw plots); ``"none"`` keeps the check path lean.
-    ``input_format``/``netlist_map`` say how to read SPICE netlists; ``on_note(text)`` hears what a reader skipped."""
+    ``input_format``/``netlist_map`` say how to read SPICE netlists; ``on_note(text)`` hears what a reader skipped.
+    ``jobs`` > 1 spreads the designs over that many processes; the report is the same as a serial run's, byte for
+    byte. ``on_done(outcome)`` is called as each design finishes (progress)."""
     from afecheck import __version__
-    from afecheck.engine.runner import run_rules
-    from afecheck.model.load import load_design
-    from afecheck.policy.baseline import load_baseline
-    from afecheck.policy.config import discover_config, resolve_policy
-    from afecheck.policy.gate import classify, promote
-    from afecheck.policy.rulesets import Catalogue
-    from afecheck.policy.waivers import load_waivers
 
-    reg = _registry(registry)
-    catalogue = Catalogue(reg.metas())
-    runnable = [r.meta.id for r in reg.rules]
+    options = {"intent": intent, "libraries": libraries, "config": config, "discover": discover, "ruleset": ruleset,
+               "waiver_files": tuple(waiver_files), "baseline": baseline, "today": today, "registry": registry,
+               "detail": detail, "input_format": input_format, "netlist_map": netlist_map}
     problems: list[Problem] = []
-    policies: dict[str | None, Any] = {}
-    waiver_cache: dict[str, tuple[WaiverNote, ...]] = {}
-
-    def waivers_of(files: Sequence[str | Path]) -> tuple[WaiverNote, ...]:
-        out: list[WaiverNote] = []
-        for f in files:
-            key = str(f)
-            if key not in waiver_cache:
-                waiver_cache[key] = load_waivers(f, catalogue)
-            out.extend(waiver_cache[key])
-        return tuple(out)
-
-    recorded = load_baseline(baseline) if baseline is not None else None
-    cli_waivers = waivers_of(waiver_files)
     designs: list[DesignResult] = []
     used: set[str] = set()
     expired: dict[str, WaiverNote] = {}
     levels: set[str] = set()
-    inline_all: list[WaiverNote] = []
-    for path in paths:
-        try:
-            cfg = Path(config) if config is not None else (discover_config(path) if discover else None)
-            key = None if cfg is None else str(cfg)
-            if key not in policies:
-                policies[key] = resolve_policy(catalogue, cfg, ruleset)
-            policy = policies[key]
-            levels.add(policy.fail_on)
-            loaded = load_design(path, intent=intent, libraries=libraries, input_format=input_format,
-                                 netlist_map=netlist_map)
-            for note in loaded.notes if on_note is not None else ():
+    all_waivers: dict[str, WaiverNote] = {}
+    renamed: dict[str, str] = {}
+    for out in _outcomes(list(paths), options, jobs, on_done):
+        renamed.update(out.renamed)
+        if on_note is not None:
+            for note in out.notes:
                 on_note(note)
-            options = policy.run_options(runnable)
-            analysis, curves = None, {}
-            if detail != "none":
-                from afecheck.views import analyse_for_views
-
-                analysis, curves = analyse_for_views(loaded, "curves" if detail == "curves" else "stages")
-                if analysis is not None:
-                    options["analysis"] = analysis
-            findings = promote(run_rules(loaded, registry=reg, **options), policy.promote)
-            inline = inline_waivers(loaded, catalogue)
-            inline_all.extend(inline)
-            waivers = cli_waivers + waivers_of(policy.waiver_files) + inline
-        except InputError as exc:
-            problems.extend(exc.problems)
+        if out.design is None:
+            problems.extend(out.problems)
             continue
-        name = loaded.design.name
-        mine = None if recorded is None else [b for b in recorded if b.design == name]
-        stage_of, opamps = stage_finder(loaded)
-        review = classify(findings, waivers, mine, today, stage_of)
-        used |= review.used
-        for w in waivers:
-            if w.key in review.expired:
-                expired.setdefault(w.key, w)
-        rules_run = tuple(m.id for m in catalogue.metas if m.id not in policy.disabled)
-        views = ()
-        if analysis is not None:
-            from afecheck.views import stage_views
-
-            views = stage_views(loaded, analysis, curves, options["params"], rules_run)
-        designs.append(DesignResult(
-            file=loaded.file, name=name, hazards=tuple(loaded.design.hazards), entries=review.entries,
-            stages=opamps, ruleset=policy.ruleset, config=policy.config, rules_run=rules_run, stage_views=views,
-        ))
+        designs.append(out.design)
+        used |= out.used
+        levels.add(out.level or "error")
+        for w in out.expired:
+            expired.setdefault(w.key, w)
+        for w in out.waivers:
+            all_waivers.setdefault(w.key, w)
     if problems:
         raise InputError(list(dict.fromkeys(problems)))  # a bad config shared by several designs is said once
+    reg = _registry(registry)
+    from afecheck.policy.rulesets import Catalogue
+
+    catalogue = Catalogue(reg.metas())
+    catalogue.renamed_used.update(renamed)
     level = fail_on or min(levels or {"error"}, key=_FAIL_ORDER.index)
-    all_waivers = {w.key: w for w in (*(w for ws in waiver_cache.values() for w in ws), *inline_all)}
     unused = tuple(sorted((w for key, w in all_waivers.items() if key not in used),
                           key=lambda w: (w.file, w.line or 0)))
     return Report(

@@ -103,6 +103,8 @@ def _partial_name(final: Path, pid: int) -> Path:
 
 
 def _alive(pid: int) -> bool:
+    if os.name != "posix":
+        return True  # no cheap, harmless liveness probe: such files are left for the user
     try:
         os.kill(pid, 0)
     except ProcessLookupError:
@@ -134,10 +136,10 @@ def _stage(target: _Target, data: bytes) -> Path:
     fd = os.open(tmp, os.O_WRONLY | os.O_CREAT | os.O_EXCL | getattr(os, "O_NOFOLLOW", 0), 0o666)
     try:
         if target.mode is not None:
-            os.fchmod(fd, target.mode)
-            with contextlib.suppress(OSError):  # keep owner and group where allowed (root, or the owner itself)
+            with contextlib.suppress(OSError, AttributeError):  # keep owner and group where allowed (POSIX)
                 old = os.stat(target.final)
-                os.fchown(fd, old.st_uid, old.st_gid)
+                os.chown(tmp, old.st_uid, old.st_gid)
+            os.chmod(tmp, target.mode)  # after chown, which may clear set-id bits
         with os.fdopen(fd, "wb", closefd=False) as handle:
             handle.write(data)
             handle.flush()
@@ -225,3 +227,10 @@ def recording_reads() -> Iterator[list[str]]:
         yield reads
     finally:
         _READS.reset(token)
+
+
+def note_reads(paths: list[str]) -> None:
+    """Add files another process read on this run's behalf (a worker of ``check --jobs``) to the recording."""
+    reads = _READS.get()
+    if reads is not None:
+        reads.extend(paths)

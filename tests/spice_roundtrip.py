@@ -21,8 +21,9 @@ from afecheck.engine.runner import run_rules
 from afecheck.model.load import load_design
 from afecheck.model.loaded import LoadedDesign
 
-_REFINE = ("tolerance", "dielectric", "description", "r25", "beta", "temperature", "dissipation", "steinhart_hart",
-           "points", "r0", "tolerance_class", "wiring", "lead_resistance", "bridge", "r", "x0", "k", "measurand")
+_REFINE = ("tolerance", "dielectric", "description", "r25", "beta", "temperature", "dissipation", "tempco",
+           "steinhart_hart", "points", "r0", "tolerance_class", "wiring", "lead_resistance", "bridge", "r", "x0", "k",
+           "measurand")
 
 
 def netlist_form(loaded: LoadedDesign) -> dict[str, Any]:
@@ -77,6 +78,8 @@ def round_trip(loaded: LoadedDesign, folder: Path) -> RoundTrip:
                 data["reference"] = nets[data["reference"]]
             entries[nets[net]] = data
         intent[section] = entries
+    if d.operating_temperature is not None:
+        intent["operating_temperature"] = list(d.operating_temperature)
     components: dict[str, Any] = {}
     for r, comp in d.components.items():
         fields = {k: v for k, v in comp.model_dump(mode="json", exclude_none=True).items() if k in _REFINE}

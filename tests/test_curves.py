@@ -18,7 +18,7 @@ from ngspice_harness import needs_ngspice, read_raw, run_ngspice
 
 from afecheck.analysis.curves import Response, decade_grid, design_curves
 from afecheck.analysis.design import analyse_design
-from afecheck.analysis.netlist import VoltageSource
+from afecheck.analysis.netlist import CurrentSource, VoltageSource
 from afecheck.analysis.spice import AcSweep, ControlBlock, loop_break_netlist, spice_deck
 from afecheck.cli import main
 from afecheck.model.load import load_design
@@ -144,7 +144,7 @@ def test_sample_curves_match_ngspice_on_the_same_local_circuits(sample: Path) ->
         _compare(f, c.loop_gain, raw["frequency"].real, -raw[deck.vector(node)], f"{sample.name} {ref} loop")
         for resp in c.closed_loop:
             src = netlist.element(branches[resp.label])
-            assert isinstance(src, VoltageSource)
+            assert isinstance(src, (VoltageSource, CurrentSource))  # a photodiode input is a current (V/A)
             driven = netlist.replaced(replace(src, ac=1.0))
             f = np.asarray(resp.freqs_hz)
             deck = spice_deck(driven, f"cl {ref}", ControlBlock(op=False, ac=AcSweep(20, f[0], f[-1]),

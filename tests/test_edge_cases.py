@@ -180,9 +180,8 @@ def test_unknown_part_name_is_an_input_error(tmp_path: Path) -> None:
     body = "  U1: {kind: opamp, part: NOT-IN-ANY-LIBRARY, pins: {in+: VMID, in-: OUT, out: OUT, v+: VCC, v-: GND}}\n"
     path = _write(tmp_path, body)
     rc, out, err = _run(path)
-    assert rc == 2 or (rc == 1 and "NOT-IN-ANY-LIBRARY" in out), out + err
-    if rc == 2:
-        assert f"{path}:9" in err and "NOT-IN-ANY-LIBRARY" in err, err
+    assert rc == 2, out + err
+    assert f"{path}:9" in err and "NOT-IN-ANY-LIBRARY" in err, err
 
 
 @pytest.mark.parametrize("value", ["1e999", ".nan", ".inf", "-.inf", "nan"])

@@ -45,7 +45,7 @@ def test_empty_and_non_mapping_files_are_input_errors() -> None:
 
 def test_design_with_only_rails_is_not_a_crash() -> None:
     rc, _, _ = run_check("afecheck: 1\nrails:\n  VCC: {voltage: 5 V}\n", ".yaml")
-    assert rc in (0, 1)
+    assert rc == 0  # nothing to review is a clean review
 
 
 def test_op_amp_cycle_is_not_a_crash() -> None:

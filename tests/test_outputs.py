@@ -125,6 +125,15 @@ def test_an_existing_file_keeps_its_mode(work):
         assert stat.S_IMODE((work / "r.json").stat().st_mode) == mode
 
 
+@pytest.mark.skipif(not hasattr(os, "geteuid") or os.geteuid() != 0, reason="only root can give a file away")
+def test_a_replaced_file_keeps_its_owner_and_group(work):
+    (work / "r.json").write_text("old", encoding="utf-8")
+    os.chown(work / "r.json", 4321, 8765)
+    assert _report("--output", "r.json")[0] == 1
+    st = (work / "r.json").stat()
+    assert (st.st_uid, st.st_gid) == (4321, 8765)
+
+
 @pytest.mark.parametrize(("umask", "mode"), [(0o022, 0o644), (0o077, 0o600), (0o002, 0o664)])
 def test_a_new_file_honours_the_umask(work, umask, mode):
     old = os.umask(umask)

@@ -39,10 +39,16 @@ def test_offset_current_sign_between_the_pins_on_a_follower_from_one_megohm() ->
     # kills: swapping the sign of the offset current between the two input pins. FORMAT.md: bias_current flows
     # into each input pin, offset_current is the difference between the pins (Ios = Ib+ - Ib-), so with
     # Ib = (Ib+ + Ib-)/2: Ib+ = Ib + Ios/2 = 1 nA + 0.25 nA = 1.25 nA flows out of the 1 MΩ source into in+, leaving
-    # in+ at -1.25 mV; the follower repeats it (A0 = 1e6: 1e-6 relative). The swapped sign gives -0.75 mV.
-    (stage,) = analyse(load_design(CASES / "follower_bias_1meg.yaml")).stages
+    # in+ at -1.25 mV; the follower repeats it (A0 = 1e6: 1e-6 relative). Ib and Ios are ± quantities (issue 10),
+    # so the range is ±1.25 mV whichever pin carries +Ios/2; the sign shows in the output's form instead: -1 MΩ
+    # per ampere of Ib and -0.5 MΩ per ampere of Ios (the swapped sign gives +0.5 MΩ).
+    result = analyse(load_design(CASES / "follower_bias_1meg.yaml"))
+    (stage,) = result.stages
     assert stage.vout_min == pytest.approx(-1.25e-3, rel=1e-4)
-    assert stage.vout_max == pytest.approx(-1.25e-3, rel=1e-4)
+    assert stage.vout_max == pytest.approx(1.25e-3, rel=1e-4)
+    terms = result.forms["OUT"].at().terms
+    assert terms["ib:U1"].gain == pytest.approx(-1e6, rel=1e-4)
+    assert terms["ios:U1"].gain == pytest.approx(-0.5e6, rel=1e-4)
 
 
 def test_peak_output_current_includes_the_load_capacitor(tmp_path: Path) -> None:

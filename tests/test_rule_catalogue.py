@@ -98,3 +98,18 @@ def test_rules_name_prints_every_page_by_id_and_by_slug() -> None:
             out = io.StringIO()
             assert main(["rules", key], stdout=out, stderr=io.StringIO()) == 0
             assert out.getvalue() == page(meta)
+
+
+def test_findings_cite_published_sources_never_the_internal_worksheet() -> None:
+    """Every finding's limit_source names a published work, a part model, a rule parameter or common practice; the
+    internal worksheet (not shipped) and its tags never reach a user."""
+    paths = [Path(str(CATALOGUE.joinpath(m.folder, "bad.yaml"))) for m in WITH_EXAMPLES]
+    paths += sorted(p for p in (Path(__file__).parent.parent / "sample_designs").glob("*.yaml")
+                    if not p.name.endswith(".intent.yaml"))
+    seen = 0
+    for path in paths:
+        for f in run_rules(load_design(path)):
+            source = str(f.ctx.get("limit_source", ""))
+            assert "RULES-REFERENCE" not in source and not re.search(r"\[[A-Z]{2,}\d*\]", source), (f.rule, source)
+            seen += bool(source)
+    assert seen > 20

@@ -41,8 +41,42 @@ def _input(stage, net):
     return inp
 
 
+def _check_whole_chain(finding, analysis, loaded) -> None:
+    """Budget, ADC and limit rules print numbers of the whole-chain analyses (noise, DC error, ADC drive, supply)."""
+    from afecheck.analysis.adc_drive import analyse_adc
+    from afecheck.analysis.dc_error import analyse_dc_error
+    from afecheck.analysis.noise import analyse_noise
+    from afecheck.analysis.supply import analyse_supply
+
+    c, rule = finding.ctx, finding.rule
+    net = finding.location.nets[0] if finding.location.nets else None
+    if rule == "budgets.noise":
+        assert c["value"] == analyse_noise(loaded, [net]).nets[net].output_rms
+    elif rule.startswith("budgets."):
+        e = analyse_dc_error(loaded, [net]).nets[net]
+        field = {"budgets.offset": "offset_worst", "budgets.gain-error": "gain_error_worst",
+                 "budgets.drift": "drift_worst"}[rule]
+        assert c["value"] == getattr(e, field)
+    elif rule.startswith("adc."):
+        a = analyse_adc(loaded, analysis).nets[net]
+        options = {"adc.range": (min(a.margin_low, a.margin_high), a.codes_used),
+                   "adc.anti-alias": (a.attenuation_db,), "adc.settling": (a.settling_time,),
+                   "adc.kick-back": (a.capacitor_ratio,)}[rule]
+        assert c["value"] in options
+    else:
+        (ref,) = finding.location.refs[:1]
+        s = analyse_supply(loaded, analysis).opamps[ref]
+        options = {"limits.supply-range": (s.span_min, s.span_max),
+                   "limits.input-current": tuple(d.current for d in s.inputs) + tuple(d.beyond_v for d in s.inputs),
+                   "limits.capacitive-load": (s.load_capacitance,)}[rule]
+        assert c["value"] in options
+
+
 def _check(finding, stages, analysis, loaded) -> None:
     c, rule = finding.ctx, finding.rule
+    if rule.split(".")[0] in ("budgets", "adc", "limits"):
+        _check_whole_chain(finding, analysis, loaded)
+        return
     s = _stage(stages, finding)
     if rule == "loading.inverting-input":
         inp = _input(s, finding.location.nets[0])
@@ -110,4 +144,7 @@ def test_every_printed_number_equals_its_analysis_quantity() -> None:
         "loading.inverting-input", "loading.input-divider", "dc-accuracy.bias-offset", "stability.phase-margin",
         "stability.min-stable-gain", "stability.gain-margin", "stability.feedback-sense", "headroom.input-common-mode",
         "headroom.output-swing", "headroom.output-current", "distortion.near-swing-limit",
-        "distortion.input-pair-transition", "distortion.loop-gain-at-fmax", "distortion.slew-rate"}, checked
+        "distortion.input-pair-transition", "distortion.loop-gain-at-fmax", "distortion.slew-rate",
+        "budgets.noise", "budgets.offset", "budgets.gain-error", "budgets.drift", "adc.range", "adc.anti-alias",
+        "adc.settling", "adc.kick-back", "limits.supply-range", "limits.input-current",
+        "limits.capacitive-load"}, checked

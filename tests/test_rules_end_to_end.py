@@ -227,5 +227,7 @@ quit
     w = (math.log(abs(ta))) / (math.log(abs(ta)) - math.log(abs(tb)))
     pm = 180.0 + math.degrees(cmath.phase(ta)) + w * (math.degrees(cmath.phase(tb)) - math.degrees(cmath.phase(ta)))
     [f] = findings(cable_driver(tmp_path, 0.0), "stability.phase-margin")
+    # 2000 points a decade: ngspice's linear interpolation is off by far less than 0.01° and 1e-3 in frequency
+    # (REFERENCE-TOOLS measured 0.02° at 20 points a decade; the error falls with the square of the spacing)
     assert f.ctx["value"] == pytest.approx(pm, abs=0.01)
     assert f.ctx["crossover_hz"] == pytest.approx(fa + w * (fb - fa), rel=1e-3)

@@ -133,8 +133,8 @@ def test_sarif_of_a_generated_corpus_is_valid():
 
 @pytest.mark.slow
 def test_sarif_of_a_large_generated_corpus_is_valid():
-    reports, results = _corpus(400, seed=7)
-    assert reports >= 150 and results >= 400, (reports, results)
+    reports, results = _corpus(250, seed=7)
+    assert reports >= 80 and results >= 200, (reports, results)  # seed 7 gives 115 and 291
 
 
 def _fuzz_sarif(case: tuple[str, str]) -> None:
@@ -152,7 +152,7 @@ def test_sarif_of_fuzzed_designs_is_valid(case):
 
 
 @pytest.mark.slow
-@settings(max_examples=300, deadline=None, database=None, suppress_health_check=[HealthCheck.too_slow])
+@settings(max_examples=200, deadline=None, database=None, suppress_health_check=[HealthCheck.too_slow])
 @given(st.one_of(mutated_samples(), random_designs()))
 def test_sarif_of_many_fuzzed_designs_is_valid(case):
     _fuzz_sarif(case)

@@ -23,11 +23,11 @@ def run_cli(*argv: str) -> tuple[int, str, str]:
 @pytest.mark.parametrize("path", SAMPLES, ids=lambda p: p.name)
 def test_converted_netlist_has_the_same_stages_and_findings(path: Path, tmp_path: Path) -> None:
     trip = round_trip(load_design(path), tmp_path)
-    args = ["convert", str(tmp_path / "board.cir"), "--intent", str(tmp_path / "intent.json"),
-            "--map", str(tmp_path / "map.json"), "-o", str(tmp_path / "board.yaml")]
+    inputs = ["convert", str(tmp_path / "board.cir"), "--intent", str(tmp_path / "intent.json"),
+              "--map", str(tmp_path / "map.json")]
     if trip.original.design.parts:
-        args += ["--parts", str(tmp_path / "parts.json")]
-    code, _, err = run_cli(*args)
+        inputs += ["--parts", str(tmp_path / "parts.json")]
+    code, _, err = run_cli(*inputs, "-o", str(tmp_path / "board.yaml"))
     assert code == 0, err
     converted = load_design(tmp_path / "board.yaml")
     assert findings_of(converted) == findings_of(trip.back)
@@ -35,7 +35,7 @@ def test_converted_netlist_has_the_same_stages_and_findings(path: Path, tmp_path
     text = (tmp_path / "board.yaml").read_text(encoding="utf-8")
     first = next(line for line in text.splitlines() if line.startswith("  ") and "kind:" in line)
     assert first.rstrip().endswith(".cir:3") or "# board.cir:" in first
-    code, again, _ = run_cli(*args[:-2])
+    code, again, _ = run_cli(*inputs)
     assert again == text  # byte-identical, stable order
 
 

@@ -57,6 +57,7 @@ CASES = {
     "current source": (BASE + "I1 a 0 1m\n", 5, "current source"),
     "wrong port count": (BASE + ".subckt BLK a b\nR7 a b 1k\n.ends\nX1 a BLK\n", 8, "1 nodes given"),
     "binary": (BASE + "R3 a \x00 1k\n", 5, "NUL"),
+    "part name, no definition": (BASE + "XU1 a 0 b vcc 0 AFE-GP1\nR5 b 0 1k\n", 5, "no .subckt gives its ports"),
 }
 
 

@@ -113,6 +113,13 @@ def test_notes_for_ignored_cards(tmp_path: Path) -> None:
     assert loaded.design.components["R1"].value == pytest.approx(1e-3)
 
 
+def test_a_card_on_the_title_line_is_noted(tmp_path: Path) -> None:
+    deck = write(tmp_path, "t.cir", "R9 a 0 1k\nV1 a 0 1\nR1 a 0 2k\n")
+    loaded = load_design(deck)
+    assert "R9" not in loaded.design.components and any("line 1 of a SPICE netlist is its title" in n
+                                                         for n in loaded.notes)
+
+
 def test_a_map_with_a_yaml_design_is_refused(tmp_path: Path) -> None:
     netmap = write(tmp_path, "m.yaml", "afecheck-map: 1\n")
     with pytest.raises(InputError, match="applies to SPICE netlist input only"):
@@ -135,9 +142,13 @@ EXPECTED = {("headroom.input-common-mode", "U1", 10), ("headroom.output-swing", 
 def test_sample_findings_point_at_the_netlist_cards() -> None:
     code, out, err = run_cli("check", "--format", "json", str(SAMPLE), "--intent", str(SAMPLE_INTENT))
     assert code == 1, err
-    # findings on the netlist's parts (a design-wide note on the intent file, if any, points at that file)
-    found = {(f["rule"], f["refs"][0], f["location"]["line"]) for f in json.loads(out)["findings"] if f["refs"]}
+    findings = json.loads(out)["findings"]
+    on_cards = [f for f in findings if f["refs"] and f["location"]["file"].endswith(".cir")]
+    found = {(f["rule"], f["refs"][0], f["location"]["line"]) for f in on_cards}
     assert found == EXPECTED
+    (on_intent,) = [f for f in findings if not f["location"]["file"].endswith(".cir")]  # the ADC, declared there
+    assert on_intent["rule"] == "adc.anti-alias"
+    assert on_intent["location"]["file"].endswith("hive_scale.intent.yaml") and on_intent["location"]["line"] == 18
     lines = SAMPLE.read_text(encoding="utf-8").splitlines()
     assert lines[9].startswith("XU1 ") and lines[17].startswith("C2 ") and lines[18].startswith("XA ")
 
@@ -145,7 +156,8 @@ def test_sample_findings_point_at_the_netlist_cards() -> None:
 def test_sample_locations_in_sarif_junit_markdown_and_text() -> None:
     base = [str(SAMPLE), "--intent", str(SAMPLE_INTENT)]
     _, sarif, _ = run_cli("check", "--format", "sarif", *base)
-    results = [r for r in json.loads(sarif)["runs"][0]["results"]
+    results = json.loads(sarif)["runs"][0]["results"]
+    results = [r for r in results  # the netlist's own cards (intent-file findings point at the intent file)
                if r["locations"][0]["physicalLocation"]["artifactLocation"].get("uri", "").endswith(".cir")]
     places = {(r["ruleId"], r["locations"][0]["physicalLocation"]["region"]["startLine"]) for r in results}
     assert places == {(rule, line) for rule, _, line in EXPECTED}
@@ -159,3 +171,20 @@ def test_sample_locations_in_sarif_junit_markdown_and_text() -> None:
         _, out, _ = run_cli("check", "--format", fmt, *base)
         for _, _, line in EXPECTED:
             assert f"hive_scale.cir:{line}" in out, fmt
+
+
+def test_map_schema_and_model_accept_the_documented_map() -> None:
+    jsonschema = pytest.importorskip("jsonschema")
+    import yaml
+
+    from afecheck.commands.schema import schema_for
+    from afecheck.model.schema import NetlistMap
+
+    docs = (ROOT / "docs" / "SPICE-IMPORT.md").read_text(encoding="utf-8")
+    example = yaml.safe_load(docs.split("```yaml\n", 1)[1].split("```", 1)[0])
+    jsonschema.Draft202012Validator(schema_for("map")).validate(example)
+    assert NetlistMap.model_validate(example).subcircuits["VENDOR_AMP"].pins[-1] is None
+    intent = yaml.safe_load(SAMPLE_INTENT.read_text(encoding="utf-8"))
+    jsonschema.Draft202012Validator(schema_for("intent")).validate(intent)
+    with pytest.raises(jsonschema.ValidationError):
+        jsonschema.Draft202012Validator(schema_for("map")).validate({"afecheck-map": 1, "subcircuits": {"X": {}}})

@@ -86,3 +86,26 @@ def test_bad_input_exits_2_without_traceback(tmp_path):
     assert "Traceback" not in err and "R1" in err
     code, _, err = _run("stages", str(tmp_path / "missing.yaml"))
     assert code == 2 and "Traceback" not in err
+
+
+def test_stages_prints_the_budgets_worksheet_and_its_json_carries_every_contributor():
+    import io
+    import json
+
+    from afecheck.cli import main
+
+    path = "rules/budgets/offset/bad.yaml"
+    out = io.StringIO()
+    assert main(["stages", path], stdout=out, stderr=io.StringIO()) == 0
+    text = out.getvalue()
+    assert "Budgets worksheet" in text and "top: U1 offset voltage 50.9 mV" in text
+    assert "budget 5.00 mV (1019 %)" in text
+    out = io.StringIO()
+    assert main(["stages", "--json", path], stdout=out, stderr=io.StringIO()) == 0
+    ws = json.loads(out.getvalue())["worksheet"]
+    noise = ws["noise"]["nets"]["OUT"]
+    assert len(noise["freqs"]) == len(noise["output_density"]) > 10
+    assert {c["name"] for c in noise["contributors"]} >= {"U1 voltage noise", "R1 thermal", "R2 thermal"}
+    assert abs(sum(c["share"] for c in noise["contributors"]) - 1) < 1e-9
+    terms = {t["name"] for t in ws["dc_error"]["nets"]["OUT"]["terms"]}
+    assert {"U1 offset voltage", "R1 tolerance", "U1 finite open-loop gain"} <= terms

@@ -288,3 +288,19 @@ signals:
     with pytest.raises(InputError) as err:
         load(tmp_path, text)
     assert "a current signal takes no dc" in str(err.value.problems[0].message)
+
+
+def test_swept_form_refines_an_interior_extreme_between_grid_points() -> None:
+    """A value that peaks between temperature grid points: the parabola through the three points around the
+    largest sample gives the true peak of a quadratic exactly (common practice: three-point vertex formula)."""
+    from afecheck.analysis.affine import BASE_POINTS, SweptForm
+
+    x = np.linspace(0.0, 1.0, BASE_POINTS)
+    nominal = 2.0 - 5.0 * (x - 0.51) ** 2  # peak 2.0 at 0.51, off the grid
+    gains = np.ones((BASE_POINTS, 1)) * 0.1
+    form = SweptForm(("rail:A",), np.array([-1.0]), np.array([1.0]), ("RT1",), 1, nominal, gains)
+    lo, hi = form.extremes()
+    assert hi == pytest.approx(2.1, rel=1e-12)
+    assert lo == pytest.approx(min(nominal) - 0.1, rel=1e-12)
+    assert form.at().nominal == pytest.approx(2.0 - 5.0 * 0.01 ** 2)
+    assert form.at().terms["rail:A"].gain == pytest.approx(0.1)

@@ -20,7 +20,6 @@ extreme when one thermistor is swept.
 
 from __future__ import annotations
 
-import math
 from collections.abc import Mapping
 from dataclasses import dataclass
 
@@ -111,9 +110,6 @@ class SweptForm:
         one = len(self.swept) == 1
         return -float(refined_max(-lo[:, None], one)[0]), float(refined_max(hi[:, None], one)[0])
 
-    def constant(self) -> bool:
-        """True when the value is one fixed number (no quantity, no sweep)."""
-        return self.points == 1 and not np.any(self.gains)
 
 
 def refined_max(values: np.ndarray, one_axis: bool) -> np.ndarray:
@@ -170,26 +166,3 @@ def rows_on(form: SweptForm, swept: tuple[str, ...], coords: np.ndarray) -> np.n
     n = (BASE_POINTS - 1) // form.step + 1
     idx = [coords[:, swept.index(t)] // form.step for t in form.swept]
     return np.ravel_multi_index(tuple(idx), (n,) * len(form.swept))
-
-
-def envelope(form: SweptForm, key: str) -> SweptForm:
-    """The form's range as one quantity of its own (a bound: it forgets what moved the value)."""
-    lo, hi = form.extremes()
-    mid = 0.5 * (lo + hi)
-    return quantity_form(key, mid, lo - mid, hi - mid)
-
-
-def combine(keys: tuple[str, ...], lo: np.ndarray, hi: np.ndarray, swept: tuple[str, ...], step: int,
-            nominal: np.ndarray, gains: np.ndarray) -> SweptForm:
-    """A form from arrays, with quantities whose gain is zero everywhere dropped."""
-    used = np.any(gains != 0.0, axis=0)
-    if not np.all(used):
-        keys = tuple(k for k, u in zip(keys, used, strict=True) if u)
-        lo, hi, gains = lo[used], hi[used], gains[:, used]
-    return SweptForm(keys, lo, hi, swept, step, nominal, gains)
-
-
-def is_finite(form: SweptForm) -> bool:
-    """True when every number of the form is finite."""
-    return bool(np.all(np.isfinite(form.nominal)) and np.all(np.isfinite(form.gains))
-                and math.isfinite(float(np.sum(form.lo))) and math.isfinite(float(np.sum(form.hi))))

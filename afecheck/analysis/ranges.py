@@ -130,25 +130,46 @@ def solve_forms(system: MnaSystem, forms: Mapping[str, SweptForm], varying: Mapp
 
 
 def _solve_points(system: MnaSystem, bmat: np.ndarray, varying: Mapping[str, np.ndarray], points: int) -> np.ndarray:
-    """G⁻¹·B at every grid point, shape (P, n, m); (1, n, m) when no resistor moves."""
+    """G⁻¹·B at every grid point, shape (P, n, m); (1, n, m) when no resistor moves.
+
+    A resistor that moves adds dg·u·uᵀ to G (u = e_a − e_b), so one solve of G and the Woodbury identity give
+    every point: X_p = X0 − Z·(I + D_p·UᵀZ)⁻¹·D_p·UᵀX0 with Z = G⁻¹U and D_p the conductance changes at p.
+    """
     g = system.g
-    if varying:
-        mats = np.repeat(g[None, :, :], points, axis=0)
-        for name, r in varying.items():
-            el = system.netlist.element(name)
-            if not isinstance(el, Resistor):
-                continue
-            dg = 1.0 / r - 1.0 / el.value
-            a, b = system.node_index(el.a), system.node_index(el.b)
-            for i, j, sgn in ((a, a, 1.0), (b, b, 1.0), (a, b, -1.0), (b, a, -1.0)):
-                if i >= 0 and j >= 0:
-                    mats[:, i, j] += sgn * dg
-    else:
-        mats = g[None, :, :]
+    cols: list[np.ndarray] = []
+    changes: list[np.ndarray] = []
+    for name, r in varying.items():
+        el = system.netlist.element(name)
+        if not isinstance(el, Resistor):
+            continue
+        u = np.zeros(g.shape[0])
+        a, b = system.node_index(el.a), system.node_index(el.b)
+        if a >= 0:
+            u[a] = 1.0
+        if b >= 0:
+            u[b] = -1.0
+        cols.append(u)
+        changes.append(1.0 / np.asarray(r, dtype=float) - 1.0 / el.value)
+    m = bmat.shape[1]
     try:
-        x = np.linalg.solve(mats, np.broadcast_to(bmat, (mats.shape[0], *bmat.shape)))
+        sol = np.linalg.solve(g, np.column_stack([bmat, *cols]) if cols else bmat)
     except np.linalg.LinAlgError:
         raise SingularCircuitError("the DC nodal matrix is singular") from None
+    x0 = sol[:, :m]
+    if cols:
+        u = np.column_stack(cols)
+        z = sol[:, m:]
+        d = np.stack(changes, axis=1)  # (P, k)
+        k = u.shape[1]
+        a = np.eye(k)[None] + d[:, :, None] * (u.T @ z)[None]
+        rhs = d[:, :, None] * (u.T @ x0)[None]
+        try:
+            y = np.linalg.solve(a, rhs)
+        except np.linalg.LinAlgError:
+            raise SingularCircuitError("the DC nodal matrix is singular at a temperature point") from None
+        x = x0[None] - z[None] @ y
+    else:
+        x = x0[None]
     if not np.all(np.isfinite(x)):
         raise SingularCircuitError("the DC solution is not finite")
     return x

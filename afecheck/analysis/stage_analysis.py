@@ -260,7 +260,7 @@ def analyse_unit(circuit: Circuit, plan: StagePlan, unit: tuple[str, ...],
         return UnitResult(tuple(_empty_result(s, circuit, tuple(p.message for p in exc.problems)) for s in stages), ())
     if circuits is not None:
         circuits.update({r: (netlist, {i.source.net: i.branch for i in inputs}) for r in unit})
-    loop_netlist = _coupled_netlist(circuit, plan, stages, done, corners, netlist)
+    loop_netlist = LoopCircuit(circuit, plan, stages, done, corners, netlist)
     try:
         return _solve_unit(circuit, stages, netlist, inputs, notes, cache, corners, sources, ntcs, loop_netlist)
     except SingularCircuitError as exc:
@@ -319,22 +319,99 @@ def _neighbours(circuit: Circuit, plan: StagePlan, stages: list[Stage]) -> list[
     return out
 
 
-def _coupled_netlist(circuit: Circuit, plan: StagePlan, stages: list[Stage], done: Mapping[str, StageResult],
-                     corners: Corners, netlist: Netlist) -> Netlist:
-    """The unit with its neighbouring op-amps and their networks, for loop gain: each neighbour's output and
-    input impedance then follow frequency as its own loop makes them (the unit's own netlist if none)."""
-    near = _neighbours(circuit, plan, stages)
-    if not near:
-        return netlist
-    try:
-        return _unit_netlist(circuit, stages + [plan.stages[r] for r in near], done, corners, {})[0]
-    except (InputError, ValueError):
-        return netlist
+class LoopCircuit:
+    """The circuit an op-amp's loop gain is solved on: the unit with its neighbouring op-amps and their networks,
+    so each neighbour's output and input impedance follow frequency as its own loop makes them (the unit's own
+    netlist when it has no neighbours). Built only when asked for; ``signature`` identifies it without building."""
+
+    def __init__(self, circuit: Circuit | None, plan: StagePlan | None, stages: list[Stage],
+                 done: Mapping[str, StageResult], corners: Corners | None, netlist: Netlist) -> None:
+        self.unit = tuple(s.opamp for s in stages)
+        self._own = netlist
+        self._built: Netlist | None = None
+        self._group: list[Stage] = []
+        self.signature: tuple | None = None
+        if circuit is not None and plan is not None and corners is not None:
+            near = _neighbours(circuit, plan, stages)
+            if near:
+                self._group = stages + [plan.stages[r] for r in near]
+                self._args = (circuit, done, corners)
+                self.signature = _coupling_signature(circuit, self._group, done)
+
+    @classmethod
+    def plain(cls, netlist: Netlist) -> LoopCircuit:
+        """A loop circuit that is just ``netlist``."""
+        return cls(None, None, [], {}, None, netlist)
+
+    @property
+    def netlist(self) -> Netlist:
+        """The coupled netlist (built once), or the unit's own."""
+        if not self._group:
+            return self._own
+        if self._built is None:
+            circuit, done, corners = self._args
+            try:
+                self._built = _unit_netlist(circuit, self._group, done, corners, {})[0]
+            except (InputError, ValueError):
+                self._built = self._own
+        return self._built
+
+
+def _coupling_signature(circuit: Circuit, group: list[Stage], done: Mapping[str, StageResult]) -> tuple:
+    """The coupled group's circuit up to names: every part of its stages with its value and numbered nets, and on
+    each net what else touches it (rails, signals, loads, other op-amps, upstream output resistances). Equal
+    signatures build equal coupled circuits."""
+    d = circuit.loaded.design
+    numbers: dict[str, int] = {circuit.ground: -1}
+    key: list[tuple] = []
+    seen: set[str] = set()
+    for s in group:
+        for ref in (s.opamp, *s.refs):
+            if ref in seen:
+                continue
+            seen.add(ref)
+            comp = d.components[ref]
+            nodes = tuple((pin, numbers.setdefault(net, len(numbers))) for pin, net in sorted(comp.pins.items()))
+            key.append((comp.kind, nodes, _value_key(comp)))
+    for net, number in list(numbers.items()):
+        if net in circuit.fixed:
+            key.append((number, "fixed"))
+            continue
+        sig = d.signals.get(net)
+        if sig is not None:
+            key.append((number, sig.kind, sig.source_resistance, sig.capacitance, sig.shunt_resistance,
+                        sig.leakage_resistance))
+        load = d.loads.get(net)
+        if load is not None:
+            key.append((number, "load", load.resistance, load.capacitance, numbers.get(load.reference or "")))
+        owner = circuit.opamp_outputs.get(net)
+        if owner is not None and owner not in seen:
+            res = done.get(owner)
+            key.append((number, "driven", None if res is None else res.output_resistance))
+        for ref, pin in circuit.net_pins.get(net, ()):
+            if ref not in seen:
+                comp = d.components[ref]
+                key.append((number, comp.kind, pin, _value_key(comp),
+                            tuple(numbers.get(n, -2) for _, n in sorted(comp.pins.items()))))
+    return tuple(key)
+
+
+def _value_key(comp) -> tuple:  # noqa: ANN001 - any component model
+    kind = comp.kind
+    if kind in ("resistor", "capacitor", "vsource"):
+        return (comp.value,)
+    if kind == "ntc":
+        return (comp.r25, comp.beta, tuple(comp.temperature))
+    if kind == "opamp":
+        return (comp.part,)
+    if kind == "signal_source":
+        return (comp.source_resistance,)
+    return ()
 
 
 def _solve_unit(circuit: Circuit, stages: list[Stage], netlist: Netlist, inputs: list[_Input],
                 notes: list[str], cache: dict | None, corners: Corners, sources: _Sources,
-                ntcs: tuple[str, ...], loop_netlist: Netlist) -> UnitResult:
+                ntcs: tuple[str, ...], loop_netlist: LoopCircuit) -> UnitResult:
     check_connectivity(netlist, dc=True)
     system = assemble(netlist)
     forms, varying, grid = _unit_sources(circuit, netlist, system, corners, sources, ntcs)
@@ -489,7 +566,7 @@ def _band(inp: _Input) -> list[float]:
 def _stage_result(circuit: Circuit, s: Stage, netlist: Netlist, system: MnaSystem, inputs: list[_Input],
                   x_unit: np.ndarray, per_input: list[np.ndarray], lo: np.ndarray,
                   hi: np.ndarray, ac: AcResult, notes: list[str], cache: dict | None = None,
-                  loop_netlist: Netlist | None = None, corners: Corners | None = None) -> StageResult:
+                  loop_netlist: LoopCircuit | None = None, corners: Corners | None = None) -> StageResult:
     """Fill one op-amp's StageResult from the unit's DC solutions, AC amplitudes and its own loop gain."""
     ac_amp, fmax, ac_mid, ac_peak = ac
     corners = corners or Corners(circuit)
@@ -554,7 +631,7 @@ def _stage_result(circuit: Circuit, s: Stage, netlist: Netlist, system: MnaSyste
         iout_peak += vac / load_r if load_r else 0.0
         iout_peak += 2 * math.pi * f_max * load_c * vac
 
-    loop = _loop_numbers(loop_netlist or netlist, s.opamp, f_max, cache)
+    loop = _loop_numbers(loop_netlist or LoopCircuit.plain(netlist), s.opamp, f_max, cache)
     fb, t_dc, fc, pm, gm, ng_dc, ng_fc, ng_hf, t_fmax = loop.numbers
     reasons += loop.reasons
 
@@ -579,7 +656,8 @@ def _stage_result(circuit: Circuit, s: Stage, netlist: Netlist, system: MnaSyste
     part = circuit.loaded.design.components[s.opamp].part  # type: ignore[union-attr]
     cf = None
     if s.topology == "transimpedance" and fb == "negative" and pm is not None and pm < TIA_TARGET_PM_DEG - 5.0:
-        cf = _capacitor_for_margin(loop_netlist or netlist, s, _node(circuit, s.out), _node(circuit, s.in_minus))
+        cf = _capacitor_for_margin(loop_netlist.netlist if loop_netlist else netlist, s, _node(circuit, s.out),
+                                   _node(circuit, s.in_minus))
     return StageResult(
         opamp=s.opamp, part=part, topology=s.topology, refs=s.refs, in_plus=s.in_plus, in_minus=s.in_minus,
         out=s.out, group=s.group, inputs=tuple(stage_inputs), feedback_capacitance_for_margin=cf,
@@ -677,16 +755,26 @@ class _Loop:
     reasons: tuple[str, ...]
 
 
-def _loop_numbers(netlist: Netlist, ref: str, f_max: float, cache: dict | None) -> _Loop:
+def _loop_numbers(loop_circuit: LoopCircuit, ref: str, f_max: float, cache: dict | None) -> _Loop:
     """Return-ratio numbers of op-amp ``ref``, memoised on the local circuit's shape and values.
 
     Stages repeated channel after channel have the same local circuit up to names; the loop gain depends only on
-    the elements (sources zeroed), so one solve serves them all.
+    the elements (sources zeroed), so one solve serves them all. A unit coupled to its neighbours is first looked
+    up by its design-level signature, so a repeated channel does not even build its coupled circuit.
     """
-    key = None
+    key = sig_key = None
+    if cache is not None:
+        sig = loop_circuit.signature
+        if sig is not None:
+            sig_key = ("coupled", sig, ref in loop_circuit.unit and loop_circuit.unit.index(ref), f_max)
+            if sig_key in cache:
+                return cache[sig_key]
+    netlist = loop_circuit.netlist
     if cache is not None:
         key = (_circuit_key(netlist, netlist.opamps[ref].loop_element), f_max)
         if key in cache:
+            if sig_key is not None:
+                cache[sig_key] = cache[key]
             return cache[key]
     op = netlist.opamps[ref]
     fb: str = "none"
@@ -722,6 +810,8 @@ def _loop_numbers(netlist: Netlist, ref: str, f_max: float, cache: dict | None) 
                    tuple(reasons))
     if key is not None:
         cache[key] = result
+    if sig_key is not None:
+        cache[sig_key] = result
     return result
 
 

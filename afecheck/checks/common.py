@@ -46,6 +46,10 @@ def db(ratio: float) -> float:
     return 20.0 * math.log10(ratio) if ratio > 0 else -math.inf
 
 
+# Published works the findings' limit sources cite (by author and title, as readers can find them).
+FRANCO = "Franco, Design with Operational Amplifiers and Analog Integrated Circuits, 4th ed."
+GHLM = "Gray, Hurst, Lewis, Meyer, Analysis and Design of Analog Integrated Circuits, 5th ed."
+
 NUMERIC_TOLERANCE = 1e-9
 """Relative size of solver round-off: differences this small against the quantities involved are noise."""
 

@@ -14,6 +14,7 @@ from pathlib import Path
 from typing import Any, TextIO
 
 from afecheck.commands.netlist_options import add_netlist_arguments, netlist_options
+from afecheck.commands.progress import progress_line
 from afecheck.report import FORMATS
 
 HELP = "review design files and report findings"
@@ -101,7 +102,22 @@ def add_arguments(p: argparse.ArgumentParser) -> None:
                    " hook that passes every YAML file")
     p.add_argument("--color", choices=["auto", "always", "never"], default="auto",
                    help="colour the text report (auto: only on a terminal; never when NO_COLOR is set)")
+    p.add_argument("-j", "--jobs", type=_jobs, default=None, metavar="N",
+                   help="check designs in N processes (default: one per core; 1: all in this process); the report "
+                   "is the same byte for byte")
+    p.add_argument("-q", "--quiet", action="store_true",
+                   help="no progress line (it is shown only on a terminal, on standard error, for runs over a second)")
     p.set_defaults(reports=None)
+
+
+def _jobs(text: str) -> int:
+    try:
+        n = int(text)
+    except ValueError:
+        raise argparse.ArgumentTypeError(f"read {text!r}; expected a whole number of processes, 1 or more") from None
+    if n < 1:
+        raise argparse.ArgumentTypeError(f"read {n}; expected 1 or more processes")
+    return n
 
 
 def use_color(choice: str, stream: TextIO) -> bool:
@@ -167,8 +183,11 @@ def run(args: argparse.Namespace, stdout: TextIO, stderr: TextIO) -> int:
             if not args.files:
                 print("afecheck: no design files among the files given", file=stderr)
                 return 0
-        report = review_files(args.files, fail_on=args.fail_on, baseline=args.baseline, detail=detail,
-                              on_note=lambda note: print(f"note: {note}", file=stderr), **review_options(args))
+        jobs = args.jobs or os.cpu_count() or 1
+        with progress_line(len(args.files), stderr, quiet=args.quiet) as done:
+            report = review_files(args.files, fail_on=args.fail_on, baseline=args.baseline, detail=detail,
+                                  on_note=lambda note: print(f"note: {note}", file=stderr), jobs=jobs,
+                                  on_done=done, **review_options(args))
     rendered = [(path, render(report, str(fmt), color=path is None and use_color(args.color, stdout)))
                 for fmt, path in plan]
     write_outputs([(path, text) for path, text in rendered if path is not None], reads)

@@ -31,9 +31,13 @@ def add_arguments(p: argparse.ArgumentParser) -> None:
 
 def run(args: argparse.Namespace, stdout: TextIO, stderr: TextIO) -> int:
     from afecheck.analysis import analyse
+    from afecheck.analysis.worksheet import build_worksheet
     from afecheck.model.load import load_design
+    from afecheck.report.worksheet import render_worksheet
 
     loaded = load_design(args.file, intent=args.intent, libraries=tuple(args.parts), **netlist_options(args))
+    for note in loaded.notes:
+        print(f"note: {note}", file=stderr)
     if args.curves:
         from afecheck.analysis.curves import design_curves
 
@@ -41,10 +45,11 @@ def run(args: argparse.Namespace, stdout: TextIO, stderr: TextIO) -> int:
         stdout.write(render_json(loaded.design.name, loaded.file, analysis, curves))
         return 0
     analysis = analyse(loaded)
+    worksheet = build_worksheet(loaded, analysis)
     if args.json:
-        stdout.write(render_json(loaded.design.name, loaded.file, analysis))
+        stdout.write(render_json(loaded.design.name, loaded.file, analysis, worksheet=worksheet))
     else:
-        stdout.write(render_text(loaded.design.name, analysis))
+        stdout.write(render_text(loaded.design.name, analysis) + render_worksheet(worksheet))
     return 0
 
 
@@ -59,9 +64,11 @@ def _clean(value: object) -> object:
     return value
 
 
-def render_json(name: str, file: str, analysis: DesignAnalysis, curves: dict[str, StageCurves] | None = None) -> str:
+def render_json(name: str, file: str, analysis: DesignAnalysis, curves: dict[str, StageCurves] | None = None,
+                worksheet: object = None) -> str:
     """The whole analysis as JSON: every stage field, every net signal, what was not evaluated; with ``curves``,
-    each stage also carries its frequency responses under ``curves``."""
+    each stage also carries its frequency responses under ``curves``; with ``worksheet``, the budgets worksheet
+    (noise, DC error and drift with every contributor, ADC drive, supply limits)."""
     stages = [dataclasses.asdict(s) for s in analysis.stages]
     if curves is not None:
         for s in stages:
@@ -75,6 +82,8 @@ def render_json(name: str, file: str, analysis: DesignAnalysis, curves: dict[str
         "nets": {k: dataclasses.asdict(v) for k, v in analysis.nets.items()},
         "not_evaluated": [{"refs": list(refs), "reason": reason} for refs, reason in analysis.not_evaluated],
     }
+    if worksheet is not None:
+        data["worksheet"] = dataclasses.asdict(worksheet)  # type: ignore[call-overload]
     return json.dumps(_clean(data), indent=2, sort_keys=False) + "\n"
 
 

@@ -15,6 +15,8 @@ from types import ModuleType
 from typing import Any
 
 from afecheck.checks import coverage, declared
+from afecheck.checks.adc import anti_alias, kickback, range_fill, settling
+from afecheck.checks.budgets import drift_over_budget, gain_error_over_budget, noise_over_budget, offset_over_budget
 from afecheck.checks.distortion import (
     class2_ceramic,
     common_mode_swing,
@@ -25,6 +27,7 @@ from afecheck.checks.distortion import (
     transition_region,
 )
 from afecheck.checks.headroom import floating_input, input_common_mode, output_current, output_swing, supply_rail
+from afecheck.checks.limits import capacitive_load, input_current, supply_range
 from afecheck.checks.loading import bias_current_offset, input_divider_error, inverting_source_loading
 from afecheck.checks.stability import feedback_sign, gain_margin, min_stable_gain, phase_margin
 from afecheck.engine.aliases import current_id, retired
@@ -48,6 +51,9 @@ _BUILTIN_MODULES: tuple[ModuleType, ...] = (
     transition_region, common_mode_swing, loop_gain_at_fmax, slew_rate, output_near_limit, class2_ceramic,
     input_impedance_imbalance,
     floating_input, supply_rail,
+    noise_over_budget, offset_over_budget, gain_error_over_budget, drift_over_budget,
+    range_fill, anti_alias, settling, kickback,
+    supply_range, input_current, capacitive_load,
 )
 
 BUILTIN_RULES: tuple[Rule, ...] = tuple(Rule(m.META, m.check) for m in _BUILTIN_MODULES)

@@ -48,7 +48,8 @@ def run_rules(loaded: LoadedDesign, **options: Any) -> tuple[Finding, ...]:
         params_of = bound.get(rule.meta.id, {})
         results = _run_one(rule, base.for_rule(rule.meta, params_of))
         if sensitivity is not None:
-            results = sensitivity.settle(results, lambda c, r=rule, p=params_of: _rerun(r, c.for_rule(r.meta, p)))
+            results = sensitivity.settle(results, lambda c, r=rule, p=params_of: _rerun(r, c.for_rule(r.meta, p)),
+                                         rule.meta.id)
         for f in results:
             found.append(_apply_policy(f, severities.get(f.rule)))
     return tuple(sorted(_grouped(base, found), key=Finding.sort_key))

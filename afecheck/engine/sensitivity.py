@@ -41,15 +41,22 @@ class Sensitivity:
 
     def __init__(self, base: Context) -> None:
         self.base = base
+        self._rule = ""
         self._contexts: dict[frozenset, Context] = {}
+        self._runs: dict[tuple[str, frozenset], list[Finding]] = {}
 
     def _context(self, updates: frozenset[tuple[str, str, float]]) -> Context:
         if updates not in self._contexts:
             self._contexts[updates] = Context(_variant(self.base.loaded, updates))
         return self._contexts[updates]
 
-    def settle(self, findings: Sequence[Finding], run: Callable[[Context], list[Finding]]) -> list[Finding]:
-        """Each finding with assumptions, made computed when no assumption decides it (module docstring)."""
+    def settle(self, findings: Sequence[Finding], run: Callable[[Context], list[Finding]],
+               rule: str = "") -> list[Finding]:
+        """Each finding with assumptions, made computed when no assumption decides it (module docstring).
+
+        ``run`` reruns the rule named ``rule`` on a variant context; its results are shared by all its findings.
+        """
+        self._rule = rule
         return [self._settle_one(f, run) if f.assumed and f.confidence == "estimated" else f for f in findings]
 
     def _settle_one(self, f: Finding, run: Callable[[Context], list[Finding]]) -> Finding:
@@ -72,7 +79,11 @@ class Sensitivity:
         ctx: dict[str, Any] = dict(f.ctx)
         if decided:
             ctx["decided_by"] = ", ".join(decided)
-            return replace(f, ctx=ctx)
+            note = (f" (estimated: the verdict changes with assumed {', '.join(decided)} over "
+                    f"{'its' if len(decided) == 1 else 'their'} plausible range)")
+            tail = f". Fix: {f.fix}" if f.fix and f.message.endswith(f". Fix: {f.fix}") else ""
+            head = f.message[: len(f.message) - len(tail)] if tail else f.message
+            return replace(f, ctx=ctx, message=head + note + tail)
         ctx["assumptions_checked"] = "; ".join(checked)
         return replace(f, confidence="computed", severity=verdict[0], ctx=ctx)
 
@@ -95,7 +106,10 @@ class Sensitivity:
         return nominal, ends
 
     def _verdict(self, updates: frozenset, f: Finding, run: Callable[[Context], list[Finding]]) -> tuple:
-        again = run(self._context(updates))
+        key = (self._rule, updates)
+        if key not in self._runs:  # one rerun of a rule per variant, shared by all its findings
+            self._runs[key] = run(self._context(updates))
+        again = self._runs[key]
         return tuple(sorted(g.severity for g in again if g.fingerprint == f.fingerprint))
 
     @staticmethod

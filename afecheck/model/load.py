@@ -222,6 +222,15 @@ def _merge_intent(
                     continue
                 merged[section][net] = entry
                 positions.update(by_entry.get((section, net), {}))
+        if intent.operating_temperature is not None:
+            if design.operating_temperature is not None or "operating_temperature" in merged:
+                problems.append(idoc.problem(("operating_temperature",),
+                                             "the operating temperature is declared twice (design and intent, or two "
+                                             "intent files); keep one"))
+            else:
+                merged["operating_temperature"] = intent.operating_temperature
+                positions.update({p: (idoc.file, *lc) for p,
+                                  lc in idoc.keys.items() if p[:1] == ("operating_temperature",)})
     return design.model_copy(update=merged)
 
 

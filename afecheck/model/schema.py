@@ -48,6 +48,24 @@ Celsius = Annotated[float, BeforeValidator(parse_temperature_c), WithJsonSchema(
 NetName = Annotated[str, Field(min_length=1, max_length=200)]
 
 
+def _tempco(value: object) -> object:
+    """A temperature coefficient: ``50 ppm/K``, ``25 ppm/°C``, ``0.01 %/K`` or a fraction per kelvin."""
+    if isinstance(value, str):
+        text = value.strip()
+        for suffix in ("/K", "/°C", "/degC"):
+            if text.endswith(suffix):
+                text = text[: -len(suffix)].strip()
+                break
+        return parse_tolerance(text)
+    return parse_tolerance(value)
+
+
+TempCo = Annotated[float, BeforeValidator(_tempco), WithJsonSchema(
+    {"anyOf": [{"type": "number", "minimum": 0, "exclusiveMaximum": 1}, {"type": "string", "minLength": 1}],
+     "description": "a temperature coefficient magnitude: 50 ppm/K, 0.01 %/K, or a fraction per kelvin"})]
+Second = Q("s")
+
+
 class _Strict(BaseModel):
     model_config = ConfigDict(extra="forbid", frozen=True, populate_by_name=True)
 
@@ -108,6 +126,7 @@ def _split_code_tolerance(data: object, unit: str) -> object:
 class Resistor(_Component):
     kind: Literal["resistor"]
     value: Ohm = Field(gt=0)
+    tempco: TempCo | None = None
 
     @model_validator(mode="before")
     @classmethod
@@ -273,6 +292,7 @@ class VoltageSource(_Component):
 
     kind: Literal["vsource"]
     value: Volt
+    tempco: TempCo | None = None
 
 
 class SignalSource(_Component):
@@ -309,6 +329,7 @@ class Rail(_Strict):
 
     voltage: Volt | None = None
     tolerance: Tolerance = 0.0
+    tempco: TempCo | None = None
     description: str | None = None
 
 
@@ -375,10 +396,17 @@ class Signal(_Strict):
 
 
 class Adc(_Strict):
+    """An ADC input: full scale, resolution, sample rate; for drive checks its acquisition time and sampling capacitor.
+
+    ``full_scale`` spans 0..full_scale (or ±full_scale/2 when ``bipolar``) from the load's ``reference`` (else ground).
+    """
+
     full_scale: Volt = Field(gt=0)
     bits: int = Field(ge=1, le=32)
     sample_rate: Hertz = Field(gt=0)
     bipolar: bool = False
+    acquisition_time: Second | None = Field(default=None, gt=0, description="time the sampling switch is closed")
+    input_capacitance: Farad | None = Field(default=None, gt=0, description="sampling capacitor charged each sample")
 
 
 class Load(_Strict):
@@ -391,9 +419,13 @@ class Load(_Strict):
 
 
 class Budget(_Strict):
+    """Error budget at a net, output-referred: gain error (fraction), offset (V), noise (V rms over the signal band),
+    drift (V of output change over the declared operating temperature range)."""
+
     gain_accuracy: Tolerance | None = None
     offset: Volt | None = Field(default=None, gt=0)
     noise: Volt | None = Field(default=None, gt=0)
+    drift: Volt | None = Field(default=None, gt=0)
 
 
 Hazard = Literal["mains", "high-voltage", "patient-connected", "hazardous-area"]
@@ -430,6 +462,8 @@ class Intent(_Strict):
     signals: dict[NetName, Signal] = {}
     loads: dict[NetName, Load] = {}
     budgets: dict[NetName, Budget] = {}
+    operating_temperature: tuple[Celsius, Celsius] | None = Field(
+        default=None, description="ambient range the circuit works over, when the design itself does not say")
     netlist: NetlistMapBody | None = Field(default=None, description="map for SPICE netlist input (as --map)")
 
 
@@ -449,4 +483,6 @@ class Design(_Strict):
     signals: dict[NetName, Signal] = {}
     loads: dict[NetName, Load] = {}
     budgets: dict[NetName, Budget] = {}
+    operating_temperature: tuple[Celsius, Celsius] | None = Field(
+        default=None, description="ambient range the circuit works over (noise at its top, drift across it)")
     waive: tuple[InlineWaiver, ...] = ()

@@ -27,6 +27,7 @@ MAX_CARD_CHARS = 100_000
 
 _TOKEN = re.compile(r"\{[^{}]*(?:\{[^{}]*\}[^{}]*)*\}|'[^']*'|[(),=]|[^\s(),='{}]+|[{}']")
 _WINDOWS_DRIVE = re.compile(r"^[A-Za-z]:")
+_CARD_LIKE = re.compile(r"^[RCVXLI][A-Za-z0-9_]*\s+\S+\s+\S+\s+\S+", re.I)
 _ANALYSES = (".op", ".ac", ".dc", ".tran", ".noise", ".tf", ".sens", ".pz", ".disto", ".four", ".meas",
              ".measure", ".print", ".plot", ".probe", ".save", ".option", ".options", ".opt", ".temp", ".ic",
              ".nodeset", ".width", ".csparam", ".step")
@@ -157,6 +158,9 @@ class _Reader:
         self.stack.append(resolved)
         text = self.read_text(path, display, where)
         first = text.split("\n", 1)[0].strip() if title else ""
+        if title and _CARD_LIKE.match(first):
+            self.notes.append(f"{display}:1: line 1 of a SPICE netlist is its title, so {first[:40]!r} is not read "
+                              "as a card; start the file with a title line")
         logical = self.lines(text, display, title)
         in_section = section is None
         control: int | None = None

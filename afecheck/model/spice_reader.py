@@ -412,8 +412,9 @@ class NetlistReader:
             part = self.part_names[sub_tok.low]
             pins = infer_pins(ports) if ports else None
             if pins is None:
+                why = "its port names do not say which pin is which" if ports else "no .subckt gives its ports"
                 self.problem(sub_tok, f"{toks[0].text}: subcircuit {sub_tok.text!r} is named like part model "
-                             f"{part!r} but its port names do not say which pin is which; map it with pins: [...]")
+                             f"{part!r} but {why}; map it with pins: [...] (one afecheck pin per port)")
                 return
         elif definition is not None and definition.readable:
             self.flatten(card, definition, node_toks, pairs, scope)

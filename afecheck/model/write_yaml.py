@@ -55,11 +55,11 @@ def _origin(loaded: LoadedDesign, *path: str) -> str:
 def design_yaml(loaded: LoadedDesign) -> str:
     """The design (intent merged) as YAML text; part models from library files are written inline."""
     d = loaded.design
-    dump = d.model_dump(mode="json", by_alias=True, exclude_unset=True)
+    dump = d.model_dump(mode="json", by_alias=True, exclude_unset=True)  # what was written, defaults included
     lines = [f"# afecheck design converted by `afecheck convert` from {Path(loaded.file).name}",
              "# each entry's comment names the file and line it was read from", "afecheck: 1",
              f"name: {_scalar(d.name)}", f"ground: {_scalar(d.ground)}"]
-    for key in ("description", "hazards"):
+    for key in ("description", "hazards", "operating_temperature"):
         if key in dump:
             lines.append(f"{key}: {flow(dump[key])}")
     used = [c.part for c in d.components.values() if c.kind == "opamp"]

@@ -125,6 +125,8 @@ class OpAmpModel(BaseModel):
     supply_min: _q("V") | None = Field(default=None, gt=0)
     supply_max: _q("V") | None = Field(default=None, gt=0)
     max_capacitive_load: _q("F") | None = Field(default=None, gt=0)
+    input_current_limit: _q("A") | None = Field(
+        default=None, gt=0, description="largest current an input pin may carry when driven beyond a rail")
     input_stage: InputStage = "single-pair"
     transition_below_vplus: _q("V") | None = None
     transition_width: _q("V") | None = Field(default=None, ge=0)

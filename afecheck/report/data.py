@@ -265,12 +265,15 @@ INCOMPLETE_RULE = "coverage.not-evaluated"
 
 
 def not_evaluated_stages(report: Report) -> tuple[tuple[str, str], ...]:
-    """(stage, first reason) of every active analysis-incomplete finding, in report order, one per stage."""
-    seen: dict[str, str] = {}
-    for e in report.entries():
-        f = e.finding
-        if f.rule == INCOMPLETE_RULE and e.active:
-            stage = e.stage or ", ".join(f.location.refs) or "design"
-            reason = str(f.ctx.get("reason", f.message)).split("; ")[0]
-            seen.setdefault(stage, reason)
-    return tuple(seen.items())
+    """(stage, first reason) of every active analysis-incomplete finding, in report order, one per stage of each
+    design; the stage is prefixed with its file when the report holds several designs."""
+    seen: dict[tuple[str, str], tuple[str, str]] = {}
+    several = len(report.designs) > 1
+    for design in report.designs:
+        for e in design.entries:
+            f = e.finding
+            if f.rule == INCOMPLETE_RULE and e.active:
+                stage = e.stage or ", ".join(f.location.refs) or "design"
+                reason = str(f.ctx.get("reason", f.message)).split("; ")[0]
+                seen.setdefault((design.file, stage), (f"{design.file}:{stage}" if several else stage, reason))
+    return tuple(seen.values())

@@ -14,6 +14,8 @@ Lines starting ``*@`` in the deck tell the test what to compare:
 ``*@ nets IN OUT``            nets whose DC range (min and max over the corners) is compared
 ``*@ loop U1 [tol_deg]``      compare U1's crossover, phase margin and gain margin with the loop opened in ngspice
 ``*@ dctol 1e-4``             absolute DC tolerance in volts for this case (the deck says why beside it)
+``*@ iout U1 XU1 OUT 50``      U1's peak DC output current: (v(xu1.o) - v(OUT))/50 ohm at every corner, the current
+                              through the macromodel's output resistance
 
 The loading error is also read at every corner (a thermistor divider's Thevenin resistance moves with them).
 """
@@ -44,6 +46,7 @@ class Directives:
     nets: list[str] = field(default_factory=list)
     loops: list[tuple[str, float]] = field(default_factory=list)
     dc_tol: float = 1e-9
+    iout: list[tuple[str, str, str, float]] = field(default_factory=list)
 
 
 def directives(deck: str) -> Directives:
@@ -61,6 +64,8 @@ def directives(deck: str) -> Directives:
             d.corners.append((args[0], [float(a) for a in args[1:]]))
         elif word == "nets":
             d.nets.extend(args)
+        elif word == "iout":
+            d.iout.append((args[0], args[1], args[2], float(args[3])))
         elif word == "dctol":
             d.dc_tol = float(args[0])
         elif word == "loop":
@@ -155,7 +160,7 @@ def dc_answers(deck: str, outputs: dict[str, str], work: Path) -> DcAnswer:
         for target in (outputs[opamp], net):
             jobs.append((opamp, net, target, src))
             ctl += [f"echo @@tf {len(jobs) - 1}", f"tf v({target}) {src}", "print all", "destroy all"]
-    names = sorted(set(d.nets))
+    names = sorted(set(d.nets) | {n for _, x, out, _ in d.iout for n in (f"{x}.o", out)})
     combos = list(itertools.product(*[v for _, v in d.corners])) or [()]
     signs = list(itertools.product(*sign_corners(deck))) if names else []
     k = 0

@@ -23,6 +23,7 @@ from harness import CASES, dc_answers, directives, loop_answer
 from ngspice_harness import needs_ngspice
 
 from afecheck.analysis import analyse
+from afecheck.api import check_design
 from afecheck.model.load import load_design
 
 pytestmark = [pytest.mark.ngspice, pytest.mark.reference, needs_ngspice]
@@ -30,14 +31,16 @@ pytestmark = [pytest.mark.ngspice, pytest.mark.reference, needs_ngspice]
 DECKS = sorted(CASES.glob("*.cir"))
 # Disagreements with ngspice that afecheck still has; strict, so that the fix turns them into failures to remove.
 KNOWN_GAPS = {
-    "integrator_reset_capacitor_only": "afecheck reports no phase margin for an integrator without a DC feedback "
-                                       "path (T(0) = 0 reads as 'no feedback'), though its loop crosses over",
+    ("integrator_reset_capacitor_only", "loop"):
+        "afecheck reports no phase margin for an integrator without a DC feedback path (T(0) = 0 reads as "
+        "'no feedback'), though its loop crosses over",
 }
 
 
-def _with_gaps(paths: list[Path]) -> list:
-    return [pytest.param(p, marks=pytest.mark.xfail(strict=True, reason=KNOWN_GAPS[p.stem]))
-            if p.stem in KNOWN_GAPS else p for p in paths]
+def _with_gaps(paths: list[Path], kind: str) -> list:
+    """The cases, those with a known gap in this kind of comparison ("dc" or "loop") marked strict xfail."""
+    return [pytest.param(p, marks=pytest.mark.xfail(strict=True, reason=KNOWN_GAPS[(p.stem, kind)]))
+            if (p.stem, kind) in KNOWN_GAPS else p for p in paths]
 
 
 def _case(deck_path: Path):
@@ -58,13 +61,19 @@ def test_at_least_thirty_cases_cover_every_topology_and_source_kind() -> None:
     assert {"signal", "signal-source", "divider", "ntc-divider", "rail", "vsource", "stage-output"} <= kinds
 
 
-@pytest.mark.parametrize("deck_path", DECKS, ids=lambda p: p.stem)
+@pytest.mark.parametrize("deck_path", _with_gaps(DECKS, "dc"), ids=lambda p: p.stem)
 def test_dc_ranges_gains_and_loading_match_hand_deck(deck_path: Path, tmp_path: Path) -> None:
     loaded, result, deck = _case(deck_path)
     d = directives(deck)
     stages = {s.opamp: s for s in result.stages}
     ans = dc_answers(deck, {s.opamp: s.out for s in result.stages}, tmp_path)
+    for opamp, inst, out, ro in d.iout:
+        # the peak output current over the corners (no AC here), Ohm's law across the output resistance
+        peak = max(abs(c[f"{inst}.o"] - c[out]) / ro for c in ans.corners)
+        assert stages[opamp].iout_peak == pytest.approx(peak, rel=1e-6, abs=1e-12), (opamp, "output current")
     for net, (lo, hi) in ans.ranges.items():
+        if net not in d.nets:
+            continue
         sig = result.nets[net]
         assert sig.dc_min == pytest.approx(lo, rel=1e-6, abs=d.dc_tol), (net, "min")
         assert sig.dc_max == pytest.approx(hi, rel=1e-6, abs=d.dc_tol), (net, "max")
@@ -89,8 +98,10 @@ def test_dc_ranges_gains_and_loading_match_hand_deck(deck_path: Path, tmp_path: 
             assert inp.input_resistance == pytest.approx(r_seen - d.rs[net], rel=1e-4), (opamp, net, "Rin")
 
 
-@pytest.mark.parametrize("deck_path", _with_gaps([p for p in DECKS if directives(p.read_text(encoding="ascii")).loops]),
-                         ids=lambda p: p.stem)
+LOOP_DECKS = [p for p in DECKS if directives(p.read_text(encoding="ascii")).loops]
+
+
+@pytest.mark.parametrize("deck_path", _with_gaps(LOOP_DECKS, "loop"), ids=lambda p: p.stem)
 def test_crossover_and_margins_match_hand_deck(deck_path: Path, tmp_path: Path) -> None:
     _, result, deck = _case(deck_path)
     stages = {s.opamp: s for s in result.stages}
@@ -104,3 +115,19 @@ def test_crossover_and_margins_match_hand_deck(deck_path: Path, tmp_path: Path) 
             assert stage.gain_margin_db == pytest.approx(ans.gain_margin_db, abs=max(0.01, tol)), (opamp, "GM")
         else:
             assert ans.gain_margin_db is None and stage.gain_margin_db is None, (opamp, "gain margin present")
+
+
+def test_bias_offset_finding_equals_the_offset_ngspice_finds(tmp_path: Path) -> None:
+    # The follower on 1 MΩ with Ib = 1 nA, Ios = 0.5 nA and no offset voltage: the bias-offset rule's worst case
+    # NG·(|Ib|·|R- - R+| + |Ios|/2·(R- + R+)) is reached here (both currents flow the same way), so it must equal
+    # the output ngspice finds on the hand deck, -1.25 mV (FORMAT.md: Ios = Ib+ - Ib-)
+    deck_path = CASES / "follower_bias_1meg.cir"
+    loaded, result, deck = _case(deck_path)
+    ans = dc_answers(deck, {s.opamp: s.out for s in result.stages}, tmp_path)
+    (finding,) = [f for f in check_design(loaded).findings if f.rule == "dc-accuracy.bias-offset"]
+    assert ans.ranges["OUT"][0] == pytest.approx(-1.25e-3, rel=1e-4)
+    # afecheck scales by the noise gain A/T, whose loop gain T carries the output divider RL/(RL + Ro) =
+    # 10k/10.02k; the closed-loop gain from in+ does not (feedback is taken at the pin), so the rule reads 0.2 %
+    # high here: 0.3 % allowed, and the overestimate is exactly that divider
+    assert finding.ctx["value"] == pytest.approx(-ans.ranges["OUT"][0], rel=3e-3)
+    assert finding.ctx["value"] == pytest.approx(-ans.ranges["OUT"][0] * (10e3 + 20) / 10e3, rel=1e-5)

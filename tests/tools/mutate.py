@@ -5,7 +5,7 @@ boolean constant) in a copy of the repository, then runs a targeted fast test su
 survives is run again against the ngspice reference harness (tests/reference), and counts as killed if that
 fails. Usage (from the repository root)::
 
-    nice -n 10 python tests/tools/mutate.py --sample 200 --seed 18 [--floor 0.9] [--json out.json]
+    nice -n 10 python tests/tools/mutate.py --sample 200 --seed 18 [--limit 40] [--floor 0.9] [--json out.json]
 
 ``--sample`` draws a fixed-seed subset of every mutant (the whole set takes hours on two shared cores);
 ``--floor`` makes the exit status 1 when the kill rate falls below it. Mutant ids are ``file:line:col:change``.
@@ -34,12 +34,13 @@ FAST = {
         "tests/test_rules_loading.py", "tests/test_rules_stability.py", "tests/test_rules_headroom.py",
         "tests/test_rules_distortion.py", "tests/test_rules_integrator.py", "tests/test_rules_end_to_end.py",
         "tests/test_rules_agree_with_analysis.py", "tests/test_planted_bugs.py", "tests/test_rule_catalogue.py",
-        "tests/test_rules_boundaries.py",
+        "tests/test_rules_boundaries.py", "tests/test_mutation_kills.py",
     ],
     "afecheck/analysis": [
         "tests/test_mna.py", "tests/test_loop.py", "tests/test_stage_quantities.py", "tests/test_stages.py",
         "tests/test_sources.py", "tests/test_signals.py", "tests/test_planted_bugs.py",
         "tests/test_rules_agree_with_analysis.py", "tests/test_published_values.py", "tests/test_spice_export.py",
+        "tests/test_mutation_kills.py",
     ],
 }
 SLOW = ["tests/reference"]
@@ -184,10 +185,14 @@ def _pytest(work: Path, tests: list[str]) -> bool:
     return proc.returncode == 0  # 1: a test failed; 2: collection broke (the mutant does not import)
 
 
-def run(sample: int | None, seed: int, report: Path | None) -> float:
+def run(sample: int | None, seed: int, report: Path | None, ids: list[str] | None = None,
+        limit: int | None = None) -> float:
     files = sorted(p for t in TARGETS for p in (ROOT / t).rglob("*.py") if p.name != "__init__.py")
     every = mutants(files)
     chosen = random.Random(seed).sample(every, sample) if sample and sample < len(every) else every
+    if ids:
+        chosen = [m for m in every if m.id in set(ids)]
+    chosen = chosen[:limit] if limit else chosen
     print(f"{len(every)} mutants in {len(files)} files; running {len(chosen)} (seed {seed})", flush=True)
     results = []
     with tempfile.TemporaryDirectory(prefix="afecheck-mutants-") as tmp:
@@ -229,13 +234,15 @@ def main(argv: list[str] | None = None) -> int:
     ap.add_argument("--floor", type=float, default=0.0, help="fail below this kill rate (0..1)")
     ap.add_argument("--json", type=Path, default=None, help="write every result here")
     ap.add_argument("--list", action="store_true", help="only count the mutants")
+    ap.add_argument("--limit", type=int, default=None, help="run only the first N of the sample (same order)")
+    ap.add_argument("--ids", nargs="*", default=None, help="run only these mutant ids (to re-check survivors)")
     args = ap.parse_args(argv)
     if args.list:
         files = sorted(p for t in TARGETS for p in (ROOT / t).rglob("*.py") if p.name != "__init__.py")
         every = mutants(files)
         print(len(every))
         return 0
-    rate = run(args.sample, args.seed, args.json)
+    rate = run(args.sample, args.seed, args.json, args.ids, args.limit)
     return 0 if rate >= args.floor else 1
 
 

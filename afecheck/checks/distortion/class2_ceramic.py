@@ -96,7 +96,8 @@ def check(ctx: Context) -> Iterator[Finding]:
         nets = tuple(n for n in (comp.pins.get("1"), comp.pins.get("2")) if n)
         yield make_finding(
             ctx, Severity.WARNING, value=k, limit=limit, unit="1", margin=limit - k,
-            limit_source="rule parameter (RULES-REFERENCE R4f, common practice)", message=text, fix=META.fix,
+            limit_source="rule parameter (common practice; dielectric classes per IEC 60384-1)", message=text,
+            fix=META.fix,
             refs=(ref,), nets=nets, extra={"position": position, "resistance": r, "frequency": band[0],
                                             "dielectric": comp.dielectric},  # type: ignore[union-attr]
         )

@@ -66,7 +66,7 @@ def check(ctx: Context) -> Iterator[Finding]:
                 f"limit {fmt(limit, 'Ω')} imbalance)")
         yield make_finding(
             ctx, Severity.WARNING, value=imbalance, limit=limit, unit="ohm", margin=limit - imbalance,
-            limit_source="rule parameter (RULES-REFERENCE R4g, common practice)", message=text, fix=META.fix,
+            limit_source="rule parameter (common practice)", message=text, fix=META.fix,
             refs=(stage.opamp,), nets=(stage.in_plus, stage.in_minus), assumed=assumed,
             extra={"z_plus": z_plus, "z_minus": z_minus, "vcm_peak": vcm_pk, "error_fraction": linear},
         )

@@ -5,7 +5,17 @@ from __future__ import annotations
 import math
 from collections.abc import Iterator
 
-from afecheck.checks.common import db, fmt, grade_below, not_evaluated, pct, stage_assumed, stage_reason, switching
+from afecheck.checks.common import (
+    GHLM,
+    db,
+    fmt,
+    grade_below,
+    not_evaluated,
+    pct,
+    stage_assumed,
+    stage_reason,
+    switching,
+)
 from afecheck.checks.common import finding as make_finding
 from afecheck.engine.context import Context
 from afecheck.engine.finding import Finding, Severity
@@ -51,7 +61,8 @@ def check(ctx: Context) -> Iterator[Finding]:
                 f"open-loop distortion is reduced only {abs(t):.3g}×, amplitude error about {pct(ae)}")
         yield make_finding(
             ctx, severity, value=t_db, limit=limit, unit="dB", margin=t_db - limit,
-            limit_source="rule parameter (RULES-REFERENCE R4c, common practice)", message=text, fix=META.fix,
+            limit_source=f"rule parameter (common practice; loop gain and closed-loop error as in {GHLM})",
+            message=text, fix=META.fix,
             refs=(stage.opamp,), nets=(stage.out,), assumed=stage_assumed(stage), estimated=stage.estimated,
             extra={"loop_gain": abs(t), "f_max": stage.f_max, "amplitude_error": ae},
         )

@@ -41,6 +41,6 @@ def check(ctx: Context) -> Iterator[Finding]:
                     f"its {name} swing limit {fmt(limit, 'V')} at this load (band {fmt(band, 'V')})")
             yield make_finding(
                 ctx, Severity.WARNING, value=value, limit=limit, unit="V", margin=margin,
-                limit_source=f"part {stage.part} output swing model; band rule parameter (RULES-REFERENCE R4e)",
+                limit_source=f"part {stage.part} output swing at this load; band rule parameter (common practice)",
                 message=text, fix=META.fix, refs=(stage.opamp,), nets=(stage.out,), pins=("out",), assumed=s.assumed,
             )

@@ -5,8 +5,8 @@ from __future__ import annotations
 import math
 from collections.abc import Iterator
 
+from afecheck.checks.common import FRANCO, fmt, not_evaluated, switching
 from afecheck.checks.common import finding as make_finding
-from afecheck.checks.common import fmt, not_evaluated, switching
 from afecheck.engine.context import Context
 from afecheck.engine.finding import Finding, Severity
 from afecheck.engine.rule import Param, RuleMeta
@@ -51,7 +51,8 @@ def check(ctx: Context) -> Iterator[Finding]:
                 f"full-power bandwidth {fmt(fpbw, 'Hz')}")
         yield make_finding(
             ctx, severity, value=sr, limit=limit, unit="V/s", margin=sr - limit,
-            limit_source="rule parameter × 2π·f·Vpk (RULES-REFERENCE R4d)", message=text, fix=META.fix,
+            limit_source=f"rule parameter × 2π·f·Vpk (full-power bandwidth, {FRANCO}; factor: common practice)",
+            message=text, fix=META.fix,
             refs=(stage.opamp,), nets=(stage.out,),
             extra={"required": required, "full_power_bandwidth": fpbw, "f_max": stage.f_max,
                    "vout_ac_peak": stage.vout_ac_peak},

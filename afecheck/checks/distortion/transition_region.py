@@ -56,7 +56,8 @@ def check(ctx: Context) -> Iterator[Finding]:
                 f"({fmt(ng * abs(step), 'V')} at {stage.out}) each crossing, distortion of order {db(hd):.0f} dB")
         yield make_finding(
             ctx, Severity.WARNING, value=hi, limit=w_lo, unit="V", margin=w_lo - hi,
-            limit_source=f"part {stage.part} transition region (RULES-REFERENCE R3)", message=text, fix=META.fix,
+            limit_source=f"part {stage.part} input-pair transition region (declared in its part model)", message=text,
+            fix=META.fix,
             refs=(stage.opamp,), nets=(stage.in_plus,), pins=("in+",), assumed=a1 + a2 + a3,
             extra={"vcm_min": lo, "vcm_max": hi, "window_low": w_lo, "window_high": w_hi,
                    "output_step": ng * abs(step), "distortion": hd},

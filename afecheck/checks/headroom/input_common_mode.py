@@ -56,7 +56,7 @@ def check(ctx: Context) -> Iterator[Finding]:
             yield make_finding(
                 ctx, severity, value=value, limit=limit, unit="V", margin=margin,
                 limit_source=f"part {stage.part} input_cm_{'high' if name == 'highest' else 'low'}; warning band "
-                             "rule parameter (RULES-REFERENCE R3)",
+                             "rule parameter (common practice)",
                 message=text, fix=META.fix, refs=(stage.opamp,), nets=(stage.in_plus,), pins=("in+",),
                 assumed=assumed, extra={"vcm_min": lo, "vcm_max": hi},
             )

@@ -39,6 +39,6 @@ def check(ctx: Context) -> Iterator[Finding]:
                 f"{fmt(limit_a, 'A')} limit (limit {fmt(limit, 'A')})")
         yield make_finding(
             ctx, severity, value=abs(stage.iout_peak), limit=limit, unit="A", margin=limit - abs(stage.iout_peak),
-            limit_source=f"part {stage.part} output_current_limit × rule parameter (RULES-REFERENCE R3)",
+            limit_source=f"part {stage.part} output_current_limit × rule parameter (common practice)",
             message=text, fix=META.fix, refs=(stage.opamp,), nets=(stage.out,), pins=("out",), assumed=assumed,
         )

@@ -4,8 +4,8 @@ from __future__ import annotations
 
 from collections.abc import Iterator
 
+from afecheck.checks.common import FRANCO, fmt, grade_headroom, not_evaluated, rails_known, stage_reason
 from afecheck.checks.common import finding as make_finding
-from afecheck.checks.common import fmt, grade_headroom, not_evaluated, rails_known, stage_reason
 from afecheck.checks.headroom.limits import swing
 from afecheck.engine.context import Context
 from afecheck.engine.finding import Finding, Severity
@@ -42,6 +42,7 @@ def check(ctx: Context) -> Iterator[Finding]:
                     f"is {fmt(limit, 'V')} ({fmt(-margin, 'V')} short): the signal clips")
             yield make_finding(
                 ctx, Severity.ERROR, value=value, limit=limit, unit="V", margin=margin,
-                limit_source=f"part {stage.part} output swing model (RULES-REFERENCE R3)", message=text, fix=META.fix,
+                limit_source=f"part {stage.part} output swing at this load (common practice; {FRANCO})", message=text,
+                fix=META.fix,
                 refs=(stage.opamp,), nets=(stage.out,), pins=("out",), assumed=s.assumed,
             )

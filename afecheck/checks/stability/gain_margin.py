@@ -4,8 +4,8 @@ from __future__ import annotations
 
 from collections.abc import Iterator
 
+from afecheck.checks.common import GHLM, grade_below, stage_assumed
 from afecheck.checks.common import finding as make_finding
-from afecheck.checks.common import grade_below, stage_assumed
 from afecheck.engine.context import Context
 from afecheck.engine.finding import Finding, Severity
 from afecheck.engine.rule import Param, RuleMeta
@@ -37,6 +37,6 @@ def check(ctx: Context) -> Iterator[Finding]:
         text = f"{stage.opamp} gain margin {gm:.1f} dB (limit {limit:g} dB): {what}"
         yield make_finding(
             ctx, severity, value=gm, limit=limit, unit="dB", margin=gm - limit,
-            limit_source="rule parameter (RULES-REFERENCE R2, common practice)", message=text, fix=META.fix,
+            limit_source=f"rule parameter (common practice; gain margin as in {GHLM})", message=text, fix=META.fix,
             refs=(stage.opamp,), nets=(stage.out,), assumed=stage_assumed(stage), estimated=stage.estimated,
         )

@@ -4,7 +4,7 @@ from __future__ import annotations
 
 from collections.abc import Iterator
 
-from afecheck.checks.common import deg, fmt, grade_below, not_evaluated, stage_assumed, stage_reason
+from afecheck.checks.common import FRANCO, deg, fmt, grade_below, not_evaluated, stage_assumed, stage_reason
 from afecheck.checks.common import finding as make_finding
 from afecheck.checks.stability.causes import main_cause
 from afecheck.engine.context import Context
@@ -42,7 +42,7 @@ def check(ctx: Context) -> Iterator[Finding]:
         text = f"{stage.opamp} phase margin {deg(pm)} at {at} (limit {limit:g}°): {cause.text}"
         yield make_finding(
             ctx, severity, value=pm, limit=limit, unit="deg", margin=pm - limit,
-            limit_source="rule parameter (RULES-REFERENCE R2: 45° minimum, 60° preferred)", message=text,
+            limit_source=f"rule parameter: 45° minimum, 60° preferred (common practice; {FRANCO})", message=text,
             fix=cause.fix, refs=cause.refs, nets=(stage.out,), assumed=(*stage_assumed(stage), *cause.assumed),
             estimated=stage.estimated,
             extra={"crossover_hz": stage.crossover_hz, "cause": cause.kind, "cause_hz": cause.frequency,
