@@ -49,5 +49,6 @@ def resistance(comp, values: np.ndarray | float) -> np.ndarray:  # noqa: ANN001
         return np.array([rtd.resistance(float(comp.r0), float(t)) for t in v]) + lead_ohm(comp)
     coeffs = ntc_coefficients(comp)
     if coeffs is None:
-        return float(comp.r25) * np.exp(float(comp.beta) * (1.0 / (v + thermistor.T0) - 1.0 / thermistor.T25))
+        with np.errstate(divide="ignore", over="ignore"):  # absolute zero or beyond: inf, which callers refuse
+            return float(comp.r25) * np.exp(float(comp.beta) * (1.0 / (v + thermistor.T0) - 1.0 / thermistor.T25))
     return np.array([thermistor.sh_resistance(coeffs, float(t)) for t in v])
