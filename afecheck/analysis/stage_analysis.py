@@ -401,7 +401,9 @@ def _value_key(comp) -> tuple:  # noqa: ANN001 - any component model
     if kind in ("resistor", "capacitor", "vsource"):
         return (comp.value,)
     if kind == "ntc":
-        return (comp.r25, comp.beta, tuple(comp.temperature))
+        return (comp.r25, comp.beta, comp.steinhart_hart, comp.points, tuple(comp.temperature))
+    if kind in ("rtd", "bridge_arm"):
+        return tuple(v for k, v in comp.model_dump().items() if k not in ("pins", "description", "waive"))
     if kind == "opamp":
         return (comp.part,)
     if kind == "signal_source":
