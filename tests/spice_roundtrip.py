@@ -21,7 +21,9 @@ from afecheck.engine.runner import run_rules
 from afecheck.model.load import load_design
 from afecheck.model.loaded import LoadedDesign
 
-_REFINE = ("tolerance", "dielectric", "description", "r25", "beta", "temperature", "dissipation", "tempco")
+_REFINE = ("tolerance", "dielectric", "description", "r25", "beta", "temperature", "dissipation", "tempco",
+           "steinhart_hart", "points", "r0", "tolerance_class", "wiring", "lead_resistance", "bridge", "r", "x0", "k",
+           "measurand")
 
 
 def netlist_form(loaded: LoadedDesign) -> dict[str, Any]:
@@ -81,7 +83,7 @@ def round_trip(loaded: LoadedDesign, folder: Path) -> RoundTrip:
     components: dict[str, Any] = {}
     for r, comp in d.components.items():
         fields = {k: v for k, v in comp.model_dump(mode="json", exclude_none=True).items() if k in _REFINE}
-        if comp.kind in ("ntc", "vsource"):
+        if comp.kind in ("ntc", "rtd", "bridge_arm", "vsource"):
             fields["kind"] = comp.kind
         if fields:
             components[deck.elements[r]] = fields

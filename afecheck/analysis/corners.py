@@ -26,9 +26,9 @@ from afecheck.analysis.affine import (
     rows_on,
     unit_step,
 )
-from afecheck.analysis.netlist import T25_K, ZERO_C_K
 from afecheck.graph.build import Circuit
 from afecheck.graph.queries import has_dc_path
+from afecheck.sensors.resistive import SWEPT_KINDS, resistance, sweep_key, sweep_range
 
 MAX_POINTS = 300  # at most this many points in one unit's joint temperature grid
 
@@ -135,11 +135,16 @@ class Corners:
         """Each thermistor that sweeps (declared range wider than a point) and its base temperature grid (°C)."""
         out: dict[str, np.ndarray] = {}
         for ref, kind in self.circuit.kinds.items():
-            if kind == "ntc":
-                lo, hi = self.design.components[ref].temperature  # type: ignore[union-attr]
+            if kind in SWEPT_KINDS:
+                lo, hi = sweep_range(self.design.components[ref])
                 if hi != lo:
-                    out[ref] = np.linspace(float(lo), float(hi), BASE_POINTS)
+                    out[self.key(ref)] = np.linspace(lo, hi, BASE_POINTS)
         return out
+
+    def key(self, ref: str) -> str:
+        """The swept quantity a part follows: its own refdes, or its bridge's for a bridge arm."""
+        comp = self.design.components.get(ref)
+        return ref if comp is None or comp.kind not in SWEPT_KINDS else sweep_key(ref, comp)
 
     def grid(self, swept: set[str]) -> UnitGrid:
         """The joint grid over ``swept`` thermistors, as fine as :data:`MAX_POINTS` allows."""
@@ -155,18 +160,19 @@ class Corners:
     def ntc_resistances(self, ref: str, grid: UnitGrid) -> np.ndarray:
         """Resistance of thermistor ``ref`` at every point of ``grid`` (mid-range when it does not sweep)."""
         comp = self.design.components[ref]
-        if ref in grid.temperatures_c:
-            temps = grid.temperatures_c[ref]
+        key = self.key(ref)
+        if key in grid.temperatures_c:
+            temps = grid.temperatures_c[key]
         else:
-            temps = np.full(grid.points, 0.5 * (comp.temperature[0] + comp.temperature[1]))  # type: ignore[union-attr]
-        return comp.r25 * np.exp(comp.beta * (1.0 / (temps + ZERO_C_K) - 1.0 / T25_K))  # type: ignore[union-attr]
+            temps = np.full(grid.points, 0.5 * sum(sweep_range(comp)))
+        return resistance(comp, temps)
 
     def divider_form(self, legs: list[tuple[str, str]], grid: UnitGrid) -> tuple[np.ndarray, SweptForm | None]:
         """Thevenin resistance at each grid point and the Thevenin voltage's form on the grid."""
         g_rows = []
         forms = []
         for ref, far in legs:
-            if self.circuit.kinds[ref] == "ntc":
+            if self.circuit.kinds[ref] in SWEPT_KINDS:
                 g_rows.append(1.0 / self.ntc_resistances(ref, grid))
             else:
                 g_rows.append(np.full(grid.points, 1.0 / float(self.design.components[ref].value)))  # type: ignore[union-attr]

@@ -17,6 +17,8 @@ from typing import Union
 import numpy as np
 
 from afecheck.errors import InputError, Problem
+from afecheck.sensors.resistive import SWEPT_KINDS, sweep_range
+from afecheck.sensors.resistive import resistance as swept_resistance
 
 GROUND = "0"
 T25_K = 298.15
@@ -329,13 +331,13 @@ def netlist_from_design(
             elements.append(Resistor(ref, pin(ref, "1"), pin(ref, "2"), float(comp.value)))
         elif kind == "capacitor":
             elements.append(Capacitor(ref, pin(ref, "1"), pin(ref, "2"), float(comp.value)))
-        elif kind == "ntc":
-            t = opts.ntc_temperature_c.get(ref, opts.temperature_c)
+        elif kind in SWEPT_KINDS:
+            t = opts.ntc_temperature_c.get(ref, opts.temperature_c if kind != "bridge_arm" else None)
             if t is None:
-                t = 0.5 * (comp.temperature[0] + comp.temperature[1])
+                t = 0.5 * sum(sweep_range(comp))
             try:
-                r_t = ntc_resistance(comp.r25, comp.beta, t)
-            except (ZeroDivisionError, OverflowError):
+                r_t = float(swept_resistance(comp, t)[0])
+            except (ZeroDivisionError, OverflowError, ValueError):
                 r_t = math.nan
             if not (math.isfinite(r_t) and r_t > 0):
                 file, line, col = loaded.position("components", ref, "temperature")

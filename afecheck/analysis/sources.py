@@ -16,9 +16,9 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from afecheck.analysis.netlist import ntc_resistance
 from afecheck.analysis.results import SourceEquivalent, StageResult
 from afecheck.graph.build import CONDUCTIVE_KINDS, Circuit
+from afecheck.sensors.resistive import SWEPT_KINDS, resistance, sweep_range
 
 TEMPERATURE_POINTS = 9
 
@@ -90,16 +90,16 @@ def find_dividers(circuit: Circuit, nets: Iterable[str], refs: frozenset[str],
 def divider(circuit: Circuit, net: str, legs: list[tuple[str, str]]) -> Divider:
     """Reduce the legs (ref, far net) of a divider node to its Thevenin equivalent over the temperature grid."""
     comps = circuit.loaded.design.components
-    has_ntc = any(circuit.kinds[r] == "ntc" for r, _ in legs)
+    has_ntc = any(circuit.kinds[r] in SWEPT_KINDS for r, _ in legs)
     s = np.linspace(0.0, 1.0, TEMPERATURE_POINTS) if has_ntc else np.array([0.5])
     g_rows, temps = [], []
     for ref, _far in legs:
         comp = comps[ref]
-        if circuit.kinds[ref] == "ntc":
-            lo, hi = comp.temperature
+        if circuit.kinds[ref] in SWEPT_KINDS:
+            lo, hi = sweep_range(comp)
             t = lo + s * (hi - lo)
             temps.append(tuple(float(x) for x in t))
-            g_rows.append(np.array([1.0 / ntc_resistance(comp.r25, comp.beta, float(x)) for x in t]))
+            g_rows.append(1.0 / resistance(comp, t))
         else:
             g_rows.append(np.full(s.size, 1.0 / float(comp.value)))
     g = np.vstack(g_rows)

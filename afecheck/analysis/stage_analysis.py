@@ -46,6 +46,7 @@ from afecheck.errors import AnalysisError, InputError, SingularCircuitError
 from afecheck.graph.build import Circuit
 from afecheck.graph.queries import MAX_REGION_PARTS
 from afecheck.graph.stages import Stage, StagePlan
+from afecheck.sensors.resistive import SWEPT_KINDS
 
 MAX_LOCAL_PARTS = MAX_REGION_PARTS
 """Most passives plus held neighbours a unit's local circuit may hold. A stage wired into a network shared by
@@ -343,7 +344,7 @@ def _unit_netlist(circuit: Circuit, stages: list[Stage], done: Mapping[str, Stag
     netlist = netlist_from_design(circuit.loaded, comps, NetlistOptions(signal_dc=zero)).with_elements(*extra)
     names = {e.name for e in netlist.elements}
     inputs = [i for i in inputs if i.branch in names]
-    ntcs = tuple(r for r in comps if circuit.kinds.get(r) == "ntc")
+    ntcs = tuple(r for r in comps if circuit.kinds.get(r) in SWEPT_KINDS)
     return netlist, inputs, notes, sources, ntcs
 
 
@@ -450,7 +451,9 @@ def _value_key(comp) -> tuple:  # noqa: ANN001 - any component model
     if kind in ("resistor", "capacitor", "vsource"):
         return (comp.value,)
     if kind == "ntc":
-        return (comp.r25, comp.beta, tuple(comp.temperature))
+        return (comp.r25, comp.beta, comp.steinhart_hart, comp.points, tuple(comp.temperature))
+    if kind in ("rtd", "bridge_arm"):
+        return tuple(v for k, v in comp.model_dump().items() if k not in ("pins", "description", "waive"))
     if kind == "opamp":
         return (comp.part,)
     if kind == "signal_source":
@@ -515,12 +518,13 @@ def _unit_sources(circuit: Circuit, netlist: Netlist, system: MnaSystem, corners
     for name in [n for n in forms if n not in present]:
         del forms[name]
     swept = {t for f in forms.values() for t in f.swept}
-    swept |= {t for t in ntcs if t in corners.thermistors}
-    swept |= {r for _, legs in sources.dividers.values() for r, _ in legs if r in corners.thermistors}
+    swept |= {corners.key(t) for t in ntcs if corners.key(t) in corners.thermistors}
+    swept |= {corners.key(r) for _, legs in sources.dividers.values() for r, _ in legs
+              if corners.key(r) in corners.thermistors}
     grid = corners.grid(swept)
     varying: dict[str, np.ndarray] = {}
     for ref in ntcs:
-        if ref in corners.thermistors:
+        if corners.key(ref) in corners.thermistors:
             varying[ref] = corners.ntc_resistances(ref, grid)
     for branch, (series, legs) in sources.dividers.items():
         rth, form = corners.divider_form(legs, grid)

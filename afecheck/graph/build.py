@@ -17,8 +17,8 @@ from afecheck.model.loaded import LoadedDesign
 if TYPE_CHECKING:
     import networkx as nx
 
-PASSIVE_KINDS = frozenset({"resistor", "capacitor", "ntc"})
-CONDUCTIVE_KINDS = frozenset({"resistor", "ntc"})
+PASSIVE_KINDS = frozenset({"resistor", "capacitor", "ntc", "rtd", "bridge_arm"})
+CONDUCTIVE_KINDS = frozenset({"resistor", "ntc", "rtd", "bridge_arm"})
 
 
 @dataclass(frozen=True)

@@ -32,6 +32,7 @@ from dataclasses import dataclass
 from afecheck.analysis.results import Topology
 from afecheck.graph.build import Circuit
 from afecheck.graph.queries import Region, passive_region, stage_stop
+from afecheck.sensors.resistive import SWEPT_KINDS
 
 MAX_GROUP = 8
 _EMPTY = Region(frozenset(), frozenset(), frozenset())
@@ -110,7 +111,7 @@ def _signal_terminals(circuit: Circuit, region: Region, group: tuple[str, ...], 
         elif net in circuit.opamp_outputs and circuit.opamp_outputs[net] not in group:
             found.add(net)
     for ref in region.refs:
-        if circuit.kinds[ref] == "ntc" and not (gain_side and start in circuit.pins[ref].values()):
+        if circuit.kinds[ref] in SWEPT_KINDS and not (gain_side and start in circuit.pins[ref].values()):
             found.add(f"ntc:{ref}")
     return found
 

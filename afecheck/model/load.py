@@ -17,6 +17,7 @@ from afecheck.model.reader import Document, read_file
 from afecheck.model.schema import PIN_NAMES, Design, Intent
 from afecheck.model.validate import validate
 from afecheck.parts.library import PartEntry, PartSet, builtin_entries, combine, read_library
+from afecheck.sensors.expand import expand_sensors
 
 INTENT_SECTIONS = ("signals", "loads", "budgets")
 
@@ -60,8 +61,14 @@ def load_design(
     problems = structure_problems(design, parts, locate)
     if problems:
         raise InputError(sorted(problems, key=lambda p: (p.file, p.line or 0, p.column or 0, p.path)))
+    declared = {ref: c for ref, c in design.components.items() if c.kind in ("thermocouple", "bridge")}
+    design = expand_sensors(design)
+    for ref, comp in design.components.items():
+        if comp.kind == "bridge_arm" and ("components", comp.bridge) in positions:
+            positions[("components", ref)] = positions[("components", comp.bridge)]
     return LoadedDesign(
         design=design,
+        sensors=declared,
         file=doc.file,
         parts=parts.models,
         positions=positions,

@@ -5,6 +5,7 @@ from __future__ import annotations
 from collections.abc import Mapping
 from dataclasses import dataclass, field
 from functools import cached_property
+from typing import Any
 
 from afecheck.engine.finding import Location
 from afecheck.model.schema import Design
@@ -28,6 +29,8 @@ class LoadedDesign:
     positions: Mapping[PathKey, tuple[str, int, int]] = field(default_factory=dict)
     part_origins: Mapping[str, str] = field(default_factory=dict)
     """Where each part model was defined: ``file:line`` or ``built-in (file)``."""
+    sensors: Mapping[str, Any] = field(default_factory=dict)
+    """Thermocouples and bridges as declared (``design`` holds the parts they became)."""
     intent_files: tuple[str, ...] = ()
     """Intent files merged into ``design`` (their keys' positions point into them)."""
     notes: tuple[str, ...] = ()
@@ -38,7 +41,7 @@ class LoadedDesign:
         """net -> (refdes, other net, kind) for every resistor, capacitor and NTC on it; built once per design."""
         index: dict[str, list[tuple[str, str, str]]] = {}
         for ref, comp in self.design.components.items():
-            if comp.kind not in ("resistor", "capacitor", "ntc"):
+            if comp.kind not in ("resistor", "capacitor", "ntc", "rtd", "bridge_arm"):
                 continue
             a, b = comp.pins.get("1"), comp.pins.get("2")
             if a is not None and b is not None:

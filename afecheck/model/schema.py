@@ -177,13 +177,114 @@ class OpAmp(_Component):
 
 
 class Ntc(_Component):
-    """NTC thermistor, Beta model R(T) = R25·exp(B·(1/T − 1/T25)), over a declared temperature range."""
+    """NTC thermistor over a declared temperature range: the Beta model R(T) = R25·exp(B·(1/T − 1/T25)), or
+    Steinhart-Hart from its three coefficients or from three (temperature, resistance) points."""
 
     kind: Literal["ntc"]
-    r25: Ohm = Field(gt=0)
-    beta: Q("K") = Field(gt=0)
+    r25: Ohm | None = Field(default=None, gt=0)
+    beta: Q("K") | None = Field(default=None, gt=0)
+    steinhart_hart: tuple[float, float, float] | None = Field(
+        default=None, description="Steinhart-Hart coefficients (a, b, c): 1/T = a + b·ln R + c·(ln R)³, T in K")
+    points: tuple[tuple[Celsius, Ohm], tuple[Celsius, Ohm], tuple[Celsius, Ohm]] | None = Field(
+        default=None, description="three (temperature, resistance) points the Steinhart-Hart curve passes through")
     temperature: tuple[Celsius, Celsius] = (25.0, 25.0)
     dissipation: Q("W/K") | None = Field(default=None, gt=0)
+
+    @model_validator(mode="after")
+    def _one_model(self) -> Ntc:
+        given = [name for name, v in (("r25/beta", self.r25 is not None or self.beta is not None),
+                                      ("steinhart_hart", self.steinhart_hart), ("points", self.points)) if v]
+        if len(given) != 1:
+            raise ValueError("an ntc takes exactly one model: r25 with beta, steinhart_hart, or points; "
+                             f"got {', '.join(given) or 'none'}")
+        if given == ["r25/beta"] and (self.r25 is None or self.beta is None):
+            raise ValueError("the Beta model needs both r25 and beta")
+        return self
+
+
+RtdWiring = Literal["2-wire", "3-wire", "4-wire"]
+
+
+class Rtd(_Component):
+    """Platinum RTD (Callendar-Van Dusen, IEC 60751 coefficients) of nominal ``r0`` at 0 °C over a temperature
+    range, its tolerance class, connection and lead resistance (each lead), and dissipation constant."""
+
+    kind: Literal["rtd"]
+    r0: Ohm = Field(gt=0)
+    temperature: tuple[Celsius, Celsius] = (0.0, 0.0)
+    tolerance_class: Literal["AA", "A", "B", "C"] | None = Field(default=None, alias="class")
+    wiring: RtdWiring = "4-wire"
+    lead_resistance: Ohm = Field(default=0.0, ge=0, description="resistance of each lead wire")
+    dissipation: Q("W/K") | None = Field(default=None, gt=0)
+
+    @field_validator("temperature")
+    @classmethod
+    def _in_cvd_range(cls, v: tuple[float, float]) -> tuple[float, float]:
+        if not all(-200.0 <= t <= 850.0 for t in v):
+            raise ValueError("the Callendar-Van Dusen equation covers -200 °C to 850 °C")
+        return v
+
+
+class Thermocouple(_Component):
+    """Thermocouple (type E J K N T) between ``p`` and ``n``: a voltage source E(hot) − E(cold) over the hot- and
+    cold-junction ranges (ITS-90 reference functions), behind its lead resistance. With ``compensated`` the
+    reading is corrected for the cold junction to within ``cjc_accuracy`` °C."""
+
+    kind: Literal["thermocouple"]
+    type: Literal["E", "J", "K", "N", "T"]
+    hot: tuple[Celsius, Celsius]
+    cold: tuple[Celsius, Celsius] = (25.0, 25.0)
+    compensated: bool = True
+    cjc_accuracy: Q("K") = Field(default=0.0, ge=0, description="cold-junction compensation error, ± °C")
+    lead_resistance: Ohm = Field(default=0.0, ge=0, description="loop resistance of the thermocouple and leads")
+
+    @model_validator(mode="after")
+    def _in_range(self) -> Thermocouple:
+        from afecheck.sensors.thermocouple import span_c
+
+        lo, hi = span_c(self.type)
+        if not all(lo <= t <= hi for t in (*self.hot, *self.cold)):
+            raise ValueError(f"type {self.type} is defined from {lo:g} °C to {hi:g} °C")
+        return self
+
+
+class Bridge(_Component):
+    """Resistive bridge (strain gauge, pressure cell) excited between ``exc+`` and ``exc-``, output between
+    ``out+`` and ``out-``: arms of ``resistance``, ``sensitivity`` (output/excitation at full scale), the measurand
+    range as a fraction of full scale, or in ``unit`` with its full-scale ``span``, and the zero offset."""
+
+    kind: Literal["bridge"]
+    arrangement: Literal["full", "half", "quarter"] = "full"
+    resistance: Ohm = Field(gt=0)
+    sensitivity: Ratio = Field(gt=0, lt=0.25, description="output per volt of excitation at full scale "
+                                                              "('2 mV/V')")
+    measurand: tuple[float, float] = (0.0, 1.0)
+    unit: str | None = Field(default=None, description="the measurand's unit (kg, bar, µε); then span is needed")
+    span: float | None = Field(default=None, gt=0, description="the full-scale measurand in ``unit``")
+    zero_offset: Ratio = Field(default=0.0, description="output per volt of excitation at zero measurand")
+
+    @model_validator(mode="after")
+    def _unit_span(self) -> Bridge:
+        if (self.unit is None) != (self.span is None):
+            raise ValueError("a bridge's unit and span go together")
+        return self
+
+    @property
+    def full_scale_fraction(self) -> tuple[float, float]:
+        """The measurand range as fractions of full scale."""
+        k = 1.0 if self.span is None else 1.0 / self.span
+        return self.measurand[0] * k, self.measurand[1] * k
+
+
+class BridgeArm(_Component):
+    """One arm of a declared bridge (made by afecheck from a ``bridge``): R·(1 + x0 + k·m) at measurand fraction m."""
+
+    kind: Literal["bridge_arm"]
+    bridge: str
+    r: Ohm = Field(gt=0)
+    x0: float = 0.0
+    k: float = 0.0
+    measurand: tuple[float, float] = (0.0, 1.0)
 
 
 class VoltageSource(_Component):
@@ -205,7 +306,8 @@ class SignalSource(_Component):
 
 
 Component = Annotated[
-    Union[Resistor, Capacitor, OpAmp, Ntc, VoltageSource, SignalSource], Field(discriminator="kind")
+    Union[Resistor, Capacitor, OpAmp, Ntc, VoltageSource, SignalSource, Rtd, Thermocouple, Bridge, BridgeArm],
+    Field(discriminator="kind"),
 ]
 
 PIN_NAMES: dict[str, tuple[str, ...]] = {
@@ -215,6 +317,10 @@ PIN_NAMES: dict[str, tuple[str, ...]] = {
     "opamp": ("in+", "in-", "out", "v+", "v-"),
     "vsource": ("p", "n"),
     "signal_source": ("p", "n"),
+    "rtd": ("1", "2"),
+    "thermocouple": ("p", "n"),
+    "bridge": ("exc+", "exc-", "out+", "out-"),
+    "bridge_arm": ("1", "2"),
 }
 
 

@@ -493,7 +493,7 @@ class NetlistReader:
             if "pins" in fields:
                 self.problems.append(_refinement_problem(r, name, "pins come from the netlist; remove pins:"))
                 continue
-            if fields.get("kind") == "ntc":
+            if fields.get("kind") in ("ntc", "rtd", "bridge_arm"):
                 if comp["kind"] != "resistor":
                     self.problems.append(_refinement_problem(r, name, f"{ref} is a {comp['kind']}, not a resistor"))
                     continue
