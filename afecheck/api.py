@@ -398,22 +398,4 @@ def _refuse_repeats(files: Sequence[str | Path]) -> None:
         raise InputError(problems)
 
 
-def _refuse_repeats(files: Sequence[str | Path]) -> None:
-    """Refuse a waiver file given twice (by identity, however it is spelt): its waivers would count twice."""
-    from afecheck.model.paths import same_file
-
-    seen: list[Path] = []
-    problems = []
-    for f in files:
-        p = Path(f)
-        first = next((s for s in seen if same_file(s, p)), None)
-        if first is not None:
-            problems.append(Problem(str(f), None, None, "", f"waiver file given twice (also as {str(first)!r}); give "
-                                                          "each waiver file once"))
-        else:
-            seen.append(p)
-    if problems:
-        raise InputError(problems)
-
-
 __all__ = ["DesignReport", "Entry", "Report", "check_design", "check_file", "review_files", "rule_catalogue"]
