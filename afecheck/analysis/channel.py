@@ -8,8 +8,9 @@ multi-channel design falls apart into one small channel per sensor, so cost grow
 
 from __future__ import annotations
 
-from collections.abc import Mapping
+from collections.abc import Callable, Iterable, Mapping
 from dataclasses import dataclass
+from typing import Any, TypeVar
 
 from afecheck.analysis.netlist import Netlist, NetlistOptions, netlist_from_design
 from afecheck.model.loaded import LoadedDesign
@@ -114,3 +115,32 @@ def channel_key(loaded: LoadedDesign, channel: Channel, *nets: str) -> tuple:
         if net in d.signals or net in d.loads:
             key.append((num(net), d.signals.get(net), d.loads.get(net)))
     return tuple(key)
+
+
+T = TypeVar("T")
+
+
+def per_channel(loaded: LoadedDesign, nets: Iterable[str],
+                solve: Callable[[LoadedDesign, Any, list[str]], Mapping[str, T]],
+                errors: tuple[type[BaseException], ...]) -> tuple[dict[str, T], dict[str, str]]:
+    """Solve ``nets`` channel by channel (one ``solve`` per channel with the nets it holds): the results, and the
+    reason for each net that could not be evaluated (fixed nets, or ``errors`` raised by its channel's solve)."""
+    from afecheck.errors import InputError
+
+    channels = find_channels(loaded)
+    groups: dict[int, tuple[Any, list[str]]] = {}
+    missing: dict[str, str] = {}
+    for net in dict.fromkeys(nets):
+        ch = channels.get(net)
+        if ch is None:
+            missing[net] = "the net is held at a fixed voltage or joins no part"
+            continue
+        groups.setdefault(id(ch), (ch, []))[1].append(net)
+    found: dict[str, T] = {}
+    for ch, members in groups.values():
+        try:
+            found.update(solve(loaded, ch, members))
+        except errors as exc:
+            reason = exc.problems[0].message if isinstance(exc, InputError) else str(exc)
+            missing.update({n: reason for n in members})
+    return dict(sorted(found.items())), dict(sorted(missing.items()))

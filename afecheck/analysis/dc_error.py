@@ -27,7 +27,7 @@ import math
 from collections.abc import Iterable, Mapping
 from dataclasses import dataclass, replace
 
-from afecheck.analysis.channel import Channel, find_channels
+from afecheck.analysis.channel import Channel, per_channel
 from afecheck.analysis.mna import solve_dc
 from afecheck.analysis.netlist import (
     GROUND,
@@ -295,20 +295,6 @@ def analyse_dc_error(loaded: LoadedDesign, nets: Iterable[str]) -> DcErrorResult
     nets = list(dict.fromkeys(nets))
     if not nets:
         return DcErrorResult({}, {})
-    channels = find_channels(loaded)
-    groups: dict[int, tuple[Channel, list[str]]] = {}
-    missing: dict[str, str] = {}
-    for net in dict.fromkeys(nets):
-        ch = channels.get(net)
-        if ch is None:
-            missing[net] = "the net is held at a fixed voltage or joins no part"
-            continue
-        groups.setdefault(id(ch), (ch, []))[1].append(net)
-    found: dict[str, NetDcError] = {}
-    for ch, members in groups.values():
-        try:
-            found.update(channel_dc_error(loaded, ch, members))
-        except (AnalysisError, InputError, SingularCircuitError, ValueError, ArithmeticError) as exc:
-            reason = exc.problems[0].message if isinstance(exc, InputError) else str(exc)
-            missing.update({n: reason for n in members})
-    return DcErrorResult(dict(sorted(found.items())), dict(sorted(missing.items())))
+    found, missing = per_channel(loaded, nets, channel_dc_error,
+                                 (AnalysisError, InputError, SingularCircuitError, ValueError, ArithmeticError))
+    return DcErrorResult(found, missing)

@@ -25,7 +25,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from afecheck.analysis.channel import Channel, channel_netlist, find_channels
+from afecheck.analysis.channel import Channel, channel_netlist, per_channel
 from afecheck.analysis.mna import check_connectivity, system_of
 from afecheck.analysis.netlist import GROUND, ZERO_C_K, OpAmpCore, Resistor
 from afecheck.errors import AnalysisError, InputError, SingularCircuitError
@@ -261,20 +261,6 @@ def analyse_noise(loaded: LoadedDesign, nets: Iterable[str]) -> NoiseResult:
     nets = list(dict.fromkeys(nets))
     if not nets:
         return NoiseResult({}, {})
-    channels = find_channels(loaded)
-    groups: dict[int, tuple[Channel, list[str]]] = {}
-    missing: dict[str, str] = {}
-    for net in dict.fromkeys(nets):
-        ch = channels.get(net)
-        if ch is None:
-            missing[net] = "the net is held at a fixed voltage or joins no part"
-            continue
-        groups.setdefault(id(ch), (ch, []))[1].append(net)
-    found: dict[str, NetNoise] = {}
-    for ch, members in groups.values():
-        try:
-            found.update(channel_noise(loaded, ch, members))
-        except (AnalysisError, InputError, SingularCircuitError, ValueError, np.linalg.LinAlgError) as exc:
-            reason = exc.problems[0].message if isinstance(exc, InputError) else str(exc)
-            missing.update({n: reason for n in members})
-    return NoiseResult(dict(sorted(found.items())), dict(sorted(missing.items())))
+    found, missing = per_channel(loaded, nets, channel_noise,
+                                 (AnalysisError, InputError, SingularCircuitError, ValueError, np.linalg.LinAlgError))
+    return NoiseResult(found, missing)
