@@ -1,9 +1,10 @@
 """Fuzzing every input kind (design, intent, part library, config, rule set, waivers, baseline, CLI arguments)
 through the command line and the library readers with our own generators (tests/tools/fuzz_inputs.py).
 
-Default run: a fixed-seed sample of a few hundred cases. ``pytest -m slow``: at least 100 000 cases (mostly
-library readers, which are cheap, plus thousands of whole command-line runs); AFECHECK_FUZZ_CASES and
-AFECHECK_FUZZ_SEED change the count and seed.
+Default run: a fixed-seed sample of a few hundred cases. ``pytest -m slow``: at least 100 000 cases in four parts
+(mostly library readers, which are cheap, plus 4 000 whole command-line runs over all eight kinds), each part's
+counts and slowest case printed at the end of the run; AFECHECK_FUZZ_CASES and AFECHECK_FUZZ_SEED change the count
+and seed.
 """
 
 from __future__ import annotations
@@ -96,18 +97,24 @@ def test_every_seed_is_itself_valid(folder):
         run_library_case(folder, kind, SEEDS[kind])
 
 
+TOTAL = int(os.environ.get("AFECHECK_FUZZ_CASES", "100000"))
+PARTS = 4  # the long run in four parts, each its own seed and every kind, so that two xdist workers share it
+
+
 @pytest.mark.slow
-def test_one_hundred_thousand_hostile_inputs(folder, record_property):
-    total = int(os.environ.get("AFECHECK_FUZZ_CASES", "100000"))
-    rng = random.Random(int(os.environ.get("AFECHECK_FUZZ_SEED", "20261203")))
+@pytest.mark.parametrize("part", range(PARTS))
+def test_one_hundred_thousand_hostile_inputs(folder, record_property, part):
+    count = -(-TOTAL // PARTS)  # PARTS x count >= TOTAL, 100 000 by default
+    rng = random.Random(int(os.environ.get("AFECHECK_FUZZ_SEED", "20261203")) + part)
     tally = Tally()
     start = time.perf_counter()
-    _cli_cases(folder, rng, total // 25, tally)
-    _library_cases(folder, rng, total - total // 25, tally)
+    _cli_cases(folder, rng, count // 25, tally)
+    _library_cases(folder, rng, count - count // 25, tally)
     took = time.perf_counter() - start
     by_kind = ", ".join(f"{k} {sum(n for (_, kk), n in tally.counts.items() if kk == k)}" for k in KINDS)
-    record_property("figures", f"{tally.total()} cases in {took:.0f} s: {tally.total('command line')} through the "
-                    f"command line, {tally.total('library')} through the library readers; by kind: {by_kind}; "
-                    f"slowest case {tally.slowest[0]:.2f} s of processor time ({tally.slowest[1]})")
-    assert tally.total() >= total and tally.kinds() == set(KINDS)
+    record_property("figures", f"part {part + 1} of {PARTS}: {tally.total()} cases in {took:.0f} s: "
+                    f"{tally.total('command line')} through the command line, {tally.total('library')} through the "
+                    f"library readers; by kind: {by_kind}; slowest case {tally.slowest[0]:.2f} s of processor time "
+                    f"({tally.slowest[1]})")
+    assert tally.total() == count and PARTS * count >= TOTAL and tally.kinds() == set(KINDS)
     assert tally.slowest[0] < 10  # each case also asserts it on its own
