@@ -67,7 +67,7 @@ def _pick(rng: random.Random, data: Any) -> tuple[Any, Any] | None:
 
 
 _LOADER = getattr(yaml, "CSafeLoader", yaml.SafeLoader)  # libyaml where PyYAML has it: the generator's own
-_DUMPER = getattr(yaml, "CSafeDumper", yaml.SafeDumper)  # parsing, not afecheck's, was most of a case's time
+DUMPER = getattr(yaml, "CSafeDumper", yaml.SafeDumper)  # parsing, not afecheck's, was most of a case's time
 _UNPARSED = object()
 
 
@@ -99,7 +99,7 @@ def mutate_text(rng: random.Random, text: str, as_json: bool = False) -> str:
                     del node[key]
                 try:
                     text = (json.dumps(data, allow_nan=True) if as_json or rng.random() < 0.3
-                            else yaml.dump(data, Dumper=_DUMPER, allow_unicode=True, sort_keys=False))
+                            else yaml.dump(data, Dumper=DUMPER, allow_unicode=True, sort_keys=False))
                 except (TypeError, ValueError, OverflowError):
                     data = _UNPARSED  # not written out: the next edit starts again from the text
                 continue

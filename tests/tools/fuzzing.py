@@ -20,6 +20,8 @@ from typing import Any
 import yaml
 from hypothesis import strategies as st
 
+from tools.fuzz_inputs import DUMPER
+
 ROOT = Path(__file__).resolve().parents[2]
 SAMPLES = tuple(sorted(p for p in (ROOT / "sample_designs").glob("*.yaml") if not p.name.endswith(".intent.yaml")))
 
@@ -223,7 +225,7 @@ def _serialise(draw: st.DrawFn, data: Any) -> tuple[str, str]:
             return json.dumps(_str_keys(data), ensure_ascii=draw(st.booleans()), allow_nan=True), ".json"
         except (TypeError, ValueError):
             pass
-    return yaml.safe_dump(data, allow_unicode=True, sort_keys=False), ".yaml"
+    return yaml.dump(data, Dumper=DUMPER, allow_unicode=True, sort_keys=False), ".yaml"
 
 
 def _str_keys(data: Any) -> Any:
