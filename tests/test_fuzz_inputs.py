@@ -14,6 +14,7 @@ import random
 import re
 import time
 from collections import Counter
+from pathlib import Path
 
 import pytest
 from tools.fuzz_inputs import (
@@ -87,6 +88,16 @@ def test_command_line_survives_a_sample_of_hostile_inputs(folder):
     tally = Tally()
     _cli_cases(folder, random.Random(2), 40, tally)
     assert tally.kinds() == set(KINDS)
+
+
+def test_command_line_cases_write_only_inside_their_folder(folder):
+    # the generator names outputs such as /etc/passwd or ../../x.yaml, and CI often runs as root
+    design = {"design.yaml": DESIGN_SEEDS[0].split("\nintent:")[0]}
+    probe = Path("/etc/afecheck-fuzz-probe")
+    for target, lands in ((str(probe), folder / "etc" / "afecheck-fuzz-probe"), ("../../x.yaml", folder / "x.yaml")):
+        (folder / "etc").mkdir(exist_ok=True)
+        run_cli_case(folder, design, ["--no-config", "--output", target])
+        assert lands.is_file() and not probe.exists()
 
 
 def test_every_seed_is_itself_valid(folder):

@@ -10,6 +10,7 @@ library reader.
 
 from __future__ import annotations
 
+import contextlib
 import copy
 import functools
 import io
@@ -230,7 +231,13 @@ def run_cli_case(folder: Path, files: dict[str, str], argv: list[str], fmt: str 
         (folder / name).write_text(text, encoding="utf-8", errors="surrogatepass")
     args = ["check", *[str(folder / a) if a in files else a for a in argv], "--format", fmt,
             str(folder / "design.yaml")]
-    rc, _, _, took = run_main(args, f"files {files!r}", fmt)
+    for i, arg in enumerate(args[:-1]):  # a case's output stays in ``folder``: never over a real file such as
+        if args[i - 1] == "--output" and arg.startswith("/") and not arg.startswith(("/dev/", str(folder))):
+            args[i] = str(folder) + arg  # /etc/passwd (the run is often root); devices are written in place
+    here = folder / "cwd" / "sub"  # relative outputs, ../../x.yaml included, land inside ``folder`` too
+    here.mkdir(parents=True, exist_ok=True)
+    with contextlib.chdir(here):
+        rc, _, _, took = run_main(args, f"files {files!r}", fmt)
     return rc, took
 
 
