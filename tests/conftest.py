@@ -64,3 +64,16 @@ def pytest_runtest_makereport(item: pytest.Item, call: pytest.CallInfo):
         return
     report.outcome = "failed"
     report.longrepr = f"CI is set, so this skip is a failure: {EXTERNALS[name]} ({reason})"
+
+
+def pytest_terminal_summary(terminalreporter, exitstatus: int, config: pytest.Config) -> None:
+    """Print the figures long tests record (``record_property("figures", ...)``: fuzz case counts, slowest case).
+
+    User properties travel back from pytest-xdist workers, so the figures show under ``-n 2`` as well.
+    """
+    lines = [f"{r.nodeid}: {value}" for r in terminalreporter.stats.get("passed", [])
+             for key, value in r.user_properties if key == "figures"]
+    if lines:
+        terminalreporter.section("figures recorded by the tests")
+        for line in lines:
+            terminalreporter.write_line(line)

@@ -35,6 +35,15 @@ def test_readme_has_exactly_two_setup_commands_and_ci_runs_the_test_one() -> Non
     assert run_tests in ci.splitlines() or any(line.strip() == run_tests for line in ci.splitlines())
 
 
+def test_ci_fails_when_the_slow_suite_fails() -> None:
+    """The slow suite (the 100 000-case fuzz among it) gates CI: its command stands alone under ``set -e``, never
+    inside an ``if`` or after ``||`` that would swallow its exit status."""
+    lines = [line.strip() for line in (ROOT / ".ci" / "run").read_text(encoding="utf-8").splitlines()]
+    assert "set -euo pipefail" in lines
+    [slow] = [line for line in lines if "pytest -m slow" in line and not line.startswith("#")]
+    assert slow.startswith("python -m pytest -m slow") and not re.search(r"\|\||;|&&|\bif\b|!", slow), slow
+
+
 def test_wheel_package_list_covers_every_package_folder() -> None:
     """setuptools gets an explicit package list; a new sub-package missing from it would vanish from the wheel."""
     config = tomllib.loads((ROOT / "pyproject.toml").read_text(encoding="utf-8"))

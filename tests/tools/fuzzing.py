@@ -10,17 +10,17 @@ from __future__ import annotations
 
 import copy
 import functools
-import io
 import json
 import math
 import re
 import tempfile
-import traceback
 from pathlib import Path
 from typing import Any
 
 import yaml
 from hypothesis import strategies as st
+
+from tools.fuzz_inputs import DUMPER
 
 ROOT = Path(__file__).resolve().parents[2]
 SAMPLES = tuple(sorted(p for p in (ROOT / "sample_designs").glob("*.yaml") if not p.name.endswith(".intent.yaml")))
@@ -225,7 +225,7 @@ def _serialise(draw: st.DrawFn, data: Any) -> tuple[str, str]:
             return json.dumps(_str_keys(data), ensure_ascii=draw(st.booleans()), allow_nan=True), ".json"
         except (TypeError, ValueError):
             pass
-    return yaml.safe_dump(data, allow_unicode=True, sort_keys=False), ".yaml"
+    return yaml.dump(data, Dumper=DUMPER, allow_unicode=True, sort_keys=False), ".yaml"
 
 
 def _str_keys(data: Any) -> Any:
@@ -237,11 +237,13 @@ def _str_keys(data: Any) -> Any:
 
 
 def run_check(text: str | bytes, suffix: str, extra: tuple[str, ...] = ()) -> tuple[int, str, str]:
-    """Run ``afecheck check`` in-process on ``text``; fail with the input shown on any exception.
+    """Run ``afecheck check --format json`` in-process on ``text``; fail with the input shown on any defect.
 
-    Returns (exit status, stdout, stderr). Exit 2 must name the file with a line number.
+    Defects (:func:`tools.fuzz_inputs.run_main`): an exception, an exit status outside 0/1/2, a traceback, 10 s or
+    more, an internal-error finding or a non-finite number in the report; exit 2 must name the file with a line
+    number. Returns (exit status, stdout, stderr).
     """
-    from afecheck.cli import main
+    from tools.fuzz_inputs import run_main
 
     with tempfile.TemporaryDirectory(prefix="afefuzz-") as tmp:
         path = Path(tmp) / f"design{suffix}"
@@ -249,18 +251,9 @@ def run_check(text: str | bytes, suffix: str, extra: tuple[str, ...] = ()) -> tu
             path.write_bytes(text)
         else:
             path.write_text(text, encoding="utf-8", errors="surrogatepass")
-        out, err = io.StringIO(), io.StringIO()
-        try:
-            rc = main(["check", *extra, str(path)], stdout=out, stderr=err)
-        except BaseException as exc:  # noqa: BLE001 - any escape is the defect under test
-            raise AssertionError(
-                f"afecheck raised {type(exc).__name__} on this input:\n{text}\n--- traceback ---\n"
-                + "".join(traceback.format_exception(exc))
-            ) from None
-        stderr = err.getvalue()
-        assert rc in (0, 1, 2), f"exit status {rc} on input:\n{text}\nstderr:\n{stderr}"
+        rc, out, stderr, _ = run_main(["check", *extra, "--format", "json", str(path)], f"input:\n{text!r}", "json")
         if rc == 2:
             assert re.search(re.escape(str(path)) + r":\d+", stderr), (
                 f"input error without file:line on input:\n{text}\nstderr:\n{stderr}"
             )
-        return rc, out.getvalue(), stderr
+        return rc, out, stderr
