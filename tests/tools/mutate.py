@@ -33,15 +33,36 @@ FAST = {
     "afecheck/checks": [
         "tests/test_rules_loading.py", "tests/test_rules_stability.py", "tests/test_rules_headroom.py",
         "tests/test_rules_distortion.py", "tests/test_rules_integrator.py", "tests/test_rules_end_to_end.py",
-        "tests/test_rules_agree_with_analysis.py", "tests/test_planted_bugs.py", "tests/test_rule_catalogue.py",
-        "tests/test_rules_boundaries.py", "tests/test_mutation_kills.py",
+        "tests/test_rules_agree_with_analysis.py", "tests/test_planted_bugs.py", "tests/test_rules_boundaries.py",
+        "tests/test_mutation_kills.py", "tests/test_supply_limits.py", "tests/test_adc_drive.py",
+        "tests/test_noise.py", "tests/test_dc_error.py", "tests/test_trust.py", "tests/test_rule_catalogue.py",
     ],
     "afecheck/analysis": [
         "tests/test_mna.py", "tests/test_loop.py", "tests/test_stage_quantities.py", "tests/test_stages.py",
         "tests/test_sources.py", "tests/test_signals.py", "tests/test_planted_bugs.py",
         "tests/test_rules_agree_with_analysis.py", "tests/test_published_values.py", "tests/test_spice_export.py",
-        "tests/test_mutation_kills.py",
+        "tests/test_mutation_kills.py", "tests/test_rules_boundaries.py", "tests/test_noise.py",
+        "tests/test_dc_error.py", "tests/test_adc_drive.py", "tests/test_supply_limits.py", "tests/test_curves.py",
+        "tests/test_worst_cases.py", "tests/test_loop_crossings.py", "tests/test_stage_order.py",
+        "tests/test_sensor_circuits.py", "tests/test_rules_loading.py", "tests/test_rules_stability.py",
+        "tests/test_rules_headroom.py", "tests/test_rules_distortion.py", "tests/test_worst_cases_vs_ngspice.py",
+        "tests/test_vs_ngspice.py",
     ],
+}
+# Tests that exercise a module most directly run first, so a mutant there fails fast under ``-x``; every
+# tests/test_kill_<stem>*.py joins its module's list by name. Keys are module stems or checks/ sub-packages.
+FIRST = {
+    "noise": ["tests/test_noise.py"], "dc_error": ["tests/test_dc_error.py"],
+    "adc_drive": ["tests/test_adc_drive.py"], "supply": ["tests/test_supply_limits.py"],
+    "channel": ["tests/test_noise.py", "tests/test_dc_error.py", "tests/test_adc_drive.py"],
+    "worksheet": ["tests/test_noise.py", "tests/test_adc_drive.py"], "curves": ["tests/test_curves.py"],
+    "affine": ["tests/test_worst_cases.py"], "corners": ["tests/test_worst_cases.py"],
+    "ranges": ["tests/test_worst_cases.py", "tests/test_signals.py"],
+    "mna": ["tests/test_mna.py"], "loop": ["tests/test_loop.py", "tests/test_loop_crossings.py"],
+    "spice": ["tests/test_spice_export.py"],
+    "budgets": ["tests/test_noise.py", "tests/test_dc_error.py", "tests/test_rules_agree_with_analysis.py"],
+    "adc": ["tests/test_adc_drive.py", "tests/test_rules_agree_with_analysis.py"],
+    "limits": ["tests/test_supply_limits.py", "tests/test_rules_boundaries.py"],
 }
 SLOW = ["tests/reference"]
 TIMEOUT_S = 300
@@ -172,6 +193,16 @@ def _area(file: str) -> str:
     return next(t for t in TARGETS if file.startswith(t))
 
 
+def _tests_for(work: Path, file: str) -> list[str]:
+    """The module's own tests first (FIRST and tests/test_kill_<key>*.py), then the rest of its area's subset."""
+    parts = Path(file).with_suffix("").parts
+    keys = [parts[-1]] + ([parts[2]] if parts[1] == "checks" and len(parts) > 3 else [])
+    first = [t for k in keys for t in FIRST.get(k, [])]
+    first += sorted(p.relative_to(work).as_posix() for k in keys for p in (work / "tests").glob(f"test_kill_{k}*.py"))
+    kills = sorted(p.relative_to(work).as_posix() for p in (work / "tests").glob("test_kill_*.py"))
+    return list(dict.fromkeys(first + FAST[_area(file)] + kills))
+
+
 def _pytest(work: Path, tests: list[str]) -> bool:
     """True when the tests pass (the mutant survives)."""
     tests = [t for t in tests if (work / t).exists()]
@@ -186,7 +217,7 @@ def _pytest(work: Path, tests: list[str]) -> bool:
 
 
 def run(sample: int | None, seed: int, report: Path | None, ids: list[str] | None = None,
-        limit: int | None = None) -> float:
+        limit: int | None = None, tests: list[str] | None = None) -> float:
     files = sorted(p for t in TARGETS for p in (ROOT / t).rglob("*.py") if p.name != "__init__.py")
     every = mutants(files)
     chosen = random.Random(seed).sample(every, sample) if sample and sample < len(every) else every
@@ -200,7 +231,9 @@ def run(sample: int | None, seed: int, report: Path | None, ids: list[str] | Non
         for name in COPY:
             src = ROOT / name
             (shutil.copytree if src.is_dir() else shutil.copy2)(src, work / name)
-        if not _pytest(work, FAST["afecheck/checks"] + FAST["afecheck/analysis"]):
+        everything = tests or list(dict.fromkeys(FAST["afecheck/checks"] + FAST["afecheck/analysis"]
+                                                 + [t for m in chosen for t in _tests_for(work, m.file)]))
+        if not _pytest(work, everything):
             raise SystemExit("the unmutated test subset fails: fix the suite first")
         for k, m in enumerate(chosen, 1):
             target = work / m.file
@@ -208,8 +241,8 @@ def run(sample: int | None, seed: int, report: Path | None, ids: list[str] | Non
             target.write_text(m.source, encoding="utf-8")
             t0 = time.monotonic()
             try:
-                survived = _pytest(work, FAST[_area(m.file)])
-                if survived and _area(m.file) == "afecheck/analysis":
+                survived = _pytest(work, tests or _tests_for(work, m.file))
+                if survived and not tests and _area(m.file) == "afecheck/analysis":
                     survived = _pytest(work, SLOW)
             finally:
                 target.write_text(original, encoding="utf-8")
@@ -236,13 +269,15 @@ def main(argv: list[str] | None = None) -> int:
     ap.add_argument("--list", action="store_true", help="only count the mutants")
     ap.add_argument("--limit", type=int, default=None, help="run only the first N of the sample (same order)")
     ap.add_argument("--ids", nargs="*", default=None, help="run only these mutant ids (to re-check survivors)")
+    ap.add_argument("--tests", nargs="*", default=None,
+                    help="run only these test files against each mutant (to see which test kills it)")
     args = ap.parse_args(argv)
     if args.list:
         files = sorted(p for t in TARGETS for p in (ROOT / t).rglob("*.py") if p.name != "__init__.py")
         every = mutants(files)
         print(len(every))
         return 0
-    rate = run(args.sample, args.seed, args.json, args.ids, args.limit)
+    rate = run(args.sample, args.seed, args.json, args.ids, args.limit, args.tests)
     return 0 if rate >= args.floor else 1
 
 
