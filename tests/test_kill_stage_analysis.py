@@ -38,3 +38,28 @@ def test_composite_amplifier_reports_the_band_gain_of_both_stages(tmp_path) -> N
         assert inp.net == "IN"
         assert inp.gain == pytest.approx(10.0, rel=1e-3)
         assert inp.band_gain is not None and inp.band_gain == pytest.approx(10.0, rel=1e-2)
+
+
+ONE_OHM = """
+afecheck: 1
+name: inverting stage, one-ohm source
+parts:
+  HI: {gbw: 10 MHz, open_loop_gain: 1e6, output_resistance: 0}
+rails: {VCC: {voltage: 5 V}, VEE: {voltage: -5 V}}
+components:
+  V1: {kind: signal_source, dc: [-1 V, 1 V], source_resistance: 1, pins: {p: IN, n: GND}}
+  R1: {kind: resistor, value: 1, pins: {1: IN, 2: INM}}
+  R2: {kind: resistor, value: 2, pins: {1: INM, 2: OUT}}
+  U1: {kind: opamp, part: HI, pins: {in+: GND, in-: INM, out: OUT, v+: VCC, v-: VEE}}
+"""
+
+
+def test_a_one_ohm_source_resistance_is_in_the_inverting_gain(tmp_path) -> None:
+    # inverting gain −R2/(Rs + R1) = −2/(1 + 1) = −1 (ideal op-amp, Ohm and Kirchhoff; A0 = 1e6 at noise gain 3
+    # moves it by 3e-6): the source's own ohm counts as much as R1's
+    path = tmp_path / "d.yaml"
+    path.write_text(ONE_OHM, encoding="utf-8")
+    (stage,) = analyse(load_design(path)).stages
+    (inp,) = [i for i in stage.inputs if i.net == "IN"]
+    assert inp.gain == pytest.approx(-1.0, rel=1e-5)
+    assert inp.loading_error_max == pytest.approx(0.5, rel=1e-5)
