@@ -65,6 +65,7 @@ FIRST = {
     "limits": ["tests/test_supply_limits.py", "tests/test_rules_boundaries.py"],
 }
 SLOW = ["tests/reference"]
+EQUIVALENT_FILE = ROOT / "tests" / "tools" / "equivalent_mutants.txt"
 TIMEOUT_S = 300
 
 _SWAP_CMP = {ast.Lt: ast.LtE, ast.LtE: ast.Lt, ast.Gt: ast.GtE, ast.GtE: ast.Gt, ast.Eq: ast.NotEq,
@@ -203,6 +204,16 @@ def _tests_for(work: Path, file: str) -> list[str]:
     return list(dict.fromkeys(first + FAST[_area(file)] + kills))
 
 
+def equivalents(path: Path = EQUIVALENT_FILE) -> dict[str, str]:
+    """Mutants recorded as equivalent (``id | reason`` per line, ``#`` comments): not run, and left out of the rate."""
+    out: dict[str, str] = {}
+    for line in path.read_text(encoding="utf-8").splitlines() if path.exists() else ():
+        if line.strip() and not line.startswith("#"):
+            mid, _, reason = line.partition(" | ")
+            out[mid.strip()] = reason.strip()
+    return out
+
+
 def _pytest(work: Path, tests: list[str]) -> bool:
     """True when the tests pass (the mutant survives)."""
     tests = [t for t in tests if (work / t).exists()]
@@ -225,6 +236,7 @@ def run(sample: int | None, seed: int, report: Path | None, ids: list[str] | Non
         chosen = [m for m in every if m.id in set(ids)]
     chosen = chosen[:limit] if limit else chosen
     print(f"{len(every)} mutants in {len(files)} files; running {len(chosen)} (seed {seed})", flush=True)
+    same = equivalents()
     results = []
     with tempfile.TemporaryDirectory(prefix="afecheck-mutants-") as tmp:
         work = Path(tmp)
@@ -236,6 +248,10 @@ def run(sample: int | None, seed: int, report: Path | None, ids: list[str] | Non
         if not _pytest(work, everything):
             raise SystemExit("the unmutated test subset fails: fix the suite first")
         for k, m in enumerate(chosen, 1):
+            if m.id in same:
+                results.append({"id": m.id, "killed": False, "equivalent": same[m.id], "seconds": 0.0})
+                print(f"[{k}/{len(chosen)}] equivalent {m.id} ({same[m.id]})", flush=True)
+                continue
             target = work / m.file
             original = target.read_text(encoding="utf-8")
             target.write_text(m.source, encoding="utf-8")
@@ -249,14 +265,20 @@ def run(sample: int | None, seed: int, report: Path | None, ids: list[str] | Non
             results.append({"id": m.id, "killed": not survived, "seconds": round(time.monotonic() - t0, 1)})
             print(f"[{k}/{len(chosen)}] {'killed  ' if not survived else 'SURVIVED'} {m.id}", flush=True)
     killed = sum(r["killed"] for r in results)
-    rate = killed / len(results) if results else 1.0
-    print(f"kill rate {killed}/{len(results)} = {rate:.1%}")
-    for r in results:
+    counted = [r for r in results if "equivalent" not in r]
+    rate = killed / len(counted) if counted else 1.0
+    for area in TARGETS:
+        part = [r for r in counted if r["id"].startswith(area)]
+        print(f"{area}: {sum(r['killed'] for r in part)}/{len(part)} killed")
+    print(f"kill rate {killed}/{len(counted)} = {rate:.1%} ({len(results) - len(counted)} recorded equivalent left "
+          f"out; {killed}/{len(results)} = {killed / max(len(results), 1):.1%} counting them as survivors)")
+    for r in counted:
         if not r["killed"]:
             print(f"survivor: {r['id']}")
     if report is not None:
         report.write_text(json.dumps({"seed": seed, "sample": len(chosen), "total": len(every), "killed": killed,
-                                      "rate": rate, "results": results}, indent=1), encoding="utf-8")
+                                      "equivalent": len(results) - len(counted), "rate": rate, "results": results},
+                                     indent=1), encoding="utf-8")
     return rate
 
 
