@@ -8,7 +8,8 @@ fails. Usage (from the repository root)::
     nice -n 10 python tests/tools/mutate.py --sample 200 --seed 18 [--limit 40] [--floor 0.9] [--json out.json]
 
 ``--sample`` draws a fixed-seed subset of every mutant (the whole set takes hours on two shared cores);
-``--floor`` makes the exit status 1 when the kill rate falls below it. Mutant ids are ``file:line:col:change``.
+``--floor`` makes the exit status 1 when the kill rate falls below it. Mutant ids are ``file:line:col:change``
+(``#2``, ``#3`` for further operators starting at the same column).
 """
 
 from __future__ import annotations
@@ -169,9 +170,11 @@ def _changes(node: ast.AST) -> Iterator[tuple[str, callable]]:
         yield f"const {v!r}->{new_value!r}", apply
 
 
-def mutants(files: list[Path]) -> list[Mutant]:
-    """Every mutant of every file, in a fixed order."""
+def mutants(files: list[Path], only: set[str] | None = None) -> list[Mutant]:
+    """Every mutant of every file, in a fixed order; with ``only``, the source is written out for those ids alone
+    (the rest get an empty source: writing out thousands of modules costs minutes on a busy machine)."""
     out: list[Mutant] = []
+    seen: dict[str, int] = {}
     for path in files:
         rel = path.relative_to(ROOT).as_posix()
         tree = ast.parse(path.read_text(encoding="utf-8"))
@@ -180,13 +183,19 @@ def mutants(files: list[Path]) -> list[Mutant]:
             if id(node) in skip:
                 continue
             for label, apply in _changes(node):
-                undo = apply()
-                try:
-                    src = ast.unparse(tree)
-                finally:
-                    undo()
                 line, col = getattr(node, "lineno", 0), getattr(node, "col_offset", 0)
-                out.append(Mutant(f"{rel}:{line}:{col}:{label}", rel, src))
+                mid = f"{rel}:{line}:{col}:{label}"
+                seen[mid] = seen.get(mid, 0) + 1
+                if seen[mid] > 1:  # nested operators starting at one column (a + b + c, 0 <= x <= 1)
+                    mid = f"{mid}#{seen[mid]}"
+                src = ""
+                if only is None or mid in only:
+                    undo = apply()
+                    try:
+                        src = ast.unparse(tree)
+                    finally:
+                        undo()
+                out.append(Mutant(mid, rel, src))
     return out
 
 
@@ -230,11 +239,13 @@ def _pytest(work: Path, tests: list[str]) -> bool:
 def run(sample: int | None, seed: int, report: Path | None, ids: list[str] | None = None,
         limit: int | None = None, tests: list[str] | None = None) -> float:
     files = sorted(p for t in TARGETS for p in (ROOT / t).rglob("*.py") if p.name != "__init__.py")
-    every = mutants(files)
+    every = mutants(files, only=set())
     chosen = random.Random(seed).sample(every, sample) if sample and sample < len(every) else every
     if ids:
         chosen = [m for m in every if m.id in set(ids)]
     chosen = chosen[:limit] if limit else chosen
+    order = {m.id: k for k, m in enumerate(chosen)}
+    chosen = sorted((m for m in mutants(files, only=set(order)) if m.id in order), key=lambda m: order[m.id])
     print(f"{len(every)} mutants in {len(files)} files; running {len(chosen)} (seed {seed})", flush=True)
     same = equivalents()
     results = []
@@ -296,8 +307,7 @@ def main(argv: list[str] | None = None) -> int:
     args = ap.parse_args(argv)
     if args.list:
         files = sorted(p for t in TARGETS for p in (ROOT / t).rglob("*.py") if p.name != "__init__.py")
-        every = mutants(files)
-        print(len(every))
+        print(len(mutants(files, only=set())))
         return 0
     rate = run(args.sample, args.seed, args.json, args.ids, args.limit, args.tests)
     return 0 if rate >= args.floor else 1
