@@ -122,6 +122,19 @@ class _Builder:
         self.cap(p, "GND", float(10 ** self.rng.uniform(-10, -8)))
         self.opamp(p, out, out)
 
+    def composite(self, src: str, out: str) -> None:
+        """A composite amplifier: a precise op-amp whose output drives a non-inverting booster stage, the overall
+        inverting feedback from the booster's output back to the first op-amp (one loop through both)."""
+        m, x, n = self.name("M"), self.name("X"), self.name("N")
+        self.res(src, m, _r(self.rng, 1e3, 1e5))
+        self.res(m, out, _r(self.rng, 1e3, 1e5))
+        if self.rng.random() < 0.6:
+            self.cap(m, x, float(10 ** self.rng.uniform(-11, -9)))  # local integrator: tames the double pole
+        self.opamp("REF" if self.rng.random() < 0.5 else "GND", m, x)
+        self.res(n, out, _r(self.rng, 1e3, 1e5))
+        self.res(n, "GND", _r(self.rng, 1e3, 1e5))
+        self.opamp(x, n, out)
+
     def integrator(self, src: str, out: str) -> None:
         m = self.name("M")
         self.res(src, m, _r(self.rng, 1e3, 1e5))
@@ -131,8 +144,8 @@ class _Builder:
 
 
 def random_design(rng: np.random.Generator, kind: str) -> dict:
-    """A random design of one kind: single, cascade, inamp, mfb, sallen-key, tia, integrator, ntc-ref."""
-    b = _Builder(rng, offsets=2 if kind in ("inamp", "cascade") else 3)
+    """A random design of one kind: single, cascade, inamp, composite, mfb, sallen-key, tia, integrator, ntc-ref."""
+    b = _Builder(rng, offsets=2 if kind in ("inamp", "cascade", "composite") else 3)
     vp = float(rng.choice([5.0, 12.0, 15.0]))
     dual = kind not in ("ntc-ref",) and rng.random() < 0.6
     rails = {"VP": {"voltage": vp, "tolerance": float(rng.choice([0.0, 0.02, 0.05]))},
@@ -140,7 +153,7 @@ def random_design(rng: np.random.Generator, kind: str) -> dict:
                                                             "tolerance": float(rng.choice([0.0, 0.01]))}}
     if not dual:
         rails["VN"] = {"voltage": 0.0}
-    if kind in ("single", "cascade", "mfb", "sallen-key", "integrator"):
+    if kind in ("single", "cascade", "composite", "mfb", "sallen-key", "integrator"):
         b.voltage_signal("IN", 1.0)
         stages = {"single": 1, "cascade": int(rng.integers(2, 4))}.get(kind, 1)
         src = "IN"
@@ -149,7 +162,8 @@ def random_design(rng: np.random.Generator, kind: str) -> dict:
             if kind in ("single", "cascade"):
                 (b.inverting if rng.random() < 0.5 else b.non_inverting)(src, out)
             else:
-                {"mfb": b.mfb, "sallen-key": b.sallen_key, "integrator": b.integrator}[kind](src, out)
+                {"mfb": b.mfb, "sallen-key": b.sallen_key, "integrator": b.integrator,
+                 "composite": b.composite}[kind](src, out)
             src = out
     elif kind == "inamp":
         b.voltage_signal("INP", 0.5)
@@ -333,24 +347,38 @@ def corners(design: dict) -> list[Corner]:
     return out
 
 
-def dc_extremes(design: dict, nets: list[str]) -> dict[str, tuple[float, float]]:
-    """(lowest, highest) DC voltage of each net over every corner, one SPICE copy per corner in one deck."""
+def dc_extremes(design: dict, nets: list[str], opamps: tuple[str, ...] = ()
+                ) -> dict[str, tuple[float, float]]:
+    """(lowest, highest) DC voltage of each net over every corner, one SPICE copy per corner in one deck; and
+    under the key ``iout:<ref>`` each op-amp's output current (into its output net: the current through the
+    model's output resistance, (v(o) − v(out))/Ro, read at every corner)."""
     cs = corners(design)
     if len(cs) > MAX_CORNERS:
         raise ValueError(f"{len(cs)} corners")
+    gnd = design.get("ground", "GND")
     lines = ["worst-case corners"]
     for k, c in enumerate(cs):
         lines += circuit_lines(design, c, f"k{k}_")
-    names = [f"v(k{k}_{net})" for k in range(len(cs)) for net in nets]
+    outs = {r: design["components"][r]["pins"]["out"] for r in opamps}
+    probes = list(nets) + [f"{r}_o" for r in opamps] + sorted({o for o in outs.values() if o != gnd} - set(nets))
+    names = [f"v(k{k}_{net})" for k in range(len(cs)) for net in probes]
     lines += [".control", "set numdgt=15", "op"]
     lines += ["print " + " ".join(names[i:i + 20]) for i in range(0, len(names), 20)]
     lines += ["quit", ".endc", ".end"]
     text = run("\n".join(lines) + "\n")
     values = {m.group(1): float(m.group(2)) for m in re.finditer(r"^(v\([^)]+\)) = (\S+)$", text, re.MULTILINE)}
+
+    def v(k: int, net: str) -> float:
+        return 0.0 if net == gnd else values[f"v(k{k}_{net})".lower()]
+
     out = {}
     for net in nets:
-        vs = [values[f"v(k{k}_{net})".lower()] for k in range(len(cs))]
+        vs = [v(k, net) for k in range(len(cs))]
         out[net] = (min(vs), max(vs))
+    for r in opamps:
+        ro = design["parts"][design["components"][r]["part"]]["output_resistance"]
+        i = [(v(k, f"{r}_o") - v(k, outs[r])) / ro for k in range(len(cs))]
+        out[f"iout:{r}"] = (min(i), max(i))
     return out
 
 
