@@ -100,7 +100,7 @@ def _empty_result(stage: Stage, circuit: Circuit, reasons: tuple[str, ...]) -> S
         in_minus=stage.in_minus, out=stage.out, group=stage.group, inputs=(), noise_gain_dc=None,
         noise_gain_at_crossover=None, noise_gain_hf=None, output_resistance=None, vcm_min=None, vcm_max=None,
         vout_min=None, vout_max=None, vout_ac_peak=0.0, f_max=0.0, load_resistance=None, load_capacitance=0.0,
-        iout_peak=None, feedback="none", loop_gain_dc=None, crossover_hz=None, phase_margin_deg=None,
+        iout_peak=None, feedback="not-evaluated", loop_gain_dc=None, crossover_hz=None, phase_margin_deg=None,
         gain_margin_db=None, loop_gain_at_fmax=None, required_slew_rate=0.0, rail_plus=vp, rail_minus=vm,
         not_evaluated=reasons,
     )
@@ -829,7 +829,7 @@ def _loop_numbers(loop_circuit: LoopCircuit, ref: str, f_max: float, cache: dict
                 cache[sig_key] = cache[key]
             return cache[key]
     op = netlist.opamps[ref]
-    fb: str = "none"
+    fb: str = "not-evaluated"  # until the loop gain is solved: a failed solve says nothing about the feedback
     t_dc = fc = pm = gm = t_fmax = ng_dc = ng_fc = ng_hf = None
     reasons: list[str] = []
     try:
