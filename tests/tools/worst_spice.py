@@ -16,7 +16,6 @@ from __future__ import annotations
 
 import itertools
 import math
-import re
 import shutil
 import subprocess
 import tempfile
@@ -24,6 +23,7 @@ from dataclasses import dataclass
 from pathlib import Path
 
 import numpy as np
+from ngspice_harness import read_raw
 
 NGSPICE = shutil.which("ngspice")
 BAD = ("error", "singular matrix", "warning from checkvalid", "simulation interrupted")
@@ -297,19 +297,35 @@ def circuit_lines(design: dict, corner: Corner, prefix: str, probe: str | None =
     return lines
 
 
-def run(deck: str) -> str:
-    """ngspice -b on ``deck``; its output (fails on the messages ngspice prints but still exits 0 on)."""
+def _ngspice(deck: str) -> tuple[str, dict[str, bytes]]:
+    """ngspice -b on ``deck``: its output and the files it wrote (fails on the messages ngspice prints but
+    still exits 0 on)."""
     with tempfile.TemporaryDirectory(prefix="worst-spice-") as d:
         path = Path(d) / "deck.cir"
         path.write_text(deck, encoding="ascii")
         proc = subprocess.run([NGSPICE or "ngspice", "-b", str(path)], cwd=d, capture_output=True, text=True,
-                              timeout=300)
+                              timeout=600)
         text = proc.stdout + proc.stderr
-        data = {p.name: p.read_text() for p in Path(d).glob("*.txt")}
+        files = {p.name: p.read_bytes() for p in Path(d).iterdir() if p.name != "deck.cir"}
     bad = [ln for ln in text.splitlines() if any(m in ln.lower() for m in BAD)]
     if proc.returncode != 0 or bad:
         raise AssertionError("ngspice failed:\n" + "\n".join(bad or text.splitlines()[-20:]))
-    return text + "".join(f"\n#file {k}\n{v}" for k, v in data.items())
+    return text, files
+
+
+def run(deck: str) -> str:
+    """ngspice's output on ``deck``, with each text file it wrote appended under ``#file <name>``."""
+    text, files = _ngspice(deck)
+    return text + "".join(f"\n#file {k}\n{v.decode()}" for k, v in sorted(files.items()) if k.endswith(".txt"))
+
+
+def run_raw(deck: str, name: str) -> dict[str, np.ndarray]:
+    """The binary raw file ``name`` that ``deck`` writes, as arrays keyed by lower-cased vector name."""
+    _, files = _ngspice(deck)
+    with tempfile.TemporaryDirectory(prefix="worst-spice-raw-") as d:
+        path = Path(d) / name
+        path.write_bytes(files[name])
+        return read_raw(path)
 
 
 # ---------------------------------------------------------------- DC: brute-force corners
@@ -360,16 +376,11 @@ def dc_extremes(design: dict, nets: list[str], opamps: tuple[str, ...] = ()
     for k, c in enumerate(cs):
         lines += circuit_lines(design, c, f"k{k}_")
     outs = {r: design["components"][r]["pins"]["out"] for r in opamps}
-    probes = list(nets) + [f"{r}_o" for r in opamps] + sorted({o for o in outs.values() if o != gnd} - set(nets))
-    names = [f"v(k{k}_{net})" for k in range(len(cs)) for net in probes]
-    lines += [".control", "set numdgt=15", "op"]
-    lines += ["print " + " ".join(names[i:i + 20]) for i in range(0, len(names), 20)]
-    lines += ["quit", ".endc", ".end"]
-    text = run("\n".join(lines) + "\n")
-    values = {m.group(1): float(m.group(2)) for m in re.finditer(r"^(v\([^)]+\)) = (\S+)$", text, re.MULTILINE)}
+    lines += [".control", "op", "write dc.raw", "quit", ".endc", ".end"]
+    values = run_raw("\n".join(lines) + "\n", "dc.raw")
 
     def v(k: int, net: str) -> float:
-        return 0.0 if net == gnd else values[f"v(k{k}_{net})".lower()]
+        return 0.0 if net == gnd else float(values[f"v(k{k}_{net})".lower()][0])
 
     out = {}
     for net in nets:
