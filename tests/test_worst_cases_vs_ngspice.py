@@ -12,6 +12,7 @@ range ends of every net the stages solve and of each op-amp's output current wit
 from __future__ import annotations
 
 import json
+from pathlib import Path
 
 import numpy as np
 import pytest
@@ -124,7 +125,7 @@ def test_neighbouring_stages_are_in_each_others_loops(tmp_path) -> None:
     matter over frequency (high Ro, a low input resistor, input capacitance): each loop against the whole circuit
     in ngspice, every other op-amp in place. With the neighbours idealised (a DC Thevenin source upstream, an ideal
     virtual ground downstream) U1 read 68.2° at 0.99 MHz and U2 86.8°, where the whole circuit gives 58.1° at
-    1.82 MHz and 98.7°."""
+    1.82 MHz and 98.7°, with gain margins of 12.13 dB and 28.40 dB."""
     design = {
         "afecheck": 1, "name": "coupled cascade",
         "parts": {"PA": _part(400.0, 8e6, 20e-12), "PB": _part(300.0, 12e6, 15e-12)},
@@ -149,6 +150,7 @@ def test_neighbouring_stages_are_in_each_others_loops(tmp_path) -> None:
         assert s.phase_margin_deg == pytest.approx(ref.phase_margin_deg, abs=0.05), s.opamp
         assert s.crossover_hz == pytest.approx(ref.crossover_hz, rel=1e-3), s.opamp
         assert s.noise_gain_hf == pytest.approx(ref.noise_gain_hf, rel=1e-3), s.opamp
+        assert ref.gain_margin_db is not None and s.gain_margin_db == pytest.approx(ref.gain_margin_db, abs=0.05)
 
 
 def _dc_part(vos: float, a0: float) -> dict:
@@ -222,3 +224,48 @@ def test_in_amp_output_currents_include_the_difference_stage(tmp_path) -> None:
         "signals": {"INP": {"dc": [0.0, 0.05]}, "INN": {"dc": [-0.05, 0.0]}}, "loads": {},
     }
     _compare_dc(tmp_path, design, ["A1", "A2", "D", "E", "OUT"], 1e-5)
+
+
+PART_FIELDS = ("gbw", "open_loop_gain", "second_pole", "output_resistance", "input_resistance_diff",
+               "input_resistance_cm", "input_capacitance_diff", "input_capacitance_cm", "offset_voltage",
+               "bias_current", "offset_current")
+
+
+@pytest.mark.parametrize(("sample", "with_cf"), [("turbidity_receiver.yaml", True),
+                                                 ("turbidity_receiver_uncompensated.yaml", False)])
+def test_photodiode_sample_with_and_without_its_feedback_capacitor(tmp_path, sample: str, with_cf: bool) -> None:
+    """The photodiode receiver sample: phase margin above 60° with its 2.7 pF feedback capacitor, near 0° without
+    (both against the loop broken in ngspice, the circuit written by the reference harness from the sample's
+    values), the gain printed in V/A, no loading finding on the photodiode, and without the capacitor a fix that
+    names the feedback capacitor's computed value."""
+    from afecheck.api import check_design  # noqa: PLC0415
+
+    root = Path(__file__).resolve().parents[1] / "sample_designs"
+    loaded = load_design(root / sample)
+    (u1,) = analyse(loaded).stages
+    model = loaded.parts[loaded.design.components["U1"].part]
+    rf = 1e6
+    comps = {"U1": {"kind": "opamp", "part": "P", "pins": {"in+": "VREF", "in-": "PD", "out": "OUT", "v+": "VCC",
+                                                         "v-": "GND"}},
+             "R1": {"kind": "resistor", "value": rf, "pins": {"1": "PD", "2": "OUT"}}}
+    if with_cf:
+        comps["C1"] = {"kind": "capacitor", "value": 2.7e-12, "pins": {"1": "PD", "2": "OUT"}}
+    design = {"afecheck": 1, "parts": {"P": {k: float(model.value(k)) for k in PART_FIELDS}},
+              "rails": {"VCC": {"voltage": 5.0}, "VREF": {"voltage": 2.5}}, "components": comps,
+              "signals": {"PD": {"kind": "current", "current": [0.0, 1.5e-6], "capacitance": 150e-12,
+                                 "shunt_resistance": 500e6}},
+              "loads": {"OUT": {"resistance": 100e3, "capacitance": 20e-12}}}
+    ref = ws.loop_margins(design, "U1")
+    assert u1.phase_margin_deg == pytest.approx(ref.phase_margin_deg, abs=0.5)
+    assert u1.crossover_hz == pytest.approx(ref.crossover_hz, rel=5e-3)
+    assert (u1.phase_margin_deg > 60.0) if with_cf else (abs(u1.phase_margin_deg) < 5.0)
+    (pd,) = [i for i in u1.inputs if i.net == "PD"]
+    assert u1.topology == "transimpedance" and pd.gain_unit == "V/A" and pd.gain == pytest.approx(-rf, rel=1e-3)
+    report = check_design(loaded)
+    assert not [f for f in report.findings if f.rule.startswith("loading.")]
+    pm = [f for f in report.findings if f.rule == "stability.phase-margin"]
+    if with_cf:
+        assert not pm
+    else:
+        assert pm and u1.feedback_capacitance_for_margin is not None
+        assert "feedback capacitor of about" in pm[0].fix and "from OUT to PD" in pm[0].fix
