@@ -46,6 +46,7 @@ def test_a_piezo_into_a_feedback_capacitor_is_a_charge_amplifier(tmp_path) -> No
     assert q.gain_unit == "V/C"
     # in band the gain is 1/Cf (the bleed resistor's corner 1/(2π·1G·100p) = 1.6 Hz is below the band)
     assert q.band_gain == pytest.approx(1 / 100e-12, rel=1e-3)
+    assert q.gain == pytest.approx(-1 / 100e-12, rel=1e-3)  # an inversion: the charge lands on Cf from in-
     report = check_design(loaded)
     assert not [f for f in report.findings if f.rule.startswith("loading.")]
 

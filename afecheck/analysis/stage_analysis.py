@@ -654,8 +654,10 @@ def _stage_result(circuit: Circuit, s: Stage, netlist: Netlist, system: MnaSyste
         band = float(ac_peak[j][out]) if j in ac_peak and out >= 0 else None
         if inp.source.kind == "charge":
             c_sensor = float(circuit.loaded.design.signals[inp.source.net].capacitance)
-            g_nom = band / c_sensor if band is not None and c_sensor else 0.0
-            band, ideal, err = (g_nom if inp.source.f_max > 0 else None), g_nom, np.zeros(len(xs))
+            # signed by the response mid-band: a charge amplifier's −1/Cf is an inversion
+            sign = -1.0 if j in ac_mid and out >= 0 and ac_mid[j][out].real < 0 else 1.0
+            g_nom = sign * band / c_sensor if band is not None and c_sensor else 0.0
+            band, ideal, err = (abs(g_nom) if inp.source.f_max > 0 else None), g_nom, np.zeros(len(xs))
         via = _series_path(circuit, inp.source.net, s.in_plus if inp.pin == "in+" else s.in_minus,
                            frozenset(s.refs) - frozenset(inp.source.refs), s.out)
         stage_inputs.append(StageInput(
