@@ -3,7 +3,8 @@
 Nothing here uses afecheck's netlist, deck writer or solver: :func:`random_design` makes a design as plain data
 (the exchange format), :func:`dc_extremes` writes one SPICE copy of the whole circuit per corner (every
 rail end, signal end, offset sign and thermistor temperature on a dense grid: a brute-force corner sweep, no
-superposition) and takes each net's extremes over them, and :func:`loop_margins` breaks one op-amp's loop at
+superposition) and takes each net's extremes and each op-amp's output current (through its output resistance)
+over them, read from ngspice's binary raw file, and :func:`loop_margins` breaks one op-amp's loop at
 its gain chain in the full circuit (every other op-amp in place) and reads phase margin, crossover, gain
 margin and high-frequency noise gain from a dense AC sweep.
 
