@@ -270,7 +270,7 @@ def test_a_charge_amplifier_reports_volts_per_coulomb(tmp_path) -> None:
     a = analyse(load(tmp_path, text))
     u1 = stage_of(a, "U1")
     (q,) = u1.inputs
-    assert q.gain_unit == "V/C"
+    assert u1.topology == "charge-amplifier" and q.gain_unit == "V/C"
     # Vout/q = Zf·jω at the virtual ground: |.| = 1/Cf · 1/sqrt(1 + 1/(ωRfCf)²), largest at the band top
     w = 2 * math.pi * 1e3
     expected = 1 / 100e-12 / math.sqrt(1 + 1 / (w * 1e9 * 100e-12) ** 2)

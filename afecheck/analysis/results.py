@@ -1,7 +1,7 @@
 """Frozen analysis results: the numbers the rules read and `afecheck stages` prints.
 
 All fields hold Python floats (never numpy scalars) in SI units; ``None`` means "not evaluated"
-and the reason is in ``not_evaluated``.
+and the reason is in ``not_evaluated``; ``feedback`` is "not-evaluated" when the loop could not be solved.
 """
 
 from __future__ import annotations
@@ -15,7 +15,7 @@ if TYPE_CHECKING:
 
 Topology = Literal[
     "follower", "non-inverting", "inverting", "summing", "difference", "transimpedance", "integrator",
-    "active-filter", "general",
+    "active-filter", "general", "charge-amplifier",
 ]
 SourceKind = Literal["signal", "signal-source", "divider", "ntc-divider", "rail", "vsource", "stage-output", "unknown",
                      "current", "charge"]
@@ -91,7 +91,7 @@ class StageResult:
     load_resistance: float | None
     load_capacitance: float
     iout_peak: float | None
-    feedback: Literal["negative", "positive", "none"]
+    feedback: Literal["negative", "positive", "none", "not-evaluated"]
     loop_gain_dc: float | None
     crossover_hz: float | None
     phase_margin_deg: float | None

@@ -9,10 +9,11 @@ gets its Thevenin voltage range.
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 
 from afecheck.analysis.affine import SweptForm
 from afecheck.analysis.corners import Corners
+from afecheck.analysis.coupled_dc import CoupledDc, solve_with_neighbours
 from afecheck.analysis.results import NetSignal, StageResult
 from afecheck.analysis.sources import find_dividers, rail_range
 from afecheck.analysis.stage_analysis import analyse_unit
@@ -86,6 +87,12 @@ def propagate(circuit: Circuit, plan: StagePlan, circuits: dict | None = None) -
                 nets[ns.net] = ns
                 forms[ns.net] = res.forms[ns.net]
         currents.update(res.output_currents)
+    seeded = set(seed_signals(circuit))
+    for unit in plan.units:
+        coupled = solve_with_neighbours(circuit, plan, unit, results, forms, corners, cache)
+        if coupled is not None:
+            _take_coupled(coupled, unit, results, nets, forms, currents, seeded)
+    _restate_upstream(results)
     rest = [n for n in circuit.net_pins if n not in nets]
     for net, dv in find_dividers(circuit, rest, frozenset(circuit.kinds)).items():
         if len(circuit.net_pins[net]) == len(dv.legs):
@@ -100,3 +107,43 @@ def propagate(circuit: Circuit, plan: StagePlan, circuits: dict | None = None) -
             nets[net] = NetSignal(net=net, dc_min=lo, dc_max=hi)
             forms[net] = form
     return Propagated(results, nets, problems, forms, currents)
+
+
+def _take_coupled(coupled: CoupledDc, unit: tuple[str, ...], results: dict[str, StageResult],
+                  nets: dict[str, NetSignal], forms: dict[str, SweptForm], currents: dict[str, SweptForm],
+                  seeded: set[str]) -> None:
+    """Replace a unit's DC ranges, forms and output currents by those solved with its neighbours (a declared
+    signal's or a rail's net keeps its declared range)."""
+    for net, (form, lo, hi) in coupled.nets.items():
+        if net in seeded or net not in nets:
+            continue
+        nets[net] = replace(nets[net], dc_min=lo, dc_max=hi)
+        forms[net] = form
+    for ref in unit:
+        r = results[ref]
+        new = coupled.currents[ref]
+        old_lo, old_hi = currents[ref].extremes()
+        new_lo, new_hi = new.extremes()
+        currents[ref] = new
+        changes: dict = {}
+        if r.iout_peak is not None:
+            ac_part = r.iout_peak - max(abs(old_lo), abs(old_hi))
+            changes["iout_peak"] = max(abs(new_lo), abs(new_hi)) + ac_part
+        if r.out in coupled.nets and r.vout_min is not None:
+            changes["vout_min"], changes["vout_max"] = coupled.nets[r.out][1:]
+        if r.in_plus in coupled.nets and r.vcm_min is not None:
+            changes["vcm_min"], changes["vcm_max"] = coupled.nets[r.in_plus][1:]
+        results[ref] = replace(r, **changes)
+
+
+def _restate_upstream(results: dict[str, StageResult]) -> None:
+    """Give each stage input driven by another stage's output that stage's final output range."""
+    for ref, r in list(results.items()):
+        inputs = []
+        for inp in r.inputs:
+            up = results.get(inp.source.refs[0]) if inp.source.kind == "stage-output" else None
+            if up is not None and up.vout_min is not None and up.vout_max is not None:
+                inp = replace(inp, source=replace(inp.source, v_min=up.vout_min, v_max=up.vout_max))
+            inputs.append(inp)
+        if any(a is not b for a, b in zip(inputs, r.inputs, strict=True)):
+            results[ref] = replace(r, inputs=tuple(inputs))

@@ -101,7 +101,7 @@ def _empty_result(stage: Stage, circuit: Circuit, reasons: tuple[str, ...]) -> S
         in_minus=stage.in_minus, out=stage.out, group=stage.group, inputs=(), noise_gain_dc=None,
         noise_gain_at_crossover=None, noise_gain_hf=None, output_resistance=None, vcm_min=None, vcm_max=None,
         vout_min=None, vout_max=None, vout_ac_peak=0.0, f_max=0.0, load_resistance=None, load_capacitance=0.0,
-        iout_peak=None, feedback="none", loop_gain_dc=None, crossover_hz=None, phase_margin_deg=None,
+        iout_peak=None, feedback="not-evaluated", loop_gain_dc=None, crossover_hz=None, phase_margin_deg=None,
         gain_margin_db=None, loop_gain_at_fmax=None, required_slew_rate=0.0, rail_plus=vp, rail_minus=vm,
         not_evaluated=reasons,
     )
@@ -657,8 +657,10 @@ def _stage_result(circuit: Circuit, s: Stage, netlist: Netlist, system: MnaSyste
         band = float(ac_peak[j][out]) if j in ac_peak and out >= 0 else None
         if inp.source.kind == "charge":
             c_sensor = float(circuit.loaded.design.signals[inp.source.net].capacitance)
-            g_nom = band / c_sensor if band is not None and c_sensor else 0.0
-            band, ideal, err = (g_nom if inp.source.f_max > 0 else None), g_nom, np.zeros(len(xs))
+            # signed by the response mid-band: a charge amplifier's −1/Cf is an inversion
+            sign = -1.0 if j in ac_mid and out >= 0 and ac_mid[j][out].real < 0 else 1.0
+            g_nom = sign * band / c_sensor if band is not None and c_sensor else 0.0
+            band, ideal, err = (abs(g_nom) if inp.source.f_max > 0 else None), g_nom, np.zeros(len(xs))
         via = _series_path(circuit, inp.source.net, s.in_plus if inp.pin == "in+" else s.in_minus,
                            frozenset(s.refs) - frozenset(inp.source.refs), s.out)
         stage_inputs.append(StageInput(
@@ -832,7 +834,7 @@ def _loop_numbers(loop_circuit: LoopCircuit, ref: str, f_max: float, cache: dict
                 cache[sig_key] = cache[key]
             return cache[key]
     op = netlist.opamps[ref]
-    fb: str = "none"
+    fb: str = "not-evaluated"  # until the loop gain is solved: a failed solve says nothing about the feedback
     t_dc = fc = pm = gm = t_fmax = ng_dc = ng_fc = ng_hf = None
     reasons: list[str] = []
     try:

@@ -11,6 +11,8 @@ Topology criteria, in the order they are tried:
 - ``active-filter`` when a feedback part lands on an inner node of the input network (not on ``in+``/``in-``)
   and the stage holds at least two capacitors (Sallen-Key, multiple feedback);
 - ``follower`` when ``in-`` is the output net, or is tied to it by one resistor and nothing else;
+- ``charge-amplifier`` when a declared ``charge`` signal (a piezo) drives ``in-`` directly and the feedback holds
+  a capacitor: the charge lands on that capacitor (gain −1/Cf in V/C), a resistor across it only bleeds it;
 - ``transimpedance`` when a declared signal or signal source drives ``in-`` directly (no series part) and the
   feedback holds a resistor: the source's resistance is read as the sensor's shunt resistance;
 - ``integrator`` when the feedback to ``in-`` is capacitors only and a signal reaches ``in-``;
@@ -116,6 +118,12 @@ def _signal_terminals(circuit: Circuit, region: Region, group: tuple[str, ...], 
     return found
 
 
+def _charge_signal(circuit: Circuit, net: str | None) -> bool:
+    """Whether ``net`` carries a declared charge-output sensor."""
+    sig = circuit.loaded.design.signals.get(net) if net is not None else None
+    return sig is not None and sig.kind == "charge"
+
+
 def classify(
     circuit: Circuit, ref: str, plus: Region, minus: Region, group: tuple[str, ...]
 ) -> tuple[Topology, tuple[str, ...]]:
@@ -139,6 +147,8 @@ def classify(
     fb_minus_res = [r for r in fb_minus if kinds[r] != "capacitor"]
     minus_signals = _signal_terminals(circuit, minus, group, inm, gain_side=True)
     plus_signals = _signal_terminals(circuit, plus, group, inp)
+    if _charge_signal(circuit, inm) and len(fb_minus_res) < len(fb_minus):
+        return "charge-amplifier", feedback
     if inm in circuit.signal_nets and fb_minus_res:
         return "transimpedance", feedback
     if fb_minus and not fb_minus_res:

@@ -3,7 +3,8 @@
 Nothing here uses afecheck's netlist, deck writer or solver: :func:`random_design` makes a design as plain data
 (the exchange format), :func:`dc_extremes` writes one SPICE copy of the whole circuit per corner (every
 rail end, signal end, offset sign and thermistor temperature on a dense grid: a brute-force corner sweep, no
-superposition) and takes each net's extremes over them, and :func:`loop_margins` breaks one op-amp's loop at
+superposition) and takes each net's extremes and each op-amp's output current (through its output resistance)
+over them, read from ngspice's binary raw file, and :func:`loop_margins` breaks one op-amp's loop at
 its gain chain in the full circuit (every other op-amp in place) and reads phase margin, crossover, gain
 margin and high-frequency noise gain from a dense AC sweep.
 
@@ -16,7 +17,6 @@ from __future__ import annotations
 
 import itertools
 import math
-import re
 import shutil
 import subprocess
 import tempfile
@@ -24,6 +24,7 @@ from dataclasses import dataclass
 from pathlib import Path
 
 import numpy as np
+from ngspice_harness import read_raw
 
 NGSPICE = shutil.which("ngspice")
 BAD = ("error", "singular matrix", "warning from checkvalid", "simulation interrupted")
@@ -122,6 +123,19 @@ class _Builder:
         self.cap(p, "GND", float(10 ** self.rng.uniform(-10, -8)))
         self.opamp(p, out, out)
 
+    def composite(self, src: str, out: str) -> None:
+        """A composite amplifier: a precise op-amp whose output drives a non-inverting booster stage, the overall
+        inverting feedback from the booster's output back to the first op-amp (one loop through both)."""
+        m, x, n = self.name("M"), self.name("X"), self.name("N")
+        self.res(src, m, _r(self.rng, 1e3, 1e5))
+        self.res(m, out, _r(self.rng, 1e3, 1e5))
+        if self.rng.random() < 0.6:
+            self.cap(m, x, float(10 ** self.rng.uniform(-11, -9)))  # local integrator: tames the double pole
+        self.opamp("REF" if self.rng.random() < 0.5 else "GND", m, x)
+        self.res(n, out, _r(self.rng, 1e3, 1e5))
+        self.res(n, "GND", _r(self.rng, 1e3, 1e5))
+        self.opamp(x, n, out)
+
     def integrator(self, src: str, out: str) -> None:
         m = self.name("M")
         self.res(src, m, _r(self.rng, 1e3, 1e5))
@@ -131,8 +145,8 @@ class _Builder:
 
 
 def random_design(rng: np.random.Generator, kind: str) -> dict:
-    """A random design of one kind: single, cascade, inamp, mfb, sallen-key, tia, integrator, ntc-ref."""
-    b = _Builder(rng, offsets=2 if kind in ("inamp", "cascade") else 3)
+    """A random design of one kind: single, cascade, inamp, composite, mfb, sallen-key, tia, integrator, ntc-ref."""
+    b = _Builder(rng, offsets=2 if kind in ("inamp", "cascade", "composite") else 3)
     vp = float(rng.choice([5.0, 12.0, 15.0]))
     dual = kind not in ("ntc-ref",) and rng.random() < 0.6
     rails = {"VP": {"voltage": vp, "tolerance": float(rng.choice([0.0, 0.02, 0.05]))},
@@ -140,7 +154,7 @@ def random_design(rng: np.random.Generator, kind: str) -> dict:
                                                             "tolerance": float(rng.choice([0.0, 0.01]))}}
     if not dual:
         rails["VN"] = {"voltage": 0.0}
-    if kind in ("single", "cascade", "mfb", "sallen-key", "integrator"):
+    if kind in ("single", "cascade", "composite", "mfb", "sallen-key", "integrator"):
         b.voltage_signal("IN", 1.0)
         stages = {"single": 1, "cascade": int(rng.integers(2, 4))}.get(kind, 1)
         src = "IN"
@@ -149,7 +163,8 @@ def random_design(rng: np.random.Generator, kind: str) -> dict:
             if kind in ("single", "cascade"):
                 (b.inverting if rng.random() < 0.5 else b.non_inverting)(src, out)
             else:
-                {"mfb": b.mfb, "sallen-key": b.sallen_key, "integrator": b.integrator}[kind](src, out)
+                {"mfb": b.mfb, "sallen-key": b.sallen_key, "integrator": b.integrator,
+                 "composite": b.composite}[kind](src, out)
             src = out
     elif kind == "inamp":
         b.voltage_signal("INP", 0.5)
@@ -283,19 +298,35 @@ def circuit_lines(design: dict, corner: Corner, prefix: str, probe: str | None =
     return lines
 
 
-def run(deck: str) -> str:
-    """ngspice -b on ``deck``; its output (fails on the messages ngspice prints but still exits 0 on)."""
+def _ngspice(deck: str) -> tuple[str, dict[str, bytes]]:
+    """ngspice -b on ``deck``: its output and the files it wrote (fails on the messages ngspice prints but
+    still exits 0 on)."""
     with tempfile.TemporaryDirectory(prefix="worst-spice-") as d:
         path = Path(d) / "deck.cir"
         path.write_text(deck, encoding="ascii")
         proc = subprocess.run([NGSPICE or "ngspice", "-b", str(path)], cwd=d, capture_output=True, text=True,
-                              timeout=300)
+                              timeout=600)
         text = proc.stdout + proc.stderr
-        data = {p.name: p.read_text() for p in Path(d).glob("*.txt")}
+        files = {p.name: p.read_bytes() for p in Path(d).iterdir() if p.name != "deck.cir"}
     bad = [ln for ln in text.splitlines() if any(m in ln.lower() for m in BAD)]
     if proc.returncode != 0 or bad:
         raise AssertionError("ngspice failed:\n" + "\n".join(bad or text.splitlines()[-20:]))
-    return text + "".join(f"\n#file {k}\n{v}" for k, v in data.items())
+    return text, files
+
+
+def run(deck: str) -> str:
+    """ngspice's output on ``deck``, with each text file it wrote appended under ``#file <name>``."""
+    text, files = _ngspice(deck)
+    return text + "".join(f"\n#file {k}\n{v.decode()}" for k, v in sorted(files.items()) if k.endswith(".txt"))
+
+
+def run_raw(deck: str, name: str) -> dict[str, np.ndarray]:
+    """The binary raw file ``name`` that ``deck`` writes, as arrays keyed by lower-cased vector name."""
+    _, files = _ngspice(deck)
+    with tempfile.TemporaryDirectory(prefix="worst-spice-raw-") as d:
+        path = Path(d) / name
+        path.write_bytes(files[name])
+        return read_raw(path)
 
 
 # ---------------------------------------------------------------- DC: brute-force corners
@@ -333,24 +364,33 @@ def corners(design: dict) -> list[Corner]:
     return out
 
 
-def dc_extremes(design: dict, nets: list[str]) -> dict[str, tuple[float, float]]:
-    """(lowest, highest) DC voltage of each net over every corner, one SPICE copy per corner in one deck."""
+def dc_extremes(design: dict, nets: list[str], opamps: tuple[str, ...] = ()
+                ) -> dict[str, tuple[float, float]]:
+    """(lowest, highest) DC voltage of each net over every corner, one SPICE copy per corner in one deck; and
+    under the key ``iout:<ref>`` each op-amp's output current (into its output net: the current through the
+    model's output resistance, (v(o) − v(out))/Ro, read at every corner)."""
     cs = corners(design)
     if len(cs) > MAX_CORNERS:
         raise ValueError(f"{len(cs)} corners")
+    gnd = design.get("ground", "GND")
     lines = ["worst-case corners"]
     for k, c in enumerate(cs):
         lines += circuit_lines(design, c, f"k{k}_")
-    names = [f"v(k{k}_{net})" for k in range(len(cs)) for net in nets]
-    lines += [".control", "set numdgt=15", "op"]
-    lines += ["print " + " ".join(names[i:i + 20]) for i in range(0, len(names), 20)]
-    lines += ["quit", ".endc", ".end"]
-    text = run("\n".join(lines) + "\n")
-    values = {m.group(1): float(m.group(2)) for m in re.finditer(r"^(v\([^)]+\)) = (\S+)$", text, re.MULTILINE)}
+    outs = {r: design["components"][r]["pins"]["out"] for r in opamps}
+    lines += [".control", "op", "write dc.raw", "quit", ".endc", ".end"]
+    values = run_raw("\n".join(lines) + "\n", "dc.raw")
+
+    def v(k: int, net: str) -> float:
+        return 0.0 if net == gnd else float(values[f"v(k{k}_{net})".lower()][0])
+
     out = {}
     for net in nets:
-        vs = [values[f"v(k{k}_{net})".lower()] for k in range(len(cs))]
+        vs = [v(k, net) for k in range(len(cs))]
         out[net] = (min(vs), max(vs))
+    for r in opamps:
+        ro = design["parts"][design["components"][r]["part"]]["output_resistance"]
+        i = [(v(k, f"{r}_o") - v(k, outs[r])) / ro for k in range(len(cs))]
+        out[f"iout:{r}"] = (min(i), max(i))
     return out
 
 

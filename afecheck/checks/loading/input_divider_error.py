@@ -31,7 +31,7 @@ META = RuleMeta(
         "with lower input capacitance",
 )
 
-_SKIP = ("inverting", "summing", "difference", "transimpedance", "integrator")
+_SKIP = ("inverting", "summing", "difference", "transimpedance", "integrator", "charge-amplifier")
 
 
 def divider_response(rs: float, r_cm: float, c_in: float, f: float) -> complex:

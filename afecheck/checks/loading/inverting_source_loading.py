@@ -37,7 +37,7 @@ def check(ctx: Context) -> Iterator[Finding]:
     warn, err, variation = ctx.param("warn_fraction"), ctx.param("error_fraction"), ctx.param("variation")
     for stage in ctx.stages:
         wanted = intended_gain(ctx.loaded, stage.opamp)
-        if stage.topology == "transimpedance":
+        if stage.topology in ("transimpedance", "charge-amplifier"):
             continue  # the sensor drives the virtual ground directly: its resistance is a shunt, not a series part
         for inp in stage.inputs:
             if not (inp.pin == "in-" or stage.topology in _LOADED_TOPOLOGIES):

@@ -91,9 +91,19 @@ def second_pole(ctx: Context, stage: StageResult) -> Cause:
     f2, assumed = part_value(ctx, stage.opamp, "second_pole")
     ng = stage.noise_gain_at_crossover or stage.noise_gain_dc or 1.0
     text = f"noise gain {ng:.3g} at crossover is too low for the op-amp's second pole at {fmt(f2 or 0.0, 'Hz')}"
-    fix = (f"raise the noise gain (resistor between {stage.in_plus} and {stage.in_minus}, or more gain) or choose "
-           "a part that is stable at this noise gain")
+    means = _noise_gain_means(stage, "or more gain")
+    fix = f"raise the noise gain ({means}) or choose a part that is stable at this noise gain"
     return Cause("second-pole", f2 or math.inf, text, fix, (stage.opamp,), assumed)
+
+
+def _noise_gain_means(stage: StageResult, others: str) -> str:
+    """How to raise a stage's noise gain: a sensor stage (transimpedance, charge amplifier) by a smaller feedback
+    capacitor, its high-frequency noise gain being about 1 + C_sensor/C_f (common practice); others by a resistor
+    between the inputs or the listed means."""
+    if stage.topology in ("transimpedance", "charge-amplifier"):
+        return (f"smaller feedback capacitor from {stage.out} to {stage.in_minus}: the noise gain above the feedback "
+                "corner is about 1 + sensor capacitance / feedback capacitance")
+    return f"resistor between {stage.in_plus} and {stage.in_minus}, {others}"
 
 
 def below_minimum_gain(ctx: Context, stage: StageResult) -> Cause | None:
@@ -103,8 +113,8 @@ def below_minimum_gain(ctx: Context, stage: StageResult) -> Cause | None:
     if gmin is None or ng is None or ng >= gmin:
         return None
     text = f"noise gain {ng:.3g} at crossover is below the part's minimum stable gain {gmin:.3g}"
-    fix = (f"raise the noise gain above {gmin:.3g} (resistor between {stage.in_plus} and {stage.in_minus}, smaller "
-           "feedback capacitor, more gain) or choose a unity-gain-stable part")
+    means = _noise_gain_means(stage, "smaller feedback capacitor, more gain")
+    fix = f"raise the noise gain above {gmin:.3g} ({means}) or choose a unity-gain-stable part"
     return Cause("below-minimum-gain", 0.0, text, fix, (stage.opamp,), ())
 
 

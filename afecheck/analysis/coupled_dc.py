@@ -1,0 +1,91 @@
+"""DC ranges and output currents of a solve unit with its neighbouring stages in the circuit.
+
+The first pass (:func:`afecheck.analysis.signals.propagate`) solves each unit with its upstream stages as
+Thevenin sources and the downstream stages' inverting inputs as ideal virtual grounds. A real downstream
+inverting input sits at in+ + Vos − Vout/A0 (and its bias currents and input resistance act on the nets around
+it), so the current an output drives into the next stage's input resistor is off by Vos/R and Vout/(A0·R): over
+a percent in a cascade with a few hundred ohms between stages. Here each unit is solved again together with
+its downstream neighbours (op-amps whose inputs sit on its nets), each with its own macromodel and network,
+fed from the first pass's forms; the unit's own nets and output currents take the result. An upstream stage
+reaches the unit through its DC Thevenin equivalent (output form behind its closed-loop output resistance),
+which is already exact at DC. One level is included: a stage beyond it reaches the unit only through a
+neighbour's closed loop (below 1e-6 relative). A group too large to solve locally keeps the first pass.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Mapping
+from dataclasses import dataclass
+
+import numpy as np
+
+from afecheck.analysis.affine import SweptForm
+from afecheck.analysis.corners import Corners
+from afecheck.analysis.mna import assemble, check_connectivity
+from afecheck.analysis.ranges import solve_forms
+from afecheck.analysis.results import StageResult
+from afecheck.analysis.stage_analysis import MAX_LOCAL_PARTS, _node, _unit_netlist, _unit_sources
+from afecheck.errors import AnalysisError, InputError
+from afecheck.graph.build import Circuit
+from afecheck.graph.stages import Stage, StagePlan
+
+
+@dataclass(frozen=True)
+class CoupledDc:
+    """A unit's DC values solved with its neighbours: each of its nets' form and (lowest, highest), and each of
+    its op-amps' output current form."""
+
+    nets: Mapping[str, tuple[SweptForm, float, float]]
+    currents: Mapping[str, SweptForm]
+
+
+def solve_with_neighbours(circuit: Circuit, plan: StagePlan, unit: tuple[str, ...],
+                          results: Mapping[str, StageResult], forms: Mapping[str, SweptForm], corners: Corners,
+                          cache: dict | None = None) -> CoupledDc | None:
+    """The unit's DC forms with its closed-loop neighbours in the circuit; None when it has none (the first pass
+    is then already the whole answer) or when the coupled circuit cannot be built or solved."""
+    if any(results.get(r) is None or results[r].vout_min is None for r in unit):
+        return None
+    stages = [plan.stages[r] for r in unit]
+    near = [r for r in downstream(circuit, unit, stages)
+            if r in results and results[r].vout_min is not None and results[r].feedback == "negative"]
+    if not near:
+        return None
+    group = stages + [plan.stages[r] for r in near]
+    passives = frozenset().union(*(frozenset(s.refs) for s in group))
+    held = set().union(*(s.output_region.boundary for s in group))
+    if len(passives) + len(held) + len(group) > MAX_LOCAL_PARTS:
+        return None
+    try:
+        netlist, _inputs, notes, sources, ntcs = _unit_netlist(circuit, group, results, corners, forms, cache)
+        if notes:
+            return None
+        check_connectivity(netlist, dc=True)
+        system = assemble(netlist)
+        source_forms, varying, grid = _unit_sources(circuit, netlist, system, corners, sources, ntcs)
+        dc = solve_forms(system, source_forms, varying, grid)
+    except (InputError, AnalysisError, np.linalg.LinAlgError, ValueError, ArithmeticError):
+        return None
+    own = sorted(set().union(*(set(s.nets) for s in stages)) - set(circuit.fixed))
+    rows = {net: system.index[_node(circuit, net)] for net in own if _node(circuit, net) in system.index}
+    branches = {r: system.branch_index(netlist.opamps[r].loop_element) for r in unit}
+    wanted = np.array(sorted(set(rows.values()) | set(branches.values())), dtype=int)
+    lo, hi = dc.bounds(wanted)
+    nets = {net: (dc.form(i), float(lo[i]), float(hi[i])) for net, i in rows.items()}
+    return CoupledDc(nets, {r: dc.form(b, -1.0) for r, b in branches.items()})
+
+
+def downstream(circuit: Circuit, unit: tuple[str, ...], stages: list[Stage]) -> list[str]:
+    """Op-amps outside the unit whose inputs sit on the unit's nets (not on a fixed or declared-signal net).
+
+    Only these change the unit's DC values: an upstream stage drives the unit through its DC Thevenin
+    equivalent (its output form behind its closed-loop output resistance), which is exact at DC."""
+    near: dict[str, None] = {}
+    for s in stages:
+        for net in sorted(s.nets):
+            if net in circuit.fixed or net in circuit.signal_nets:
+                continue
+            for ref, pin in circuit.net_pins.get(net, ()):
+                if pin in ("in+", "in-") and circuit.kinds[ref] == "opamp" and ref not in unit:
+                    near.setdefault(ref, None)
+    return list(near)
