@@ -119,7 +119,7 @@ CONSUMERS: dict[str, str | None] = {
     "budgets": "dc-accuracy.bias-offset", "budgets.*.offset": "dc-accuracy.bias-offset",
     "budgets.*.gain_accuracy": "budgets.gain-error", "budgets.*.drift": "budgets.drift",
     "operating_temperature": "analysis.noise",
-    "budgets.*.noise": "budgets.noise",
+    "budgets.*.noise": "budgets.noise", "budgets.*.nonlinearity": "budgets.nonlinearity",
 }
 
 
