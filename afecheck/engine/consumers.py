@@ -116,7 +116,7 @@ CONSUMERS: dict[str, str | None] = {
     "loads.*.adc.bits": "distortion.common-mode-error", "loads.*.adc.sample_rate": "analysis.adc_drive",
     "loads.*.adc.bipolar": "analysis.adc_drive", "loads.*.adc.acquisition_time": "analysis.adc_drive",
     "loads.*.adc.input_capacitance": "analysis.adc_drive",
-    "budgets": "dc-accuracy.bias-offset", "budgets.*.offset": "dc-accuracy.bias-offset",
+    "budgets": "analysis.worksheet", "budgets.*.offset": "budgets.offset",
     "budgets.*.gain_accuracy": "budgets.gain-error", "budgets.*.drift": "budgets.drift",
     "operating_temperature": "analysis.noise",
     "budgets.*.noise": "budgets.noise", "budgets.*.nonlinearity": "budgets.nonlinearity",
