@@ -122,3 +122,12 @@ budgets: {OUT: {noise: 10 uV, offset: 5 mV}}
     assert [f.ctx["value"] for f in findings if f.rule == "limits.supply-range"] == [12.0]
     path.write_text(design.replace("noise: 10 uV, ", "").replace(", supply_max: 5.5 V", ""), encoding="utf-8")
     assert [f for f in check_file(path).findings if f.rule == "coverage.declared-not-checked"] == []
+
+
+@pytest.mark.parametrize("path", [p for p in PATHS if p.startswith(("budgets", "loads.*.adc", "parts."))])
+def test_budgets_adc_and_part_limits_have_a_checking_consumer_with_no_exemption(path: str) -> None:
+    # issue 12, done when: every field under budgets, loads.*.adc and the part models is read by an analysis or a
+    # rule (no UNCHECKED, no "data for a budget not checked yet"); descriptions are text for people
+    who = consumer(path)
+    assert who not in (UNCHECKED, BUDGET_DATA), f"{path}: {who}"
+    assert who != TEXT or path.endswith("description")

@@ -162,20 +162,39 @@ def test_many_generated_channels_agree_with_ngspice(tmp_path, seed):
     _compare_with_ngspice(load_design(path), out)
 
 
+@needs_ngspice
+@pytest.mark.ngspice
+@pytest.mark.parametrize("seed", range(3))
+def test_one_over_f_corners_agree_with_ngspice(tmp_path, seed):
+    # 1/f checked against ngspice itself (not only the closed form above): each op-amp noise source in the deck is a
+    # resistor's flicker noise, K·I/f with K = 4kT·fc (tests/tools/noise_deck.py), so ngspice integrates
+    # en²·(1 + fce/f) and in²·(1 + fci/f) through the circuit on its own
+    import dataclasses
+
+    path, out = write_channel(tmp_path, seed, white=False)
+    loaded = load_design(path)
+    flat = dataclasses.replace(loaded, parts={n: m.model_copy(update={"voltage_noise_corner": 0.0,
+                                                                      "current_noise_corner": 0.0})
+                                              for n, m in loaded.parts.items()})
+    # the corners matter here (the comparison below could not pass with them ignored)
+    pink, white = (analyse_noise(x, [out]).nets[out].output_density[0] for x in (loaded, flat))
+    assert pink > 1.02 * white
+    _compare_with_ngspice(loaded, out)
+
+
+@needs_ngspice
+@pytest.mark.ngspice
+@pytest.mark.slow
+@pytest.mark.parametrize("seed", range(3, 40))
+def test_many_one_over_f_channels_agree_with_ngspice(tmp_path, seed):
+    path, out = write_channel(tmp_path, seed, white=False)
+    _compare_with_ngspice(load_design(path), out)
+
+
 def test_budget_yaml_round_trip(tmp_path):
     path, out = write_channel(tmp_path, 3)
     data = yaml.safe_load(path.read_text())
     assert data["budgets"][out]["noise"] == 1e-3
-
-
-def _white(loaded):
-    """The design with every part's 1/f corners at zero: the ngspice deck builds white op-amp noise only (the 1/f
-    part is checked against its closed form above)."""
-    import dataclasses
-
-    parts = {name: m.model_copy(update={"voltage_noise_corner": 0.0, "current_noise_corner": 0.0})
-             for name, m in loaded.parts.items()}
-    return dataclasses.replace(loaded, parts=parts)
 
 
 SAMPLES = ["daq_front_end.yaml", "cold_store_logger.yaml", "hydrophone_preamp.yaml", "soil_probe_reader.yaml"]
@@ -188,7 +207,7 @@ def test_every_sample_design_agrees_with_ngspice(sample):
     from afecheck.analysis import analyse
     from afecheck.analysis.worksheet import worksheet_nets
 
-    loaded = _white(load_design(f"sample_designs/{sample}"))
+    loaded = load_design(f"sample_designs/{sample}")  # 1/f corners and all
     nets = [n for n in worksheet_nets(loaded, analyse(loaded)) if n in analyse_noise(loaded, [n]).nets]
     assert nets
     for net in nets:

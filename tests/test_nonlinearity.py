@@ -130,3 +130,26 @@ def test_thermocouple_outputs_follow_the_published_table(tmp_path):
     table_worst = _end_point_worst([100.0 * i for i in range(9)], [gain * mv / 1000 for mv in table])
     assert abs(nl.worst) >= abs(table_worst) - gain * 2e-6
     assert math.copysign(1, nl.worst) == math.copysign(1, table_worst)
+
+
+# just either side of each limit, beyond the print precision within which a value counts as meeting its limit
+@pytest.mark.parametrize(("budget_over_value", "expected"), [
+    (1 / 0.8 * (1 + 1e-2), None), (1 / 0.8 * (1 - 1e-2), "warning"), (1 + 1e-2, "warning"), (1 - 1e-2, "error")])
+def test_nonlinearity_rule_grades_at_its_boundaries(tmp_path, budget_over_value, expected):
+    from afecheck.api import check_file
+
+    bad = open("rules/budgets/nonlinearity/bad.yaml", encoding="utf-8").read()
+    fraction = analyse_dc_error(_write(tmp_path, bad), ["OUT"]).nets["OUT"].nonlinearity.fraction
+    path = tmp_path / "b.yaml"
+    path.write_text(bad.replace("nonlinearity: 1%", f"nonlinearity: {fraction * budget_over_value!r}"),
+                    encoding="utf-8")
+    found = [f for f in check_file(path).findings if f.rule == "budgets.nonlinearity"]
+    assert [f.severity.name.lower() for f in found] == ([] if expected is None else [expected])
+    if found:
+        assert found[0].ctx["value"] == fraction and found[0].location.refs == ("NTC1",)
+
+
+def _write(tmp_path, text: str):
+    path = tmp_path / "a.yaml"
+    path.write_text(text, encoding="utf-8")
+    return load_design(path)

@@ -52,6 +52,9 @@ def _check_whole_chain(finding, analysis, loaded) -> None:
     net = finding.location.nets[0] if finding.location.nets else None
     if rule == "budgets.noise":
         assert c["value"] == analyse_noise(loaded, [net]).nets[net].output_rms
+    elif rule == "budgets.nonlinearity":
+        nl = analyse_dc_error(loaded, [net]).nets[net].nonlinearity
+        assert (c["value"], c["deviation"], c["span"]) == (nl.fraction, nl.worst, nl.span)
     elif rule.startswith("budgets."):
         e = analyse_dc_error(loaded, [net]).nets[net]
         field = {"budgets.offset": "offset_worst", "budgets.gain-error": "gain_error_worst",
@@ -145,6 +148,7 @@ def test_every_printed_number_equals_its_analysis_quantity() -> None:
         "stability.min-stable-gain", "stability.gain-margin", "stability.feedback-sense", "headroom.input-common-mode",
         "headroom.output-swing", "headroom.output-current", "distortion.near-swing-limit",
         "distortion.input-pair-transition", "distortion.loop-gain-at-fmax", "distortion.slew-rate",
-        "budgets.noise", "budgets.offset", "budgets.gain-error", "budgets.drift", "adc.range", "adc.anti-alias",
+        "budgets.noise", "budgets.offset", "budgets.gain-error", "budgets.drift", "budgets.nonlinearity",
+        "adc.range", "adc.anti-alias",
         "adc.settling", "adc.kick-back", "limits.supply-range", "limits.input-current",
         "limits.capacitive-load"}, checked

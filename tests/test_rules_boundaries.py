@@ -66,11 +66,7 @@ def test_grade_helpers_at_their_exact_limits() -> None:
 
 
 def _share_103(f, loaded, analysis) -> float:
-    stage = {s.opamp: s for s in analysis.stages}[f.location.refs[-1]]
-    budget = loaded.design.budgets.get(stage.out)
-    if budget is not None and budget.offset:
-        return f.ctx["value"] / budget.offset
-    return f.ctx["value"] / ((stage.vout_max or 0.0) - (stage.vout_min or 0.0) + 2.0 * stage.vout_ac_peak)
+    return f.ctx["value"] / f.ctx["own_offset"]
 
 
 def _share_303(f, loaded, analysis) -> float:
@@ -110,8 +106,7 @@ def test_bias_offset_share_limits_exactly() -> None:
     loaded, analysis = _bad("dc-accuracy.bias-offset")
     (f,) = _run(bias_current_offset, loaded, analysis)
     share = _share_103(f, loaded, analysis)
-    budget = "budget" in f.ctx["limit_source"]
-    warn, err = ("budget_warn", "budget_error") if budget else ("warn_fraction", "error_fraction")
+    warn, err = "own_offset_warn", "own_offset_error"
     sev = lambda p: sorted({x.severity for x in _run(bias_current_offset, loaded, analysis, p)})  # noqa: E731
     assert sev({warn: share, err: 1e300}) == []
     assert sev({warn: past(share, DOWN), err: 1e300}) == [W]

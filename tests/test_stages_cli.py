@@ -109,3 +109,24 @@ def test_stages_prints_the_budgets_worksheet_and_its_json_carries_every_contribu
     assert abs(sum(c["share"] for c in noise["contributors"]) - 1) < 1e-9
     terms = {t["name"] for t in ws["dc_error"]["nets"]["OUT"]["terms"]}
     assert {"U1 offset voltage", "R1 tolerance", "U1 finite open-loop gain"} <= terms
+
+
+def test_stages_shows_nonlinearity_and_its_json_carries_the_swept_points():
+    import io
+    import json
+
+    from afecheck.cli import main
+
+    path = "rules/budgets/nonlinearity/bad.yaml"
+    out = io.StringIO()
+    assert main(["stages", path], stdout=out, stderr=io.StringIO()) == 0
+    text = out.getvalue()
+    # the DC error's three parts, each with its budget where declared
+    assert "    offset  " in text and "    gain    " in text
+    assert "nonlin  11.2 % of the 2.00 V span (end-point)" in text and "budget 1 % (1125 %)" in text
+    assert "swept: NTC1 -20 to 80 °C" in text
+    out = io.StringIO()
+    assert main(["stages", "--json", path], stdout=out, stderr=io.StringIO()) == 0
+    nl = json.loads(out.getvalue())["worksheet"]["dc_error"]["nets"]["OUT"]["nonlinearity"]
+    assert len(nl["points"]) == len(nl["outputs"]) == len(nl["deviations"]) >= 17
+    assert nl["refs"] == ["NTC1"] and max(map(abs, nl["deviations"])) == abs(nl["worst"])

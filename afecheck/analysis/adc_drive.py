@@ -24,6 +24,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from afecheck.analysis.channel import Channel, channel_key, channel_netlist, find_channels
+from afecheck.analysis.measurands import swept_refs
 from afecheck.analysis.mna import solve_ac
 from afecheck.analysis.netlist import CurrentSource, Netlist
 from afecheck.analysis.results import DesignAnalysis
@@ -33,6 +34,7 @@ from afecheck.model.loaded import LoadedDesign
 IDEAL_SNR_OFFSET_DB = 1.76
 DB_PER_BIT = 6.02
 PASSBAND_FRACTION_OF_FS = 1e-3  # a DC signal's passband is read this far below fs (essentially DC)
+ATTENUATION_DIGITS = 6  # decimal places of dB kept
 ACQUISITION_FRACTION = 0.5  # of the sample period, when the converter declares no acquisition time
 
 
@@ -102,13 +104,11 @@ def _attenuation(loaded: LoadedDesign, channel: Channel, net: str, f_pass: float
     names = {e.name for e in netlist.elements}
     entries: list[tuple[Netlist, str]] = [(netlist, br) for _, br in channel.signal_branches if br in names]
     if not entries:
-        d = loaded.design
-        for ref in channel.refs:
-            if d.components[ref].kind == "ntc":
-                e = netlist.element(ref)
-                entries.append((netlist.with_elements(CurrentSource("#inject", e.a, e.b, ac=1.0)), "#inject"))
+        for ref in swept_refs(loaded, channel.refs):
+            e = netlist.element(ref)
+            entries.append((netlist.with_elements(CurrentSource("#inject", e.a, e.b, ac=1.0)), "#inject"))
     if not entries:
-        return None, "no declared signal or thermistor drives the channel"
+        return None, "no declared signal or sensor drives the channel"
     node = "0" if net == loaded.design.ground else net
     best = None
     for nl, src in entries:
@@ -121,7 +121,9 @@ def _attenuation(loaded: LoadedDesign, channel: Channel, net: str, f_pass: float
         return None, "the declared signal does not reach the net"
     if best[1] <= 0:
         return math.inf, None
-    return float(20 * math.log10(best[0] / best[1])), None
+    # to a micro-decibel: below that the figure is the solver's rounding (two nearly equal gains of an unfiltered
+    # channel), which differs with the order the same circuit's elements are written in
+    return round(float(20 * math.log10(best[0] / best[1])), ATTENUATION_DIGITS), None
 
 
 def _rc(loaded: LoadedDesign, net: str, outputs: Mapping[str | None, str]) -> tuple[str | None, float, float,

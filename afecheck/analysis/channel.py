@@ -12,6 +12,7 @@ from collections.abc import Callable, Iterable, Mapping
 from dataclasses import dataclass
 from typing import Any, TypeVar
 
+from afecheck.analysis.measurands import value_key
 from afecheck.analysis.netlist import Netlist, NetlistOptions, netlist_from_design
 from afecheck.model.loaded import LoadedDesign
 
@@ -92,9 +93,6 @@ def channel_netlist(loaded: LoadedDesign, channel: Channel, include_offsets: boo
     return netlist_from_design(loaded, channel.refs, NetlistOptions(include_offsets=include_offsets))
 
 
-_KEY_FIELDS = ("value", "r25", "beta", "temperature", "part", "dc", "ac_amplitude", "band", "source_resistance")
-
-
 def channel_key(loaded: LoadedDesign, channel: Channel, *nets: str) -> tuple:
     """The channel with its names replaced by first-seen numbers (fixed nets keep their names): equal keys mean
     the same circuit with the same values, so small-signal results computed for one serve every repeat of it."""
@@ -108,9 +106,7 @@ def channel_key(loaded: LoadedDesign, channel: Channel, *nets: str) -> tuple:
     key: list[object] = [tuple(num(n) for n in nets)]
     for ref in channel.refs:
         comp = d.components[ref]
-        fields = comp.__dict__
-        key.append((comp.kind, tuple(fields.get(f) for f in _KEY_FIELDS),
-                    tuple((p, num(n)) for p, n in comp.pins.items())))
+        key.append((comp.kind, value_key(comp), tuple((p, num(n)) for p, n in comp.pins.items())))
     for net in channel.nets:
         if net in d.signals or net in d.loads:
             key.append((num(net), d.signals.get(net), d.loads.get(net)))

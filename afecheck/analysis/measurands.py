@@ -87,7 +87,7 @@ def own_tolerance(comp: Any) -> float | None:
     return worst
 
 
-def noise_temperature_k(comp: Any, default_k: float) -> float:
+def sensor_noise_kelvin(comp: Any, default_k: float) -> float:
     """Kelvin at which a part's thermal noise is taken: a thermometer (NTC, RTD) at the middle of its own range, any
     other part (a bridge arm, a resistor) at ``default_k``."""
     if comp is not None and comp.kind in ("ntc", "rtd"):

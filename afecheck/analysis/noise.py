@@ -13,8 +13,9 @@ apart, segment by segment as power laws (exact where the transfer is flat). Inpu
 the gain from the channel's declared signal to the net.
 
 Temperature: resistors at the top of the design's declared operating range (thermal noise grows with T, so
-that is the worst case), else 25 °C (298.15 K), the temperature part data are stated at; a thermistor at the
-temperature its resistance is taken at (the middle of its own declared range).
+that is the worst case), else 25 °C (298.15 K), the temperature part data are stated at; a thermometer (NTC, RTD)
+at the temperature its resistance is taken at, the middle of its own declared range (a bridge arm, at ambient, as
+any resistor; :mod:`afecheck.analysis.measurands`). A thermocouple is its loop resistance's thermal noise.
 """
 
 from __future__ import annotations
@@ -26,6 +27,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from afecheck.analysis.channel import Channel, channel_netlist, per_channel
+from afecheck.analysis.measurands import sensor_noise_kelvin
 from afecheck.analysis.mna import check_connectivity, system_of
 from afecheck.analysis.netlist import GROUND, ZERO_C_K, OpAmpCore, Resistor
 from afecheck.errors import AnalysisError, InputError, SingularCircuitError
@@ -151,8 +153,8 @@ def _sources(loaded: LoadedDesign, netlist, temperature_k: float) -> tuple[list[
             t_k = temperature_k
             ref = e.name.split("#")[0]
             comp = d.components.get(ref)
-            if comp is not None and comp.kind == "ntc" and e.name == ref:
-                t_k = 0.5 * (comp.temperature[0] + comp.temperature[1]) + ZERO_C_K
+            if e.name == ref:
+                t_k = sensor_noise_kelvin(comp, temperature_k)
             refs = (ref,) if ref in d.components else ()
             label = e.name if e.name == ref else f"{ref} {_ROLE.get(e.name.split('#', 1)[1], 'resistance')}"
             out.append(NoiseSource(f"{label} thermal", "resistor", refs, 4 * BOLTZMANN * t_k / e.value, 0.0,

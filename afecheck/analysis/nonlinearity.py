@@ -39,6 +39,8 @@ class Nonlinearity:
     the worst deviation (signed, V) and where, the output span, and the worst as a fraction of that span."""
 
     over: str
+    refs: tuple[str, ...]
+    """the parts that move (sensors; a bridge by its own refdes; signal sources)"""
     points: tuple[float, ...]
     outputs: tuple[float, ...]
     deviations: tuple[float, ...]
@@ -49,8 +51,9 @@ class Nonlinearity:
     """|worst| / |span|; None when the output does not move across the range"""
 
 
-def _over(loaded: LoadedDesign, channel: Channel) -> str:
-    """What moves across its range, in words: ``RT1 -40 °C to 85 °C; IN over its declared range``."""
+def _over(loaded: LoadedDesign, channel: Channel) -> tuple[str, tuple[str, ...]]:
+    """What moves across its range, in words (``RT1 -40 °C to 85 °C; IN over its declared range``), and the parts
+    among them."""
     d = loaded.design
     said: dict[str, str] = {}
     for ref in swept_refs(loaded, channel.refs):
@@ -64,7 +67,8 @@ def _over(loaded: LoadedDesign, channel: Channel) -> str:
         said[ref] = f"{ref} hot junction {float(s.hot[0]):g} to {float(s.hot[1]):g} °C"
     for name, _ in channel.signal_branches:
         said.setdefault(name, f"{name} over its declared range")
-    return "; ".join(said.values())
+    parts = tuple(k for k in said if k in d.components or k in loaded.sensors)
+    return "; ".join(said.values()), parts
 
 
 def _solve(loaded: LoadedDesign, channel: Channel, point: float, nodes: Sequence[str]) -> list[float]:
@@ -78,7 +82,7 @@ def channel_nonlinearity(loaded: LoadedDesign, channel: Channel, nets: Sequence[
     nodes = [GROUND if n == gnd else n for n in nets]
     grid = [k / (POINTS - 1) for k in range(POINTS)]
     values = [_solve(loaded, channel, p, nodes) for p in grid]
-    over = _over(loaded, channel)
+    over, refs = _over(loaded, channel)
     out: dict[str, Nonlinearity] = {}
     for j, net in enumerate(nets):
         pts = list(grid)
@@ -97,7 +101,7 @@ def channel_nonlinearity(loaded: LoadedDesign, channel: Channel, nets: Sequence[
         span = vs[-1] - vs[0]
         scale = max(abs(v) for v in vs) or 1.0
         out[net] = Nonlinearity(
-            over=over, points=tuple(pts), outputs=tuple(vs), deviations=tuple(dev), worst=dev[k], at=pts[k],
+            over=over, refs=refs, points=tuple(pts), outputs=tuple(vs), deviations=tuple(dev), worst=dev[k], at=pts[k],
             span=span, fraction=abs(dev[k]) / abs(span) if abs(span) > 1e-12 * scale else None)
     return out
 

@@ -432,12 +432,15 @@ class Load(_Strict):
 
 class Budget(_Strict):
     """Error budget at a net, output-referred: gain error (fraction), offset (V), noise (V rms over the signal band),
-    drift (V of output change over the declared operating temperature range)."""
+    drift (V of output change over the declared operating temperature range), nonlinearity (fraction of span)."""
 
     gain_accuracy: Tolerance | None = None
     offset: Volt | None = Field(default=None, gt=0)
     noise: Volt | None = Field(default=None, gt=0)
     drift: Volt | None = Field(default=None, gt=0)
+    nonlinearity: Tolerance | None = Field(
+        default=None, description="end-point nonlinearity over the measurand or input range, a fraction of the "
+                                  "output span")
 
 
 Hazard = Literal["mains", "high-voltage", "patient-connected", "hazardous-area"]

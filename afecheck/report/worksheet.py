@@ -31,7 +31,8 @@ def _largest(t: Any) -> str:
 
 
 def render_worksheet(ws: Any) -> str:
-    """One block per net: noise (output and input-referred RMS over the band), offset, gain error, drift."""
+    """One block per net: noise (output and input-referred RMS over the band), offset, gain error, nonlinearity,
+    drift."""
     lines = ["", "Budgets worksheet (worst case = linear sum of terms, statistical = root-sum-square):"]
     for net in ws.nets:
         budget = ws.budgets.get(net) or {}
@@ -58,6 +59,13 @@ def render_worksheet(ws: Any) -> str:
                              + _against(e.gain_error_worst, budget.get("gain_accuracy"), _pct))
                 lines.append("            top: " + _top(sorted(counted, key=lambda t: -abs(t.gain_error or 0.0)),
                                                       lambda t: f"{t.name} {_pct(abs(t.gain_error or 0.0))}"))
+            nl = e.nonlinearity
+            if nl is not None and nl.fraction is not None:
+                where = (f"{_v(nl.worst)} off the line at {100 * nl.at:.0f} % of the range" if nl.worst
+                         else "a straight line")
+                lines.append(f"    nonlin  {_pct(nl.fraction)} of the {_v(abs(nl.span))} span (end-point): {where}"
+                             + _against(nl.fraction, budget.get("nonlinearity"), _pct))
+                lines.append(f"            swept: {nl.over}")
             if e.temperature_range is not None:
                 lo, hi = e.temperature_range
                 lines.append(f"    drift   {_v(e.drift_worst)} worst, {_v(e.drift_rss)} RSS over {lo:g}..{hi:g} °C"

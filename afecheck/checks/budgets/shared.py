@@ -30,11 +30,11 @@ def noise_of_budgets(ctx: Context) -> NoiseResult:
 
 
 def dc_error_of_budgets(ctx: Context) -> DcErrorResult:
-    """DC error and drift at every net with an offset, gain-accuracy or drift budget."""
+    """DC error, nonlinearity and drift at every net with an offset, gain-accuracy, drift or nonlinearity budget."""
     from afecheck.analysis.dc_error import analyse_dc_error
 
     return ctx.memo("dc-error-budgets", lambda: analyse_dc_error(
-        ctx.loaded, budget_nets(ctx, "offset", "gain_accuracy", "drift")))
+        ctx.loaded, budget_nets(ctx, "offset", "gain_accuracy", "drift", "nonlinearity")))
 
 
 def top_shares(items: Iterable[Any], count: int = 3) -> str:

@@ -1,8 +1,9 @@
 """Input bias current through the source resistance of a non-inverting input offsets the output.
 
-A DC-accuracy rule (family ``dc-accuracy``): with an offset budget declared on the output it is judged against the
-budget; without one, against the part's own offset error at the output, NG·Vos, because a bias term smaller than
-the offset the part brings anyway is no design mistake.
+A DC-accuracy rule (family ``dc-accuracy``) about the choice of part and resistances, judged against the part's own
+offset error at the output, NG·Vos: a bias term smaller than the offset the part brings anyway is no design
+mistake, one many times larger is. It never reads ``budgets``: the whole channel's offset against a declared
+budget (this bias term among every other) is ``budgets.offset``'s question.
 """
 
 from __future__ import annotations
@@ -10,7 +11,7 @@ from __future__ import annotations
 import math
 from collections.abc import Iterator
 
-from afecheck.checks.common import attached, fmt, grade_above, part_value, pct, resistance_at
+from afecheck.checks.common import attached, fmt, grade_above, part_value, resistance_at
 from afecheck.checks.common import finding as make_finding
 from afecheck.checks.loading.sources import ac_coupled, plus_source_resistance
 from afecheck.engine.context import Context
@@ -21,12 +22,10 @@ META = RuleMeta(
     id="dc-accuracy.bias-offset", slug="bias-current-offsets-output", severity=Severity.ERROR, family="dc-accuracy",
     summary="input bias current through the source resistance offsets a non-inverting stage's output",
     params=(
-        Param("budget_warn", 0.25, "1", "share of the declared offset budget above which a warning is raised"),
-        Param("budget_error", 1.0, "1", "share of the declared offset budget above which an error is raised"),
         Param("own_offset_warn", 1.0, "1",
-              "bias offset / the part's own offset error NG·Vos above which a warning is raised (no budget)"),
+              "bias offset / the part's own offset error NG·Vos above which a warning is raised"),
         Param("own_offset_error", 10.0, "1",
-              "bias offset / the part's own offset error NG·Vos above which an error is raised (no budget)"),
+              "bias offset / the part's own offset error NG·Vos above which an error is raised"),
     ),
     fix="choose a low-bias-current (CMOS or JFET input) part, lower the source resistance, or (plain bipolar inputs "
         "only) match the in- resistance Rf||Rg to the source resistance",
@@ -41,8 +40,7 @@ def bias_offset(ng: float, ib: float, ios: float, r_plus: float, r_minus: float)
 
 
 def check(ctx: Context) -> Iterator[Finding]:
-    """Output offset NG·Ib·Rs (with the in- side's cancelling term) against the offset budget, else the part's own
-    offset error."""
+    """Output offset NG·Ib·Rs (with the in- side's cancelling term) against the part's own offset error NG·Vos."""
     for stage in ctx.stages:
         if stage.topology not in ("follower", "non-inverting") or stage.noise_gain_dc is None:
             continue
@@ -59,27 +57,17 @@ def check(ctx: Context) -> Iterator[Finding]:
             has_rg = bool(attached(ctx.loaded, stage.in_minus, "resistor"))
             r_minus = resistance_at(ctx.loaded, stage.in_minus) if has_rg else 0.0
             offset = bias_offset(stage.noise_gain_dc, ib, ios, r_plus, r_minus)
-            budget = ctx.loaded.design.budgets.get(stage.out)
-            if budget is not None and budget.offset:
-                share = offset / budget.offset
-                severity = grade_above(share, ctx.param("budget_warn"), ctx.param("budget_error"))
-                limit_share = ctx.param("budget_error" if severity == Severity.ERROR else "budget_warn")
-                limit = limit_share * budget.offset
-                against = f"{pct(limit_share)} of the {fmt(budget.offset, 'V')} offset budget"
-                source = f"budgets.{stage.out}.offset × rule parameter"
-            else:
-                vos, a3 = part_value(ctx, stage.opamp, "offset_voltage")
-                if not vos:
-                    continue
-                own = stage.noise_gain_dc * abs(vos)
-                a1 = a1 + a3
-                share = offset / own
-                severity = grade_above(share, ctx.param("own_offset_warn"), ctx.param("own_offset_error"))
-                limit_share = ctx.param("own_offset_error" if severity == Severity.ERROR else "own_offset_warn")
-                limit = limit_share * own
-                against = (f"{limit_share:g} × the part's own offset error {fmt(own, 'V')} = NG × "
-                           f"{fmt(abs(vos), 'V')}; no offset budget declared on {stage.out}")
-                source = f"part {stage.part} offset_voltage × noise gain × rule parameter (common practice)"
+            vos, a3 = part_value(ctx, stage.opamp, "offset_voltage")
+            if not vos:
+                continue
+            own = stage.noise_gain_dc * abs(vos)
+            a1 = a1 + a3
+            share = offset / own
+            severity = grade_above(share, ctx.param("own_offset_warn"), ctx.param("own_offset_error"))
+            limit_share = ctx.param("own_offset_error" if severity == Severity.ERROR else "own_offset_warn")
+            limit = limit_share * own
+            against = f"{limit_share:g} × the part's own offset error {fmt(own, 'V')} = NG × {fmt(abs(vos), 'V')}"
+            source = f"part {stage.part} offset_voltage × noise gain × rule parameter (common practice)"
             if severity is None:
                 continue
             text = (f"{stage.opamp}: bias current {fmt(ib, 'A')} through {fmt(r_plus, 'Ω')} at in+ "
@@ -90,5 +78,5 @@ def check(ctx: Context) -> Iterator[Finding]:
                 message=text, fix=META.fix, refs=(*inp.via[:1], stage.opamp), nets=(inp.source.net, stage.out),
                 assumed=a1 + a2,
                 extra={"bias_current": ib, "offset_current": ios, "r_plus": r_plus, "r_minus": r_minus,
-                       "noise_gain": stage.noise_gain_dc},
+                       "noise_gain": stage.noise_gain_dc, "own_offset": own},
             )
