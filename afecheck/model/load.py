@@ -8,11 +8,13 @@ from __future__ import annotations
 
 import difflib
 from collections.abc import Callable
+from functools import partial
 from pathlib import Path
 
 from afecheck.errors import InputError, Problem
 from afecheck.model.loaded import LoadedDesign, PathKey, path_text
 from afecheck.model.paths import PathRefusedError, referenced_file
+from afecheck.model.positions import Positions
 from afecheck.model.reader import Document, read_file
 from afecheck.model.schema import PIN_NAMES, Design, Intent
 from afecheck.model.validate import validate
@@ -46,10 +48,11 @@ def load_design(
     groups = _library_groups(design, doc, libraries, problems)
     if problems:
         raise InputError(problems)
-    inline = [PartEntry(name, model, doc.file, *doc.keys.get(("parts", name), (None, None)))
+    kept = doc.positions_only()  # what the loaded design keeps: the data read is freed once validated
+    inline = [PartEntry(name, model, doc.file, place=partial(_key_place, kept, ("parts", name)))
               for name, model in design.parts.items()]
     parts = combine(groups, inline)
-    positions = _positions(doc)
+    positions = Positions(kept)
     design = _merge_intent(design, doc, intents, positions, problems, doc.defaults)
     if problems:
         raise InputError(problems)
@@ -64,8 +67,8 @@ def load_design(
     declared = {ref: c for ref, c in design.components.items() if c.kind in ("thermocouple", "bridge")}
     design = expand_sensors(design)
     for ref, comp in design.components.items():
-        if comp.kind == "bridge_arm" and ("components", comp.bridge) in positions:
-            positions[("components", ref)] = positions[("components", comp.bridge)]
+        if comp.kind == "bridge_arm":
+            positions.same_as(("components", ref), ("components", comp.bridge))
     return LoadedDesign(
         design=design,
         sensors=declared,
@@ -73,6 +76,7 @@ def load_design(
         parts=parts.models,
         positions=positions,
         part_origins=parts.origins,
+        shipped_parts=parts.shipped,
         intent_files=tuple(d.file for d, _ in intents),
         notes=doc.notes,
     )
@@ -158,14 +162,12 @@ def _read_intent(path: Path) -> tuple[Document, Intent]:
     return doc, validate(doc, Intent)
 
 
-def _positions(doc: Document) -> dict[PathKey, tuple[str, int, int]]:
-    """Every key path of ``doc`` -> (file, line, column); list items by the position of the item."""
-    positions = {p: (doc.file_of(p), line, column) for p, (line, column) in doc.values.items() if p}
-    positions.update({p: (doc.file_of(p), line, column) for p, (line, column) in doc.keys.items()})
-    return positions
+def _key_place(doc: Document, path: PathKey) -> tuple[int | None, int | None]:
+    """(line, column) of the key at ``path`` in ``doc``, or (None, None)."""
+    return doc.keys.get(path, (None, None))
 
 
-def _nearest(positions: dict[PathKey, tuple[str, int, int]], key: PathKey, file: str) -> tuple[str, int | None,
+def _nearest(positions: Positions, key: PathKey, file: str) -> tuple[str, int | None,
                                                                                                  int | None]:
     while key:
         key = key[:-1]
@@ -178,7 +180,7 @@ def _merge_intent(
     design: Design,
     doc: Document,
     intents: list[tuple[Document, Intent]],
-    positions: dict[PathKey, tuple[str, int, int]],
+    positions: Positions,
     problems: list[Problem],
     defaults: frozenset[PathKey] = frozenset(),
 ) -> Design:
@@ -188,18 +190,13 @@ def _merge_intent(
         return design
     merged = {section: dict(getattr(design, section)) for section in INTENT_SECTIONS}
     for idoc, intent in intents:
-        by_entry: dict[PathKey, dict[PathKey, tuple[str, int, int]]] = {}
-        for table in (idoc.values, idoc.keys):
-            for p, (line, column) in table.items():
-                if len(p) >= 2:
-                    by_entry.setdefault(p[:2], {})[p] = (idoc.file, line, column)
+        kept = idoc.positions_only()
         for section in INTENT_SECTIONS:
             for net, entry in getattr(intent, section).items():
                 if net in merged[section] and (section, net) in defaults:
                     given = {k: getattr(entry, k) for k in entry.model_fields_set}
                     merged[section][net] = merged[section][net].model_copy(update=given)
-                    positions.update({p: pos for p, pos in by_entry.get((section, net), {}).items()
-                                      if p != (section, net)})
+                    positions.overlay(kept, (section, net), with_prefix=False)
                     continue
                 if net in merged[section]:
                     file, line, _ = positions.get((section, net), (doc.file, None, None))
@@ -208,7 +205,7 @@ def _merge_intent(
                         (section, net), f"{section} for net {net!r} are declared here and at {where}; keep one"))
                     continue
                 merged[section][net] = entry
-                positions.update(by_entry.get((section, net), {}))
+                positions.overlay(kept, (section, net))
         if intent.operating_temperature is not None:
             if design.operating_temperature is not None or "operating_temperature" in merged:
                 problems.append(idoc.problem(("operating_temperature",),
@@ -216,8 +213,7 @@ def _merge_intent(
                                              "intent files); keep one"))
             else:
                 merged["operating_temperature"] = intent.operating_temperature
-                positions.update({p: (idoc.file, *lc) for p,
-                                  lc in idoc.keys.items() if p[:1] == ("operating_temperature",)})
+                positions.overlay(kept, ("operating_temperature",), keys_only=True)
     return design.model_copy(update=merged)
 
 
