@@ -266,30 +266,45 @@ def _review_in_worker(path: str | Path) -> _Outcome:
 
 def _outcomes(paths: Sequence[str | Path], options: dict[str, Any], jobs: int,
               on_done: Any = None) -> Iterator[_Outcome]:
-    """Each design's outcome in input order: in this process, or spread over ``jobs`` worker processes."""
+    """Each design's outcome in input order: in this process, or spread over ``jobs`` worker processes.
+
+    In parallel, the first design is still reviewed here: that imports and caches all a review needs (modules,
+    rules, part library, policy), so workers forked from this process start warm instead of each doing it again.
+    """
+    global _WORKER
     serial = _Reviewer(options)  # also checks the shared files (baseline, waivers) before any worker starts
-    if jobs <= 1 or len(paths) < 2 or options.get("registry") is not None:
-        for path in paths:
-            out = serial.review(path)
-            if on_done is not None:
-                on_done(out)
-            yield out
+    parallel = jobs > 1 and len(paths) > 2 and options.get("registry") is None
+    for path in paths if not parallel else paths[:1]:
+        out = serial.review(path)
+        if on_done is not None:
+            on_done(out)
+        yield out
+    if not parallel:
         return
+    import gc
     import multiprocessing
     from concurrent.futures import ProcessPoolExecutor
 
     from afecheck.io import note_reads
 
-    # fork (where the system has it) hands each worker the modules already imported: no second start-up
-    context = multiprocessing.get_context("fork" if "fork" in multiprocessing.get_all_start_methods() else "spawn")
-    with ProcessPoolExecutor(max_workers=min(jobs, len(paths)), mp_context=context, initializer=_start_worker,
-                             initargs=(options,)) as pool:
-        chunk = max(1, len(paths) // (8 * jobs))
-        for out in pool.map(_review_in_worker, paths, chunksize=chunk):
-            note_reads(out.reads)
-            if on_done is not None:
-                on_done(out)
-            yield out
+    rest = paths[1:]
+    fork = "fork" in multiprocessing.get_all_start_methods()
+    context = multiprocessing.get_context("fork" if fork else "spawn")
+    _WORKER = serial  # a forked worker finds the warm reviewer as it is; a spawned one builds its own
+    gc.freeze()  # what exists now is never collected in the workers, so its memory pages stay shared
+    try:
+        with ProcessPoolExecutor(max_workers=min(jobs, len(rest)), mp_context=context,
+                                 initializer=None if fork else _start_worker,
+                                 initargs=() if fork else (options,)) as pool:
+            chunk = max(1, len(rest) // (4 * jobs))
+            for out in pool.map(_review_in_worker, rest, chunksize=chunk):
+                note_reads(out.reads)
+                if on_done is not None:
+                    on_done(out)
+                yield out
+    finally:
+        gc.unfreeze()
+        _WORKER = None
 
 
 def review_files(

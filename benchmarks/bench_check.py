@@ -47,7 +47,7 @@ def _afecheck_cmd() -> list[str]:
 
 
 def _run_measured(cmd: list[str]) -> tuple[float, float, int, str, float]:
-    """Run ``cmd``; return (wall seconds, peak RSS in MB, exit status, stderr, CPU seconds user + system)."""
+    """Run ``cmd``; return (wall seconds, peak RSS in MiB, exit status, stderr, CPU seconds user + system)."""
     t0 = time.perf_counter()
     proc = subprocess.Popen(cmd, stdout=subprocess.DEVNULL, stderr=subprocess.PIPE, text=True)
     stderr = proc.stderr.read() if proc.stderr else ""
@@ -143,41 +143,82 @@ def _machine() -> str:
             f"{platform.python_version()}; {sv or 'ngspice not installed'}; load average {load:.1f} at the start")
 
 
-def _batch(work: Path, count: int, repeat: int) -> list[str]:
-    """N one-channel designs: one afecheck run over all of them against N separate runs (and --jobs, if offered)."""
+def _batch(work: Path, count: int, repeat: int, separate_max: int) -> tuple[list[str], dict[str, float]]:
+    """N one-channel designs: one run over all of them with ``--jobs 1`` and ``--jobs <cores>``, against separate
+    runs (over the first ``separate_max`` designs, scaled to N and said so). Returns the rows and the medians."""
     files = [str(write_design(work / f"small{i}.json", 1)) for i in range(count)]
-    cmd = _afecheck_cmd()
-    one = [_run_measured(cmd + ["check", "--fail-on", "never", *files]) for _ in range(repeat)]
+    cmd = _afecheck_cmd() + ["check", "--fail-on", "never"]
+    cores = os.cpu_count() or 2
+    runs: dict[int, list] = {1: [], cores: []}
+    for _ in range(repeat):  # alternate the two so a busy moment hits both alike
+        for jobs in runs:
+            runs[jobs].append(_run_measured(cmd + ["--jobs", str(jobs), *files]))
+    rows, medians = [], {}
+    for jobs, measured in runs.items():
+        wall, cpu = statistics.median([r[0] for r in measured]), statistics.median([r[4] for r in measured])
+        medians[f"jobs{jobs}"] = wall
+        rows.append(f"| {count} designs in one run, `--jobs {jobs}` | {_med([r[0] for r in measured])} | "
+                    f"{_med([r[4] for r in measured])} | {cpu / wall:.2f} |")
+    if 1 != cores:
+        medians["speedup"] = medians["jobs1"] / medians[f"jobs{cores}"]
+        rows.append(f"| speed-up of `--jobs {cores}` over `--jobs 1` (median wall) | {medians['speedup']:.2f}x | | |")
+    some = files[:max(1, min(separate_max, count))]
     sep_wall = []
     for _ in range(max(1, repeat // 2)):
         t0 = time.perf_counter()
-        for f in files:
-            _run_measured(cmd + ["check", "--fail-on", "never", f])
-        sep_wall.append(time.perf_counter() - t0)
-    rows = [f"| {count} designs in one run (`--jobs 1` where offered) | {_med([r[0] for r in one])} | "
-            f"{_med([r[4] for r in one])} |",
-            f"| {count} designs, one run each | {_med(sep_wall)} | |"]
-    help_text = subprocess.run(cmd + ["check", "--help"], capture_output=True, text=True).stdout
-    if "--jobs" in help_text:
-        for jobs in (1, os.cpu_count() or 2):
-            runs = [_run_measured(cmd + ["check", "--fail-on", "never", "--jobs", str(jobs), *files])
-                    for _ in range(repeat)]
-            rows.append(f"| {count} designs in one run, `--jobs {jobs}` | {_med([r[0] for r in runs])} | "
-                        f"{_med([r[4] for r in runs])} |")
-    return rows
+        for f in some:
+            _run_measured(cmd + [f])
+        sep_wall.append((time.perf_counter() - t0) * count / len(some))
+    scaled = "" if len(some) == count else f" (timed over {len(some)}, scaled to {count})"
+    rows.append(f"| {count} designs, one afecheck run each{scaled} | {_med(sep_wall)} | | |")
+    return rows, medians
 
 
 def _imports(design: Path) -> list[str]:
-    """The costliest imports (cumulative microseconds) of a one-channel check, from ``python -X importtime``."""
+    """The costliest imports of a one-channel check (cumulative and own milliseconds, from ``python -X importtime``),
+    afecheck's own modules and the libraries they pull in, with the total."""
     proc = subprocess.run([sys.executable, "-X", "importtime", "-m", "afecheck", "check", "--fail-on", "never",
                            str(design)], capture_output=True, text=True)
-    rows = []
+    rows, total = [], 0
     for line in proc.stderr.splitlines():
-        m = re.match(r"import time:\s+(\d+) \|\s+(\d+) \|\s*(\S.*)$", line)
-        if m and not m.group(3).startswith(" "):
-            rows.append((int(m.group(2)), m.group(3).strip()))
-    top = sorted(rows, reverse=True)[:8]
-    return [f"| `{name}` | {us / 1000:.0f} |" for us, name in top]
+        m = re.match(r"import time:\s+(\d+) \|\s+(\d+) \|( *)(\S.*)$", line)
+        if m:
+            total += int(m.group(1))
+            rows.append((int(m.group(2)), int(m.group(1)), len(m.group(3)), m.group(4).strip()))
+    top = sorted(rows, reverse=True)[:14]
+    return [f"| `{name}` | {depth // 2} | {cum / 1000:.0f} | {own / 1000:.0f} |" for cum, own, depth, name in top] + [
+        f"| all {len(rows)} modules | | {total / 1000:.0f} | |"]
+
+
+def _startup(design: Path, repeat: int) -> tuple[str, float]:
+    """Median wall time of a one-channel check from the shell with afecheck's bytecode compiled first."""
+    subprocess.run([sys.executable, "-m", "compileall", "-q", str(ROOT / "afecheck")], capture_output=True)
+    runs = [_run_measured(_afecheck_cmd() + ["check", "--fail-on", "never", str(design)]) for _ in range(repeat)]
+    bare = [_run_measured([sys.executable, "-c", "pass"]) for _ in range(repeat)]
+    wall = statistics.median([r[0] for r in runs])
+    return (f"One-channel check from the shell, bytecode compiled: {_med([r[0] for r in runs])} s wall, "
+            f"{_med([r[4] for r in runs])} s cpu (a bare `python -c pass`: {_med([r[0] for r in bare])} s)."), wall
+
+
+def _targets(medians: dict[int, float], peaks: dict[int, float], batch: dict[str, float],
+             startup: float | None) -> list[str]:
+    """Each figure issue #16 asks for beside its target: met or not."""
+    rows = ["| figure | target | measured | met |", "|---|---|---|---|"]
+
+    def row(name: str, target: str, value: float | None, limit: float, unit: str, more: bool = False) -> None:
+        if value is None:
+            rows.append(f"| {name} | {target} | not measured | |")
+            return
+        met = value >= limit if more else value < limit
+        rows.append(f"| {name} | {target} | {value:.2f} {unit} | {'yes' if met else 'no'} |")
+
+    row("1000 channels end to end, median wall", "< 1.2 s", medians.get(1000), 1.2, "s")
+    row("4000 channels end to end, median wall", "< 5 s", medians.get(4000), 5.0, "s")
+    row("1000 channels peak memory", "< 100 MiB", peaks.get(1000), 100.0, "MiB")
+    row("4000 channels peak memory", "< 150 MiB", peaks.get(4000), 150.0, "MiB")
+    row("one-channel check, median wall", "< 0.25 s", startup, 0.25, "s")
+    row("small designs, `--jobs 2` over `--jobs 1`", ">= 1.6x", batch.get("speedup"), 1.6, "x", more=True)
+    return rows
 
 
 def main(argv: list[str] | None = None) -> int:
@@ -186,7 +227,9 @@ def main(argv: list[str] | None = None) -> int:
     p.add_argument("--channels", type=int, nargs="+", default=[1, 10, 100, 1000, 4000])
     p.add_argument("--repeat", type=int, default=5, help="runs per size and program (the median is reported)")
     p.add_argument("--format", choices=["json", "yaml"], default="json")
-    p.add_argument("--batch", type=int, default=50, help="one-channel designs in the batch comparison (0: skip)")
+    p.add_argument("--batch", type=int, default=200, help="one-channel designs in the batch comparison (0: skip)")
+    p.add_argument("--separate-max", type=int, default=40,
+                   help="designs timed as separate runs in the batch comparison (the figure is scaled to --batch)")
     p.add_argument("--no-spice", action="store_true", help="skip the ngspice comparison")
     p.add_argument("--spice-max", type=int, default=1000,
                    help="largest size simulated by ngspice (its whole-circuit AC sweep grows faster than linearly)")
@@ -200,8 +243,8 @@ def main(argv: list[str] | None = None) -> int:
     machine = _machine()
     out: list[str] = [f"Measured {dt.date.today().isoformat()}: {machine}. {args.format.upper()} input, "
                       f"{args.repeat} runs of each program per size, alternating; median (min-max).", ""]
-    out += ["| N | parts | afecheck wall s | afecheck cpu s | afecheck peak MB | ngspice wall s | ngspice cpu s "
-            "| ngspice peak MB | afecheck/ngspice (wall) |", "|---|---|---|---|---|---|---|---|---|"]
+    out += ["| N | parts | afecheck wall s | afecheck cpu s | afecheck peak MiB | ngspice wall s | ngspice cpu s "
+            "| ngspice peak MiB | afecheck/ngspice (wall) |", "|---|---|---|---|---|---|---|---|---|"]
     phase_rows = ["| N | import s | load s | analyse s | rules s | report s | findings |",
                   "|---|---|---|---|---|---|---|"]
     notes: list[str] = []
@@ -247,14 +290,20 @@ def main(argv: list[str] | None = None) -> int:
                 "dependencies):", "", *phase_rows]
         if 1000 in medians and 4000 in medians:
             out += ["", f"Growth 1000 -> 4000 channels: {medians[4000] / medians[1000]:.2f}x the time "
-                    f"(linear would be 4x plus the fixed start-up); peak memory {peaks[1000]:.0f} MB at 1000 "
-                    f"channels and {peaks[4000]:.0f} MB at 4000."]
+                    f"(linear would be 4x plus the fixed start-up); peak memory {peaks[1000]:.0f} MiB at 1000 "
+                    f"channels and {peaks[4000]:.0f} MiB at 4000."]
+        batch: dict[str, float] = {}
         if args.batch:
-            out += ["", f"Batch: {args.batch} one-channel designs.", "",
-                    "| how | wall s | cpu s |", "|---|---|---|", *_batch(work, args.batch, max(1, args.repeat // 2))]
+            rows, batch = _batch(work, args.batch, args.repeat, args.separate_max)
+            out += ["", f"Batch: {args.batch} one-channel designs ({os.cpu_count()} cores; cpu/wall above 1 means "
+                    "more than one core was busy).", "", "| how | wall s | cpu s | cpu/wall |", "|---|---|---|---|",
+                    *rows]
         small = write_design(work / "one.json", 1)
-        out += ["", "Costliest imports of a one-channel check (`python -X importtime`, cumulative):", "",
-                "| module | ms |", "|---|---|", *_imports(small)]
+        line, startup = _startup(small, args.repeat)
+        out += ["", line, "", "Costliest imports of a one-channel check (`python -X importtime`; depth 0 is imported "
+                "by afecheck's command line itself; cumulative includes what the module imports):", "",
+                "| module | depth | cumulative ms | own ms |", "|---|---|---|---|", *_imports(small)]
+        out += ["", "Issue #16 targets against this run:", "", *_targets(medians, peaks, batch, startup)]
     if notes:
         out += [""] + [f"Note: {n}" for n in notes]
     text = "\n".join(out) + "\n"

@@ -133,3 +133,25 @@ def test_no_progress_line_without_a_terminal(tmp_path: Path) -> None:
     proc = subprocess.run([sys.executable, "-m", "afecheck", "check", "--jobs", "1", "--fail-on", "never", *files],
                           capture_output=True, text=True, env=env, timeout=120)
     assert proc.returncode == 0 and "designs," not in proc.stderr and "designs," not in proc.stdout
+
+
+def test_parallel_run_reviews_the_first_design_here_and_the_rest_in_worker_processes(
+        tmp_path: Path, monkeypatch: pytest.MonkeyPatch) -> None:
+    from afecheck import api
+
+    real = api._review_in_worker
+
+    def in_worker(path: str) -> object:  # resolved by name in the forked workers, which inherit the patch
+        out = real(path)
+        out.notes = (f"pid {os.getpid()}",)
+        return out
+
+    in_worker.__qualname__ = in_worker.__name__ = "_review_in_worker"
+    in_worker.__module__ = "afecheck.api"
+    monkeypatch.setattr(api, "_review_in_worker", in_worker)
+    files = _tree(tmp_path)
+    heard: list[str] = []
+    report = api.review_files(files, jobs=2, fail_on="never", on_note=heard.append)
+    assert [d.file for d in report.designs] == files  # input order kept
+    assert len(heard) == len(files) - 1  # every design but the first came from a worker ...
+    assert f"pid {os.getpid()}" not in heard  # ... in another process

@@ -31,7 +31,7 @@ def unchecked_paths(ctx: Context) -> list[tuple[str | int, ...]]:
             found.append(path)
     used = sorted({c.part for c in d.components.values() if c.kind == "opamp"})  # type: ignore[union-attr]
     for name in used:
-        if name not in loaded.parts or loaded.part_origins.get(name, "").startswith("built-in"):
+        if name not in loaded.parts or name in loaded.shipped_parts:
             continue  # the shipped archetypes are not the designer's declarations
         for path in declared_fields(loaded.parts[name], ("parts", name)):
             if consumer(pattern_of(path)) is UNCHECKED:

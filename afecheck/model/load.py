@@ -6,13 +6,17 @@ all of them in one round. The input files are only read, never written.
 
 from __future__ import annotations
 
+import contextlib
 import difflib
-from collections.abc import Callable
+import gc
+from collections.abc import Callable, Iterator
+from functools import partial
 from pathlib import Path
 
 from afecheck.errors import InputError, Problem
 from afecheck.model.loaded import LoadedDesign, PathKey, path_text
 from afecheck.model.paths import PathRefusedError, referenced_file
+from afecheck.model.positions import Positions
 from afecheck.model.reader import Document, read_file
 from afecheck.model.schema import PIN_NAMES, Design, Intent
 from afecheck.model.validate import validate
@@ -28,9 +32,28 @@ def load_design(
 ) -> LoadedDesign:
     """Read, validate and merge a design file (YAML, JSON or a SPICE netlist), its intent file(s) and part
     libraries; raise InputError."""
+    with _collector_paused():
+        return _load(Path(path), intent, libraries, input_format, netlist_map)
+
+
+@contextlib.contextmanager
+def _collector_paused() -> Iterator[None]:
+    """The cyclic garbage collector off while a design's data and models are built: they hold no reference
+    cycles, and each collection would walk every object built so far (measured: about a third of the load time
+    of a 1000-channel design, docs/BENCHMARK.md)."""
+    was_on = gc.isenabled()
+    gc.disable()
+    try:
+        yield
+    finally:
+        if was_on:
+            gc.enable()
+
+
+def _load(path: Path, intent: str | Path | None, libraries: tuple[str | Path, ...], input_format: str | None,
+          netlist_map: str | Path | None) -> LoadedDesign:
     from afecheck.model.spice_reader import is_netlist
 
-    path = Path(path)
     if is_netlist(path, input_format):
         doc = _read_netlist(path, intent, libraries, netlist_map)
     else:
@@ -46,10 +69,11 @@ def load_design(
     groups = _library_groups(design, doc, libraries, problems)
     if problems:
         raise InputError(problems)
-    inline = [PartEntry(name, model, doc.file, *doc.keys.get(("parts", name), (None, None)))
+    kept = doc.positions_only()  # what the loaded design keeps: the data read is freed once validated
+    inline = [PartEntry(name, model, doc.file, place=partial(_key_place, kept, ("parts", name)))
               for name, model in design.parts.items()]
     parts = combine(groups, inline)
-    positions = _positions(doc)
+    positions = Positions(kept)
     design = _merge_intent(design, doc, intents, positions, problems, doc.defaults)
     if problems:
         raise InputError(problems)
@@ -64,8 +88,8 @@ def load_design(
     declared = {ref: c for ref, c in design.components.items() if c.kind in ("thermocouple", "bridge")}
     design = expand_sensors(design)
     for ref, comp in design.components.items():
-        if comp.kind == "bridge_arm" and ("components", comp.bridge) in positions:
-            positions[("components", ref)] = positions[("components", comp.bridge)]
+        if comp.kind == "bridge_arm":
+            positions.same_as(("components", ref), ("components", comp.bridge))
     return LoadedDesign(
         design=design,
         sensors=declared,
@@ -73,6 +97,7 @@ def load_design(
         parts=parts.models,
         positions=positions,
         part_origins=parts.origins,
+        shipped_parts=parts.shipped,
         intent_files=tuple(d.file for d, _ in intents),
         notes=doc.notes,
     )
@@ -158,14 +183,12 @@ def _read_intent(path: Path) -> tuple[Document, Intent]:
     return doc, validate(doc, Intent)
 
 
-def _positions(doc: Document) -> dict[PathKey, tuple[str, int, int]]:
-    """Every key path of ``doc`` -> (file, line, column); list items by the position of the item."""
-    positions = {p: (doc.file_of(p), line, column) for p, (line, column) in doc.values.items() if p}
-    positions.update({p: (doc.file_of(p), line, column) for p, (line, column) in doc.keys.items()})
-    return positions
+def _key_place(doc: Document, path: PathKey) -> tuple[int | None, int | None]:
+    """(line, column) of the key at ``path`` in ``doc``, or (None, None)."""
+    return doc.keys.get(path, (None, None))
 
 
-def _nearest(positions: dict[PathKey, tuple[str, int, int]], key: PathKey, file: str) -> tuple[str, int | None,
+def _nearest(positions: Positions, key: PathKey, file: str) -> tuple[str, int | None,
                                                                                                  int | None]:
     while key:
         key = key[:-1]
@@ -178,7 +201,7 @@ def _merge_intent(
     design: Design,
     doc: Document,
     intents: list[tuple[Document, Intent]],
-    positions: dict[PathKey, tuple[str, int, int]],
+    positions: Positions,
     problems: list[Problem],
     defaults: frozenset[PathKey] = frozenset(),
 ) -> Design:
@@ -188,18 +211,13 @@ def _merge_intent(
         return design
     merged = {section: dict(getattr(design, section)) for section in INTENT_SECTIONS}
     for idoc, intent in intents:
-        by_entry: dict[PathKey, dict[PathKey, tuple[str, int, int]]] = {}
-        for table in (idoc.values, idoc.keys):
-            for p, (line, column) in table.items():
-                if len(p) >= 2:
-                    by_entry.setdefault(p[:2], {})[p] = (idoc.file, line, column)
+        kept = idoc.positions_only()
         for section in INTENT_SECTIONS:
             for net, entry in getattr(intent, section).items():
                 if net in merged[section] and (section, net) in defaults:
                     given = {k: getattr(entry, k) for k in entry.model_fields_set}
                     merged[section][net] = merged[section][net].model_copy(update=given)
-                    positions.update({p: pos for p, pos in by_entry.get((section, net), {}).items()
-                                      if p != (section, net)})
+                    positions.overlay(kept, (section, net), with_prefix=False)
                     continue
                 if net in merged[section]:
                     file, line, _ = positions.get((section, net), (doc.file, None, None))
@@ -208,7 +226,7 @@ def _merge_intent(
                         (section, net), f"{section} for net {net!r} are declared here and at {where}; keep one"))
                     continue
                 merged[section][net] = entry
-                positions.update(by_entry.get((section, net), {}))
+                positions.overlay(kept, (section, net))
         if intent.operating_temperature is not None:
             if design.operating_temperature is not None or "operating_temperature" in merged:
                 problems.append(idoc.problem(("operating_temperature",),
@@ -216,8 +234,7 @@ def _merge_intent(
                                              "intent files); keep one"))
             else:
                 merged["operating_temperature"] = intent.operating_temperature
-                positions.update({p: (idoc.file, *lc) for p,
-                                  lc in idoc.keys.items() if p[:1] == ("operating_temperature",)})
+                positions.overlay(kept, ("operating_temperature",), keys_only=True)
     return design.model_copy(update=merged)
 
 

@@ -29,6 +29,8 @@ class LoadedDesign:
     positions: Mapping[PathKey, tuple[str, int, int]] = field(default_factory=dict)
     part_origins: Mapping[str, str] = field(default_factory=dict)
     """Where each part model was defined: ``file:line`` or ``built-in (file)``."""
+    shipped_parts: frozenset[str] = frozenset()
+    """Names of the part models that are shipped archetypes (the designer declared none of their fields)."""
     sensors: Mapping[str, Any] = field(default_factory=dict)
     """Thermocouples and bridges as declared (``design`` holds the parts they became)."""
     intent_files: tuple[str, ...] = ()

@@ -15,7 +15,8 @@ import math
 import os
 import re
 import stat
-from dataclasses import dataclass, field
+from collections.abc import Callable
+from functools import lru_cache, partial
 from itertools import accumulate
 from pathlib import Path
 from typing import Any
@@ -27,6 +28,8 @@ from afecheck.errors import InputError, Problem
 PathKey = tuple[str | int, ...]
 """Mapping keys appear as strings (``"1"`` for a YAML ``1:`` key), list positions as ints."""
 Position = tuple[int, int]
+PositionIndex = tuple[dict[PathKey, Position], dict[PathKey, Position], dict[PathKey, str]]
+"""Positions of the keys, positions of the values, and the source text of YAML scalars."""
 
 MAX_FILE_BYTES = 20 * 1024 * 1024
 """Largest input file read (20 MiB); a schematic export is far smaller."""
@@ -96,6 +99,7 @@ def _tag_refused(tag: str) -> str:
     return f"tag {_short(tag)!r} is not allowed: only plain values, mappings and lists are read"
 
 
+@lru_cache(maxsize=4096)
 def _plain_tag(value: str, implicit: tuple[bool, bool]) -> str:
     """Tag of an untagged scalar: the YAML resolver's answer, narrowed to what YAML 1.2 also reads."""
     tag = _RESOLVER.resolve(yaml.ScalarNode, value, implicit)
@@ -106,22 +110,75 @@ def _plain_tag(value: str, implicit: tuple[bool, bool]) -> str:
     return tag
 
 
-@dataclass(frozen=True)
-class Document:
-    """Data read from one file with the 1-based (line, column) of each key and each value by key path."""
+class _LazyIndex:
+    """The positions of one file, built by ``build`` when first needed (or given built)."""
 
-    file: str
-    data: Any
-    keys: dict[PathKey, Position]
-    values: dict[PathKey, Position]
-    texts: dict[PathKey, str] = field(default_factory=dict)
-    """Source text of each YAML scalar value, for fields whose spelling matters (``0123`` is not 123)."""
-    origins: dict[PathKey, str] = field(default_factory=dict)
-    """File of a key path that lies in another file than ``file`` (a netlist's includes, its map file)."""
-    defaults: frozenset[PathKey] = frozenset()
-    """Intent entries (section, net) that an intent file may refine rather than conflict with."""
-    notes: tuple[str, ...] = ()
-    """What reading skipped on purpose (a netlist's analysis lines), for the user to see."""
+    __slots__ = ("build", "index")
+
+    def __init__(self, source: Callable[[], PositionIndex] | PositionIndex):
+        self.build, self.index = (source, None) if callable(source) else (None, source)
+
+    @property
+    def built(self) -> bool:
+        return self.index is not None
+
+    def get(self) -> PositionIndex:
+        if self.index is None:
+            assert self.build is not None
+            self.index, self.build = self.build(), None
+        return self.index
+
+
+class Document:
+    """Data read from one file with the 1-based (line, column) of each key and each value by key path.
+
+    The positions are found when first asked for (a problem to place, a finding's location), by reading the
+    text once more: a clean file checked without findings never builds them (docs/BENCHMARK.md, memory).
+    """
+
+    def __init__(self, file: str, data: Any, keys: dict[PathKey, Position] | None = None,
+                 values: dict[PathKey, Position] | None = None, texts: dict[PathKey, str] | None = None,
+                 origins: dict[PathKey, str] | None = None, defaults: frozenset[PathKey] = frozenset(),
+                 notes: tuple[str, ...] = (), index: Callable[[], PositionIndex] | None = None):
+        self.file = file
+        self.data = data
+        self.origins = origins or {}
+        """File of a key path that lies in another file than ``file`` (a netlist's includes, its map file)."""
+        self.defaults = defaults
+        """Intent entries (section, net) that an intent file may refine rather than conflict with."""
+        self.notes = notes
+        """What reading skipped on purpose (a netlist's analysis lines), for the user to see."""
+        self._index = _LazyIndex(index if index is not None else (keys or {}, values or {}, texts or {}))
+
+    def _positions(self) -> PositionIndex:
+        return self._index.get()
+
+    @property
+    def indexed(self) -> bool:
+        """True once the positions have been built (tests check that a clean load never builds them)."""
+        return self._index.built
+
+    def positions_only(self) -> Document:
+        """This document without its data, sharing its positions (built once for both): what a loaded design
+        keeps, so the data read from the file is freed once it has been validated."""
+        kept = Document(self.file, None, origins=self.origins, defaults=self.defaults, notes=self.notes)
+        kept._index = self._index
+        return kept
+
+    @property
+    def keys(self) -> dict[PathKey, Position]:
+        """Position of each mapping key by key path."""
+        return self._positions()[0]
+
+    @property
+    def values(self) -> dict[PathKey, Position]:
+        """Position of each value (scalar, mapping or list) by key path."""
+        return self._positions()[1]
+
+    @property
+    def texts(self) -> dict[PathKey, str]:
+        """Source text of each YAML scalar value, for fields whose spelling matters (``0123`` is not 123)."""
+        return self._positions()[2]
 
     def file_of(self, path: PathKey) -> str:
         """The file holding ``path`` (or its deepest known parent)."""
@@ -224,8 +281,12 @@ def read_bytes(raw: bytes, file: str, as_json: bool = False) -> Document:
     if not text.strip() or (not as_json and _only_comments(text)):
         raise InputError([Problem(file, 1, None, "", "empty file: expected a mapping with the format version")])
     doc = _read_json(text, file) if as_json else _read_yaml(text, file)
-    _refuse_lone_surrogates(doc)
+    if _SURROGATE_ESCAPE.search(text):  # the only way a lone surrogate gets into text decoded from UTF-8
+        _refuse_lone_surrogates(doc)
     return doc
+
+
+_SURROGATE_ESCAPE = re.compile(r"\\(?:u[dD][89a-fA-F]|U0000[dD][89a-fA-F])")
 
 
 def _refuse_lone_surrogates(doc: Document) -> None:
@@ -301,25 +362,45 @@ def _mark(file: str, mark: Any, message: str, path: PathKey = ()) -> Problem:
 
 
 class _Frame:
-    """A mapping or sequence being built."""
+    """A mapping or sequence being built; its key path is worked out only when something needs it."""
 
-    __slots__ = ("value", "path", "key", "anchor", "seen", "size", "log")
+    __slots__ = ("value", "is_map", "parent", "slot", "_path", "key", "anchor", "seen", "size", "log")
 
-    def __init__(self, value: dict | list, path: PathKey, anchor: str | None):
+    def __init__(self, value: dict | list, parent: _Frame | None, slot: str | int | _Marker | None,
+                 anchor: str | None):
         self.value = value
-        self.path = path
+        self.is_map = isinstance(value, dict)
+        self.parent = parent
+        self.slot = slot
+        self._path: PathKey | None = () if parent is None else None
         self.key: Any = _NO_KEY
         self.anchor = anchor
         self.seen: dict[str, int] = {}
         self.size = 1
         self.log: list[tuple[bool, PathKey, Position]] = []
 
+    @property
+    def path(self) -> PathKey:
+        if self._path is None:
+            assert self.parent is not None
+            self._path = self.parent.path + (self.slot,)
+        return self._path
+
+    def next_slot(self) -> str | int | _Marker:
+        """Key or index, in a key path, of the value that starts now in this container."""
+        return _path_key(self.key) if self.is_map else len(self.value)
+
 
 class _YamlBuilder:
-    """Builds plain data from parser events without recursion, enforcing the limits and refusing tags."""
+    """Builds plain data from parser events without recursion, enforcing the limits and refusing tags.
 
-    def __init__(self, file: str):
+    With ``record`` it also stores every key's and value's position and each scalar's text (the second,
+    on-demand reading of a file); without it, key paths are made only for the problems it reports.
+    """
+
+    def __init__(self, file: str, record: bool = False):
         self.file = file
+        self.record = record
         self.keys: dict[PathKey, Position] = {}
         self.values: dict[PathKey, Position] = {}
         self.texts: dict[PathKey, str] = {}
@@ -331,20 +412,26 @@ class _YamlBuilder:
         self.stack: list[_Frame] = []
         self.root: Any = None
         self.documents = 0
+        self._handlers = {
+            yaml.ScalarEvent: self._scalar, yaml.AliasEvent: self._alias, yaml.DocumentStartEvent: self._document,
+            yaml.MappingStartEvent: self._start, yaml.SequenceStartEvent: self._start,
+            yaml.MappingEndEvent: self._end, yaml.SequenceEndEvent: self._end,
+        }
 
     def feed(self, event: yaml.Event) -> None:
-        if isinstance(event, yaml.DocumentStartEvent):
-            self.documents += 1
-            if self.documents > 1:
-                raise _FatalError(_mark(self.file, event.start_mark, "more than one YAML document; expected one"))
-        elif isinstance(event, yaml.ScalarEvent):
-            self._scalar(event)
-        elif isinstance(event, yaml.AliasEvent):
-            self._alias(event)
-        elif isinstance(event, (yaml.MappingStartEvent, yaml.SequenceStartEvent)):
-            self._start(event)
-        elif isinstance(event, (yaml.MappingEndEvent, yaml.SequenceEndEvent)):
-            self._end()
+        handler = self._handlers.get(type(event))
+        if handler is None:
+            for kind, known in self._handlers.items():  # a subclass of an event type (another parser)
+                if isinstance(event, kind):
+                    handler = known
+                    break
+        if handler is not None:
+            handler(event)
+
+    def _document(self, event: yaml.DocumentStartEvent) -> None:
+        self.documents += 1
+        if self.documents > 1:
+            raise _FatalError(_mark(self.file, event.start_mark, "more than one YAML document; expected one"))
 
     def _record(self, is_key: bool, path: PathKey, pos: Position) -> None:
         """Store a key's or value's position, and log it in every open anchored container (for its aliases)."""
@@ -352,25 +439,30 @@ class _YamlBuilder:
         for frame in self.recording:
             frame.log.append((is_key, path[len(frame.path):], pos))
 
-    def _path_for_child(self, mark: Any) -> PathKey | None:
+    def _awaits_key(self) -> bool:
+        """True when the node starting now is a mapping key."""
+        return bool(self.stack) and self.stack[-1].is_map and self.stack[-1].key is _NO_KEY
+
+    def _path_for_child(self) -> PathKey | None:
         """Path of the node starting now, or None when it is a mapping key."""
         if not self.stack:
             return ()
-        frame = self.stack[-1]
-        if isinstance(frame.value, list):
-            return frame.path + (len(frame.value),)
-        if frame.key is _NO_KEY:
+        if self._awaits_key():
             return None
-        return frame.path + (_path_key(frame.key),)
+        frame = self.stack[-1]
+        return frame.path + (frame.next_slot(),)
 
-    def _attach(self, value: Any, path: PathKey, mark: Any, size: int) -> None:
-        self._record(False, path, (mark.line + 1, mark.column + 1))
+    def _attach(self, value: Any, mark: Any, size: int) -> None:
         if not self.stack:
+            if self.record:
+                self._record(False, (), (mark.line + 1, mark.column + 1))
             self.root = value
             return
         frame = self.stack[-1]
+        if self.record:
+            self._record(False, frame.path + (frame.next_slot(),), (mark.line + 1, mark.column + 1))
         frame.size += size
-        if isinstance(frame.value, list):
+        if not frame.is_map:
             frame.value.append(value)
             return
         key = frame.key
@@ -387,16 +479,16 @@ class _YamlBuilder:
             raise _FatalError(
                 _mark(self.file, mark, "a mapping key must be a plain string or number", frame.path)) from None
         text = str(value)
-        path = frame.path + (_path_key(value),)
         if text in frame.seen:
             self.problems.append(_mark(
                 self.file, mark, f"duplicate key {text!r} (first at line {frame.seen[text]}); each name once",
-                path))
+                frame.path + (_path_key(value),)))
             frame.key = _DUPLICATE
             return
         frame.seen[text] = mark.line + 1
         frame.key = value
-        self._record(True, path, (mark.line + 1, mark.column + 1))
+        if self.record:
+            self._record(True, frame.path + (_path_key(value),), (mark.line + 1, mark.column + 1))
 
     def _scalar(self, event: yaml.ScalarEvent) -> None:
         tag = event.tag
@@ -405,8 +497,7 @@ class _YamlBuilder:
         elif tag == "!":
             tag = f"{_YAML}str"
         elif tag not in _SCALAR_TAGS:
-            self.problems.append(_mark(self.file, event.start_mark, _tag_refused(tag),
-                                       self._path_for_child(event.start_mark) or ()))
+            self.problems.append(_mark(self.file, event.start_mark, _tag_refused(tag), self._path_for_child() or ()))
             tag = f"{_YAML}null"
         if tag == f"{_YAML}merge":
             self.problems.append(_mark(self.file, event.start_mark,
@@ -426,19 +517,16 @@ class _YamlBuilder:
         if isinstance(value, float) and not math.isfinite(value):
             self.problems.append(_mark(self.file, event.start_mark, _not_finite(event.value)))
             value = None
-        path = self._path_for_child(event.start_mark)
-        if path is not None:
-            self.texts[path] = event.value
-        self._node(value, event.anchor, event.start_mark, 1)
-
-    def _node(self, value: Any, anchor: str | None, mark: Any, size: int) -> None:
-        path = self._path_for_child(mark)
-        if path is None:
-            self._take_key(value, mark)
+        if self._awaits_key():
+            self._take_key(value, event.start_mark)
             return
-        if anchor is not None:
-            self.anchors[anchor] = (value, size, [])
-        self._attach(value, path, mark, size)
+        if self.record:
+            path = self._path_for_child()
+            assert path is not None
+            self.texts[path] = event.value
+        if event.anchor is not None:
+            self.anchors[event.anchor] = (value, 1, [])
+        self._attach(value, event.start_mark, 1)
 
     def _alias(self, event: yaml.AliasEvent) -> None:
         self.aliases += 1
@@ -452,43 +540,46 @@ class _YamlBuilder:
         if self.alias_nodes > MAX_ALIAS_NODES:
             raise _FatalError(_mark(self.file, event.start_mark,
                               f"aliases expand to more than {MAX_ALIAS_NODES} values; write the data out"))
-        path = self._path_for_child(event.start_mark)
-        if path is None:
+        if self._awaits_key():
             self._take_key(value, event.start_mark)
             return
-        self._attach(value, path, event.start_mark, size)
-        for is_key, relative, pos in log:
-            self._record(is_key, path + relative, pos)
+        path = self._path_for_child() if self.record else None
+        self._attach(value, event.start_mark, size)
+        if path is not None:
+            for is_key, relative, pos in log:
+                self._record(is_key, path + relative, pos)
 
     def _start(self, event: yaml.CollectionStartEvent) -> None:
         is_map = isinstance(event, yaml.MappingStartEvent)
         allowed = (None, "!", f"{_YAML}map" if is_map else f"{_YAML}seq")
-        path = self._path_for_child(event.start_mark)
-        if path is None:
+        if self._awaits_key():
             raise _FatalError(_mark(self.file, event.start_mark, "a mapping key must be a plain string or number",
                               self.stack[-1].path))
+        parent = self.stack[-1] if self.stack else None
+        value: dict | list = {} if is_map else []
+        frame = _Frame(value, parent, parent.next_slot() if parent is not None else None, event.anchor)
         if event.tag not in allowed:
-            self.problems.append(_mark(self.file, event.start_mark, _tag_refused(event.tag), path))
+            self.problems.append(_mark(self.file, event.start_mark, _tag_refused(event.tag), frame.path))
         if len(self.stack) >= MAX_DEPTH:
             raise _FatalError(_mark(self.file, event.start_mark, f"nesting deeper than {MAX_DEPTH} levels"))
-        value: dict | list = {} if is_map else []
-        self._record(False, path, (event.start_mark.line + 1, event.start_mark.column + 1))
-        frame = _Frame(value, path, event.anchor)
+        if self.record:
+            self._record(False, frame.path, (event.start_mark.line + 1, event.start_mark.column + 1))
         self.stack.append(frame)
-        if event.anchor is not None:
+        if event.anchor is not None and self.record:
             self.recording.append(frame)
 
-    def _end(self) -> None:
+    def _end(self, event: yaml.CollectionEndEvent) -> None:
         frame = self.stack.pop()
         if frame.anchor is not None:
-            self.recording.pop()
+            if self.record:
+                self.recording.pop()
             self.anchors[frame.anchor] = (frame.value, frame.size, frame.log)
         if not self.stack:
             self.root = frame.value
             return
         parent = self.stack[-1]
         parent.size += frame.size
-        if isinstance(parent.value, list):
+        if not parent.is_map:
             parent.value.append(frame.value)
         else:
             key = parent.key
@@ -520,7 +611,19 @@ def _flow_nesting_beyond_limit_on_one_line(text: str) -> bool:
 
 
 def _read_yaml(text: str, file: str) -> Document:
-    builder = _YamlBuilder(file)
+    """The data of YAML ``text``; its positions are found by reading it again when first asked for."""
+    builder = _parse_yaml(text, file, record=False)
+    return Document(file, builder.root, index=partial(_yaml_index, text, file))
+
+
+def _yaml_index(text: str, file: str) -> PositionIndex:
+    builder = _parse_yaml(text, file, record=True)
+    return builder.keys, builder.values, builder.texts
+
+
+def _parse_yaml(text: str, file: str, record: bool) -> _YamlBuilder:
+    """Run the parser over ``text`` into a builder; every problem an InputError (all of them when it can go on)."""
+    builder = _YamlBuilder(file, record)
     parser = None
     try:
         parser = (_PurePythonParser if _flow_nesting_beyond_limit_on_one_line(text) else _Parser)(text)
@@ -545,7 +648,7 @@ def _read_yaml(text: str, file: str) -> Document:
             dispose()
     if builder.problems:
         raise InputError(builder.problems)
-    return Document(file, builder.root, builder.keys, builder.values, builder.texts)
+    return builder
 
 
 _JSON_TOKEN = re.compile(r'"(?:[^"\\]|\\.)*"(?:\s*:)?|[{}\[\]]|[^\s{}\[\]:,"]+')
@@ -580,9 +683,21 @@ def _refuse_constant(name: str) -> None:
 
 
 def _read_json(text: str, file: str) -> Document:
-    """Parse strictly (no NaN/Infinity), then walk the text once more to record positions and duplicates."""
+    """Parse strictly (no NaN/Infinity); positions are found by walking the text again when first asked for.
+
+    Duplicate keys and nesting past MAX_DEPTH are noticed while parsing (cheaply) and then placed by that walk.
+    """
+    repeated: list[bool] = []
+
+    def pairs(items: list[tuple[str, Any]]) -> dict[str, Any]:
+        obj = dict(items)
+        if len(obj) != len(items):
+            repeated.append(True)
+        return obj
+
     try:
-        data = json.loads(text, parse_constant=_refuse_constant, parse_int=_json_int, parse_float=_json_float)
+        data = json.loads(text, parse_constant=_refuse_constant, parse_int=_json_int, parse_float=_json_float,
+                          object_pairs_hook=pairs)
     except _BadNumberError as exc:
         at = text.find(exc.text)
         line = text.count("\n", 0, at) + 1 if at >= 0 else 1
@@ -597,10 +712,26 @@ def _read_json(text: str, file: str) -> Document:
         line = text.count("\n", 0, m.start()) + 1 if m else 1
         column = m.start() - text.rfind("\n", 0, m.start()) if m else None
         raise InputError([Problem(file, line, column, "", f"not valid JSON: {exc}")]) from None
-    keys, values, problems = _json_positions(text, file)
-    if problems:
-        raise InputError(problems)
-    return Document(file, data, keys, values)
+    if repeated or _deepest(data) > MAX_DEPTH:
+        _, _, problems = _json_positions(text, file)
+        if problems:
+            raise InputError(problems)
+    return Document(file, data, index=partial(_json_index, text, file))
+
+
+def _deepest(data: Any) -> int:
+    """Levels of nested mappings and lists in ``data`` (0 for a plain value); stops counting past MAX_DEPTH."""
+    level, depth = [data] if isinstance(data, (dict, list)) else [], 0
+    while level and depth <= MAX_DEPTH:
+        depth += 1
+        level = [c for node in level for c in (node.values() if isinstance(node, dict) else node)
+                 if isinstance(c, (dict, list))]
+    return depth
+
+
+def _json_index(text: str, file: str) -> PositionIndex:
+    keys, values, _ = _json_positions(text, file)
+    return keys, values, {}
 
 
 def _json_positions(text: str, file: str) -> tuple[dict[PathKey, Position], dict[PathKey, Position], list[Problem]]:

@@ -7,7 +7,7 @@ places; only the design's own ``parts:`` entries may redefine a name, and they w
 
 from __future__ import annotations
 
-from collections.abc import Iterable
+from collections.abc import Callable, Iterable, Iterator, Mapping
 from dataclasses import dataclass, field
 from functools import lru_cache
 from importlib import resources
@@ -46,11 +46,34 @@ class PartEntry:
     file: str
     line: int | None = None
     column: int | None = None
+    place: Callable[[], tuple[int | None, int | None]] | None = field(default=None, compare=False, repr=False)
+    """Finds (line, column) when first asked for, in place of ``line`` and ``column`` (a design's own parts:)."""
+
+    def where(self) -> tuple[int | None, int | None]:
+        """(line, column) of the definition; (None, None) for a shipped archetype."""
+        return self.place() if self.place is not None else (self.line, self.column)
 
     @property
     def origin(self) -> str:
         """``file:line`` of the definition, or ``built-in (file)`` for a shipped archetype."""
-        return f"{self.file}:{self.line}" if self.line is not None else self.file
+        line = self.where()[0]
+        return f"{self.file}:{line}" if line is not None else self.file
+
+
+class _Origins(Mapping[str, str]):
+    """Part name -> origin, each rendered when read (a design's own part finds its line only then)."""
+
+    def __init__(self, entries: dict[str, PartEntry]):
+        self._entries = entries
+
+    def __getitem__(self, name: str) -> str:
+        return self._entries[name].origin
+
+    def __iter__(self) -> Iterator[str]:
+        return iter(self._entries)
+
+    def __len__(self) -> int:
+        return len(self._entries)
 
 
 @dataclass(frozen=True)
@@ -64,8 +87,13 @@ class PartSet:
         return {name: e.model for name, e in self.entries.items()}
 
     @property
-    def origins(self) -> dict[str, str]:
-        return {name: e.origin for name, e in self.entries.items()}
+    def origins(self) -> Mapping[str, str]:
+        return _Origins(self.entries)
+
+    @property
+    def shipped(self) -> frozenset[str]:
+        """Names of the shipped archetypes in the set (not redefined by a design's own parts:)."""
+        return frozenset(name for name, e in self.entries.items() if e.file.startswith(BUILTIN))
 
 
 def read_library(path: Path, display: str | None = None) -> list[PartEntry]:
@@ -116,7 +144,7 @@ def combine(groups: Iterable[list[PartEntry]], inline: Iterable[PartEntry] = ())
             first = entries.get(entry.name)
             if first is not None:
                 problems.append(Problem(
-                    entry.file, entry.line, entry.column, f"parts.{entry.name}",
+                    entry.file, *entry.where(), f"parts.{entry.name}",
                     f"part {entry.name!r} is already defined in {first.origin}; rename one (only a design's own "
                     "parts: entry may redefine a part)"))
                 continue
