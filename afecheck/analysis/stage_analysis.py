@@ -20,10 +20,11 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
+from afecheck.analysis import solve_memo
 from afecheck.analysis.affine import SweptForm, constant_form
 from afecheck.analysis.corners import Corners, UnitGrid
 from afecheck.analysis.loop import loop_gain
-from afecheck.analysis.mna import MnaSystem, assemble, check_connectivity
+from afecheck.analysis.mna import MnaSystem
 from afecheck.analysis.netlist import (
     GROUND,
     Capacitor,
@@ -41,6 +42,7 @@ from afecheck.analysis.netlist import (
 )
 from afecheck.analysis.ranges import solve_forms
 from afecheck.analysis.results import NetSignal, SourceEquivalent, StageInput, StageResult
+from afecheck.analysis.solve_memo import numeric_key, shared, unit_system
 from afecheck.analysis.sources import Divider, boundary_source, find_dividers, rail_range
 from afecheck.errors import AnalysisError, InputError, SingularCircuitError
 from afecheck.graph.build import Circuit
@@ -290,6 +292,7 @@ def analyse_unit(circuit: Circuit, plan: StagePlan, unit: tuple[str, ...],
     """
     corners = corners or Corners(circuit)
     forms = forms or {}
+    cache = cache if solve_memo.MEMOISE else None
     stages = [plan.stages[r] for r in unit]
     for s in stages:
         if not s.out or not s.in_plus or not s.in_minus:
@@ -464,10 +467,10 @@ def _value_key(comp) -> tuple:  # noqa: ANN001 - any component model
 def _solve_unit(circuit: Circuit, stages: list[Stage], netlist: Netlist, inputs: list[_Input],
                 notes: list[str], cache: dict | None, corners: Corners, sources: _Sources,
                 ntcs: tuple[str, ...], loop_netlist: LoopCircuit) -> UnitResult:
-    check_connectivity(netlist, dc=True)
-    system = assemble(netlist)
+    key = numeric_key(netlist) if cache is not None else None
+    system = unit_system(netlist, key, cache)
     forms, varying, grid = _unit_sources(circuit, netlist, system, corners, sources, ntcs)
-    dc = solve_forms(system, forms, varying, grid)
+    dc = solve_forms(system, forms, varying, grid, memo=None if key is None else (cache, key))
     col = {name: j for j, name in enumerate(dc.sources)}
     mid = dc.x.shape[0] // 2
     x_unit = dc.x[mid][:, [col[i.branch] for i in inputs]] if inputs else np.zeros((system.size, 0))
@@ -476,14 +479,16 @@ def _solve_unit(circuit: Circuit, stages: list[Stage], netlist: Netlist, inputs:
     wanted |= {system.index[_node(circuit, n)] for s in stages for n in s.nets if _node(circuit, n) in system.index}
     lo, hi = dc.bounds(np.array(sorted(wanted), dtype=int))
 
-    ac = _ac_amplitudes(system, inputs, system.size)
+    ac = shared(cache, key and ("ac", key, *((_excitation_key(system, i.branch), i.source.ac_amplitude,
+                                              i.source.f_max, i.source.kind) for i in inputs)),
+                lambda: _ac_amplitudes(system, inputs, system.size))
     ac_amp, fmax = ac[0], ac[1]
     idx = system.node_index
     results = []
     currents: dict[str, SweptForm] = {}
     for s in stages:
         results.append(_stage_result(circuit, s, netlist, system, inputs, x_unit, per_input, lo, hi,
-                                     ac, notes, cache, loop_netlist, corners))
+                                     ac, notes, cache, loop_netlist, corners, key))
         currents[s.opamp] = dc.form(system.branch_index(netlist.opamps[s.opamp].loop_element), -1.0)
     fixed = set(circuit.fixed)
     net_signals = []
@@ -618,7 +623,8 @@ def _band(inp: _Input) -> list[float]:
 def _stage_result(circuit: Circuit, s: Stage, netlist: Netlist, system: MnaSystem, inputs: list[_Input],
                   x_unit: np.ndarray, per_input: list[np.ndarray], lo: np.ndarray,
                   hi: np.ndarray, ac: AcResult, notes: list[str], cache: dict | None = None,
-                  loop_netlist: LoopCircuit | None = None, corners: Corners | None = None) -> StageResult:
+                  loop_netlist: LoopCircuit | None = None, corners: Corners | None = None,
+                  key: tuple | None = None) -> StageResult:
     """Fill one op-amp's StageResult from the unit's DC solutions, AC amplitudes and its own loop gain."""
     ac_amp, fmax, ac_mid, ac_peak = ac
     corners = corners or Corners(circuit)
@@ -689,11 +695,8 @@ def _stage_result(circuit: Circuit, s: Stage, netlist: Netlist, system: MnaSyste
 
     rout = None
     if out >= 0 and fb == "negative":
-        rhs = np.zeros(system.size)
-        rhs[out] = 1.0
-        zero_g = system.g
         try:
-            rout = float(abs(np.linalg.solve(zero_g, rhs)[out]))
+            rout = shared(cache, key and ("rout", key, out), lambda: _output_resistance(system, out))
         except np.linalg.LinAlgError:
             reasons.append("closed-loop output resistance: singular circuit")
 
@@ -722,6 +725,21 @@ def _stage_result(circuit: Circuit, s: Stage, netlist: Netlist, system: MnaSyste
         rail_plus=vp, rail_minus=vm, assumed=tuple(op.assumed), estimated="second_pole" in op.assumed,
         not_evaluated=tuple(reasons),
     )
+
+
+def _output_resistance(system: MnaSystem, out: int) -> float:
+    """|v(out)| for 1 A into the output node with every source zeroed: the closed-loop output resistance."""
+    rhs = np.zeros(system.size)
+    rhs[out] = 1.0
+    return float(abs(np.linalg.solve(system.g, rhs)[out]))
+
+
+def _excitation_key(system: MnaSystem, name: str) -> tuple[int, ...]:
+    """Where :func:`unit_excitation` puts a source's unit, by row: its branch, or a current source's two nodes."""
+    e = system.netlist.element(name)
+    if isinstance(e, CurrentSource):
+        return (system.node_index(e.pos), system.node_index(e.neg))
+    return (system.branch_index(name),)
 
 
 def _common_mode(circuit: Circuit, s: Stage, inp_i: int, lo: np.ndarray, hi: np.ndarray,
