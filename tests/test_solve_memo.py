@@ -3,7 +3,8 @@
 A generated multi-channel design repeats two channel circuits; some channels are then altered in one value each
 (a feedback resistor, an NTC's Beta, a filter capacitor, a signal's range, a part's offset) so that a key which
 forgot a value would hand a neighbour's solution to an altered channel. ``stages --json`` and
-``check --format json`` are computed with the memo on and off and compared number by number (1e-12 relative, 1e-15 absolute near zero).
+``check --format json`` are computed with the memo on and off and compared number by number (1e-12 relative,
+1e-15 absolute near zero).
 """
 
 from __future__ import annotations

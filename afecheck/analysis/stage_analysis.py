@@ -233,15 +233,19 @@ def _holding_elements(circuit: Circuit, stages: list[Stage], nets: set[str], see
                     sources.forms[f"{net}#vg"] = fixed if fixed is not None else constant_form(float(vp or 0.0))
                 break
     totals = _input_loads(circuit, cache)
+    # the unit's own inputs are in its netlist already: they come out of the sums (in the same order as ever)
+    own = [(circuit.pins[ref].get(pin), ref) for ref in unit for pin in ("in+", "in-")]
+    loads: dict[str, tuple[int, float, float]] = {}
     for net in sorted(nets - set(circuit.fixed)):
         if net not in totals:
             continue
         count, g, c = totals[net]
-        for ref in unit:  # the unit's own inputs are in its netlist already: take them out of the sums
-            for pin in ("in+", "in-"):
-                if circuit.pins[ref].get(pin) == net:
-                    _, g_own, c_own = _input_load(circuit, ref)
-                    count, g, c = count - 1, g - g_own, c - c_own
+        for on, ref in own:
+            if on == net:
+                if ref not in loads:
+                    loads[ref] = _input_load(circuit, ref)
+                _, g_own, c_own = loads[ref]
+                count, g, c = count - 1, g - g_own, c - c_own
         if count > 0 and g > 0:
             extra.append(Resistor(f"{net}#inputs.r", _node(circuit, net), GROUND, 1.0 / g))
         if count > 0 and c > 0:
@@ -312,7 +316,7 @@ def analyse_unit(circuit: Circuit, plan: StagePlan, unit: tuple[str, ...],
         return UnitResult(tuple(_empty_result(s, circuit, tuple(p.message for p in exc.problems)) for s in stages), ())
     if circuits is not None:
         circuits.update({r: (netlist, {i.source.net: i.branch for i in inputs}) for r in unit})
-    loop_netlist = LoopCircuit(circuit, plan, stages, done, corners, netlist)
+    loop_netlist = LoopCircuit(circuit, plan, stages, done, corners, netlist, cache)
     try:
         return _solve_unit(circuit, stages, netlist, inputs, notes, cache, corners, sources, ntcs, loop_netlist)
     except SingularCircuitError as exc:
@@ -378,7 +382,8 @@ class LoopCircuit:
     netlist when it has no neighbours). Built only when asked for; ``signature`` identifies it without building."""
 
     def __init__(self, circuit: Circuit | None, plan: StagePlan | None, stages: list[Stage],
-                 done: Mapping[str, StageResult], corners: Corners | None, netlist: Netlist) -> None:
+                 done: Mapping[str, StageResult], corners: Corners | None, netlist: Netlist,
+                 cache: dict | None = None) -> None:
         self.unit = tuple(s.opamp for s in stages)
         self._own = netlist
         self._built: Netlist | None = None
@@ -388,7 +393,7 @@ class LoopCircuit:
             near = _neighbours(circuit, plan, stages)
             if near:
                 self._group = stages + [plan.stages[r] for r in near]
-                self._args = (circuit, done, corners)
+                self._args = (circuit, done, corners, cache)
                 self.signature = _coupling_signature(circuit, self._group, done)
 
     @classmethod
@@ -402,9 +407,9 @@ class LoopCircuit:
         if not self._group:
             return self._own
         if self._built is None:
-            circuit, done, corners = self._args
-            try:
-                self._built = _unit_netlist(circuit, self._group, done, corners, {})[0]
+            circuit, done, corners, cache = self._args
+            try:  # the design cache shares the per-net input-load sums (else each build walks every op-amp)
+                self._built = _unit_netlist(circuit, self._group, done, corners, {}, cache)[0]
             except (InputError, ValueError):
                 self._built = self._own
         return self._built
