@@ -70,3 +70,20 @@ def test_the_altered_channels_really_differ(tmp_path):
     for altered, twin in (("U301", "U101"), ("U501", "U101"), ("U401", "U201"), ("U701", "U101")):
         assert stages[altered]["vout_max"] != stages[twin]["vout_max"]
     assert stages["U602"]["loop_gain_at_fmax"] != stages["U202"]["loop_gain_at_fmax"]
+
+
+def test_a_full_memo_stops_keeping_but_still_answers_the_same(tmp_path, monkeypatch):
+    """Past MAX_KEPT results the memo keeps nothing new (a design of all-different units must not hold every
+    unit's arrays); what it kept is still shared and every number stays the same."""
+    path = tmp_path / "memo.json"
+    path.write_text(json.dumps(_altered_design()), encoding="utf-8")
+    monkeypatch.setattr(solve_memo, "MEMOISE", False)
+    plain = _run(["stages", "--json", str(path)])
+    monkeypatch.setattr(solve_memo, "MEMOISE", True)
+    monkeypatch.setattr(solve_memo, "MAX_KEPT", 3)
+    kept: list[dict] = []
+    real = solve_memo._keep
+    monkeypatch.setattr(solve_memo, "_keep", lambda cache, key, value: kept.append(cache) or real(cache, key, value))
+    assert same(plain, _run(["stages", "--json", str(path)]), rel=TOL) == []
+    assert kept and kept[-1][solve_memo._KEPT] == 3
+    assert sum(1 for k in kept[-1] if isinstance(k, tuple) and k[0] in ("system", "points", "ac", "rout")) == 3

@@ -29,6 +29,18 @@ from afecheck.analysis.stamps import BRANCH_KINDS
 
 MEMOISE = True
 """Share solves between units with equal keys; the equivalence test runs with this off and compares."""
+MAX_KEPT = 400
+"""Most shared results kept per design: a design whose units are all different gains nothing from the memo, and
+must not hold every unit's arrays (a thermistor unit's grid solve is tens of kB) until the end of the run."""
+_KEPT = "#solve-memo-kept"
+
+
+def _keep(cache: dict, key: tuple, value: Any) -> None:
+    """Store ``value`` under ``key`` while fewer than MAX_KEPT results are kept."""
+    kept = cache.get(_KEPT, 0)
+    if kept < MAX_KEPT:
+        cache[key] = value
+        cache[_KEPT] = kept + 1
 
 
 def numeric_key(netlist: Netlist) -> tuple:
@@ -67,7 +79,7 @@ def unit_system(netlist: Netlist, key: tuple | None, cache: dict | None) -> MnaS
         system = assemble(netlist)
         for a in (system.g, system.c, system.b_dc, system.b_ac):
             a.flags.writeable = False
-        cache[("system", key)] = system
+        _keep(cache, ("system", key), system)
         return system
     nodes = netlist.nodes()
     branches = tuple(e.name for e in netlist.elements if isinstance(e, BRANCH_KINDS))
@@ -81,10 +93,11 @@ def shared(cache: dict | None, key: tuple | None, compute: Callable[[], Any]) ->
     """``compute()`` once per ``key`` (whose first part is the unit's numeric key); exceptions are not kept."""
     if key is None or cache is None or not MEMOISE:
         return compute()
-    if key not in cache:
-        value = compute()
-        for a in value if isinstance(value, tuple) else (value,):
-            if isinstance(a, np.ndarray):
-                a.flags.writeable = False
-        cache[key] = value
-    return cache[key]
+    if key in cache:
+        return cache[key]
+    value = compute()
+    for a in value if isinstance(value, tuple) else (value,):
+        if isinstance(a, np.ndarray):
+            a.flags.writeable = False
+    _keep(cache, key, value)
+    return value
