@@ -114,20 +114,20 @@ def renamed(value: Any, names: dict[str, str]) -> Any:
     return value
 
 
-def same(a: Any, b: Any, where: str = "") -> list[str]:
-    """Differences between two renamed values; floats equal to 1e-9 relative (1e-15 absolute near zero)."""
+def same(a: Any, b: Any, where: str = "", rel: float = 1e-9) -> list[str]:
+    """Differences between two renamed values; floats equal to ``rel`` relative (1e-15 absolute near zero)."""
     if isinstance(a, float) and isinstance(b, (int, float)) or isinstance(b, float) and isinstance(a, (int, float)):
         if math.isnan(a) and math.isnan(b) or a == b:
             return []
-        return [] if abs(a - b) <= 1e-9 * max(abs(a), abs(b)) + 1e-15 else [f"{where}: {a!r} != {b!r}"]
+        return [] if abs(a - b) <= rel * max(abs(a), abs(b)) + 1e-15 else [f"{where}: {a!r} != {b!r}"]
     if isinstance(a, dict) and isinstance(b, dict):
         if set(a) != set(b):
             return [f"{where}: keys {sorted(set(a) ^ set(b))}"]
-        return [d for k in a for d in same(a[k], b[k], f"{where}.{k}")]
+        return [d for k in a for d in same(a[k], b[k], f"{where}.{k}", rel)]
     if isinstance(a, list) and isinstance(b, list):
         if len(a) != len(b):
             return [f"{where}: {len(a)} items != {len(b)}"]
-        return [d for i, (x, y) in enumerate(zip(a, b, strict=True)) for d in same(x, y, f"{where}[{i}]")]
+        return [d for i, (x, y) in enumerate(zip(a, b, strict=True)) for d in same(x, y, f"{where}[{i}]", rel)]
     return [] if a == b else [f"{where}: {a!r} != {b!r}"]
 
 

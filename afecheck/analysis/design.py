@@ -4,7 +4,7 @@ from __future__ import annotations
 
 from afecheck.analysis.results import DesignAnalysis
 from afecheck.analysis.signals import propagate
-from afecheck.graph.build import build_circuit
+from afecheck.graph.build import circuit_of
 from afecheck.graph.stages import find_stages
 from afecheck.model.loaded import LoadedDesign
 
@@ -13,7 +13,7 @@ def analyse_design(loaded: LoadedDesign, circuits: dict | None = None) -> Design
     """Every op-amp stage's StageResult (in file order), the signal on every net, and what was not evaluated.
 
     ``circuits``, when given, collects each op-amp's local netlist for frequency sweeps (analysis/curves.py)."""
-    circuit = build_circuit(loaded)
+    circuit = circuit_of(loaded)
     plan = find_stages(circuit)
     run = propagate(circuit, plan, circuits)
     results, nets, problems = run.results, run.nets, run.problems

@@ -314,7 +314,8 @@ def netlist_from_design(
     elements: list[Element] = []
     opamps: dict[str, OpAmpInstance] = {}
     vtree = _VoltageTree()
-    templates: dict[tuple[str, bool], tuple[Element, ...]] = {}
+    # the export's subcircuit bodies, one per part: kept on the loaded design, so per-stage netlists share them
+    templates: dict[tuple[str, bool], tuple[Element, ...]] = loaded.__dict__.setdefault("_macromodel_templates", {})
     touched: dict[str, None] = {}
     problems: list[Problem] = []
 

@@ -18,6 +18,7 @@ from afecheck.analysis.affine import SweptForm, refined_max
 from afecheck.analysis.corners import UnitGrid
 from afecheck.analysis.mna import MnaSystem
 from afecheck.analysis.netlist import CurrentSource, OpAmpCore, Resistor, VoltageSource
+from afecheck.analysis.solve_memo import shared
 from afecheck.errors import SingularCircuitError
 
 _REST = "#rest"
@@ -58,8 +59,9 @@ class DcForms:
 
 
 def solve_forms(system: MnaSystem, forms: Mapping[str, SweptForm], varying: Mapping[str, np.ndarray],
-                grid: UnitGrid) -> DcForms:
-    """Solve the unit at DC once per source and grid point and compose every unknown's form."""
+                grid: UnitGrid, memo: tuple[dict, tuple] | None = None) -> DcForms:
+    """Solve the unit at DC once per source and grid point and compose every unknown's form; ``memo`` (cache,
+    the netlist's numeric key) shares the solve with an earlier unit of the same circuit (solve_memo)."""
     n = system.size
     names: list[str] = []
     entries: list[tuple[int, int, float]] = []
@@ -91,7 +93,9 @@ def solve_forms(system: MnaSystem, forms: Mapping[str, SweptForm], varying: Mapp
         bmat[:, -1] = rest
     else:
         bmat = bmat[:, :-1]
-    x = _solve_points(system, bmat, varying, grid.points)
+    x = _solve_points(system, bmat, varying, grid.points) if memo is None else shared(memo[0], (
+        "points", memo[1], bmat.shape, bmat.tobytes(), grid.points, *_varying_key(system, varying)),
+        lambda: _solve_points(system, bmat, varying, grid.points))
     where: dict[str, int] = {}
     lo_parts, hi_parts = [], []
     for name in names:
@@ -127,6 +131,17 @@ def solve_forms(system: MnaSystem, forms: Mapping[str, SweptForm], varying: Mapp
     lo = np.concatenate(lo_parts) if lo_parts else np.zeros(0)
     hi = np.concatenate(hi_parts) if hi_parts else np.zeros(0)
     return DcForms(tuple(names), x, order, lo, hi, nominal, gains, grid)
+
+
+def _varying_key(system: MnaSystem, varying: Mapping[str, np.ndarray]) -> list[tuple]:
+    """The moving resistors by position and value, for the solve memo."""
+    out = []
+    for name, r in varying.items():
+        el = system.netlist.element(name)
+        if isinstance(el, Resistor):
+            r = np.asarray(r, dtype=float)
+            out.append((system.node_index(el.a), system.node_index(el.b), el.value, r.shape, r.tobytes()))
+    return out
 
 
 def _solve_points(system: MnaSystem, bmat: np.ndarray, varying: Mapping[str, np.ndarray], points: int) -> np.ndarray:

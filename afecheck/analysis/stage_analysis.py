@@ -20,10 +20,11 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
+from afecheck.analysis import solve_memo
 from afecheck.analysis.affine import SweptForm, constant_form
 from afecheck.analysis.corners import Corners, UnitGrid
 from afecheck.analysis.loop import loop_gain
-from afecheck.analysis.mna import MnaSystem, assemble, check_connectivity
+from afecheck.analysis.mna import MnaSystem
 from afecheck.analysis.netlist import (
     GROUND,
     Capacitor,
@@ -42,6 +43,7 @@ from afecheck.analysis.netlist import (
 )
 from afecheck.analysis.ranges import solve_forms
 from afecheck.analysis.results import NetSignal, SourceEquivalent, StageInput, StageResult
+from afecheck.analysis.solve_memo import numeric_key, shared, unit_system
 from afecheck.analysis.sources import Divider, boundary_source, find_dividers, rail_range
 from afecheck.errors import AnalysisError, InputError, SingularCircuitError
 from afecheck.graph.build import Circuit
@@ -232,15 +234,19 @@ def _holding_elements(circuit: Circuit, stages: list[Stage], nets: set[str], see
                     sources.forms[f"{net}#vg"] = fixed if fixed is not None else constant_form(float(vp or 0.0))
                 break
     totals = _input_loads(circuit, cache)
+    # the unit's own inputs are in its netlist already: they come out of the sums (in the same order as ever)
+    own = [(circuit.pins[ref].get(pin), ref) for ref in unit for pin in ("in+", "in-")]
+    loads: dict[str, tuple[int, float, float]] = {}
     for net in sorted(nets - set(circuit.fixed)):
         if net not in totals:
             continue
         count, g, c = totals[net]
-        for ref in unit:  # the unit's own inputs are in its netlist already: take them out of the sums
-            for pin in ("in+", "in-"):
-                if circuit.pins[ref].get(pin) == net:
-                    _, g_own, c_own = _input_load(circuit, ref)
-                    count, g, c = count - 1, g - g_own, c - c_own
+        for on, ref in own:
+            if on == net:
+                if ref not in loads:
+                    loads[ref] = _input_load(circuit, ref)
+                _, g_own, c_own = loads[ref]
+                count, g, c = count - 1, g - g_own, c - c_own
         if count > 0 and g > 0:
             extra.append(Resistor(f"{net}#inputs.r", _node(circuit, net), GROUND, 1.0 / g))
         if count > 0 and c > 0:
@@ -291,6 +297,7 @@ def analyse_unit(circuit: Circuit, plan: StagePlan, unit: tuple[str, ...],
     """
     corners = corners or Corners(circuit)
     forms = forms or {}
+    cache = cache if solve_memo.MEMOISE else None
     stages = [plan.stages[r] for r in unit]
     for s in stages:
         if not s.out or not s.in_plus or not s.in_minus:
@@ -310,7 +317,7 @@ def analyse_unit(circuit: Circuit, plan: StagePlan, unit: tuple[str, ...],
         return UnitResult(tuple(_empty_result(s, circuit, tuple(p.message for p in exc.problems)) for s in stages), ())
     if circuits is not None:
         circuits.update({r: (netlist, {i.source.net: i.branch for i in inputs}) for r in unit})
-    loop_netlist = LoopCircuit(circuit, plan, stages, done, corners, netlist)
+    loop_netlist = LoopCircuit(circuit, plan, stages, done, corners, netlist, cache)
     try:
         return _solve_unit(circuit, stages, netlist, inputs, notes, cache, corners, sources, ntcs, loop_netlist)
     except SingularCircuitError as exc:
@@ -376,7 +383,8 @@ class LoopCircuit:
     netlist when it has no neighbours). Built only when asked for; ``signature`` identifies it without building."""
 
     def __init__(self, circuit: Circuit | None, plan: StagePlan | None, stages: list[Stage],
-                 done: Mapping[str, StageResult], corners: Corners | None, netlist: Netlist) -> None:
+                 done: Mapping[str, StageResult], corners: Corners | None, netlist: Netlist,
+                 cache: dict | None = None) -> None:
         self.unit = tuple(s.opamp for s in stages)
         self._own = netlist
         self._built: Netlist | None = None
@@ -386,7 +394,7 @@ class LoopCircuit:
             near = _neighbours(circuit, plan, stages)
             if near:
                 self._group = stages + [plan.stages[r] for r in near]
-                self._args = (circuit, done, corners)
+                self._args = (circuit, done, corners, cache)
                 self.signature = _coupling_signature(circuit, self._group, done)
 
     @classmethod
@@ -400,9 +408,9 @@ class LoopCircuit:
         if not self._group:
             return self._own
         if self._built is None:
-            circuit, done, corners = self._args
-            try:
-                self._built = _unit_netlist(circuit, self._group, done, corners, {})[0]
+            circuit, done, corners, cache = self._args
+            try:  # the design cache shares the per-net input-load sums (else each build walks every op-amp)
+                self._built = _unit_netlist(circuit, self._group, done, corners, {}, cache)[0]
             except (InputError, ValueError):
                 self._built = self._own
         return self._built
@@ -467,10 +475,10 @@ def _value_key(comp) -> tuple:  # noqa: ANN001 - any component model
 def _solve_unit(circuit: Circuit, stages: list[Stage], netlist: Netlist, inputs: list[_Input],
                 notes: list[str], cache: dict | None, corners: Corners, sources: _Sources,
                 ntcs: tuple[str, ...], loop_netlist: LoopCircuit) -> UnitResult:
-    check_connectivity(netlist, dc=True)
-    system = assemble(netlist)
+    key = numeric_key(netlist) if cache is not None else None
+    system = unit_system(netlist, key, cache)
     forms, varying, grid = _unit_sources(circuit, netlist, system, corners, sources, ntcs)
-    dc = solve_forms(system, forms, varying, grid)
+    dc = solve_forms(system, forms, varying, grid, memo=None if key is None else (cache, key))
     col = {name: j for j, name in enumerate(dc.sources)}
     mid = dc.x.shape[0] // 2
     x_unit = dc.x[mid][:, [col[i.branch] for i in inputs]] if inputs else np.zeros((system.size, 0))
@@ -479,14 +487,16 @@ def _solve_unit(circuit: Circuit, stages: list[Stage], netlist: Netlist, inputs:
     wanted |= {system.index[_node(circuit, n)] for s in stages for n in s.nets if _node(circuit, n) in system.index}
     lo, hi = dc.bounds(np.array(sorted(wanted), dtype=int))
 
-    ac = _ac_amplitudes(system, inputs, system.size)
+    ac = shared(cache, key and ("ac", key, *((_excitation_key(system, i.branch), i.source.ac_amplitude,
+                                              i.source.f_max, i.source.kind) for i in inputs)),
+                lambda: _ac_amplitudes(system, inputs, system.size))
     ac_amp, fmax = ac[0], ac[1]
     idx = system.node_index
     results = []
     currents: dict[str, SweptForm] = {}
     for s in stages:
         results.append(_stage_result(circuit, s, netlist, system, inputs, x_unit, per_input, lo, hi,
-                                     ac, notes, cache, loop_netlist, corners))
+                                     ac, notes, cache, loop_netlist, corners, key))
         currents[s.opamp] = dc.form(system.branch_index(netlist.opamps[s.opamp].loop_element), -1.0)
     fixed = set(circuit.fixed)
     net_signals = []
@@ -621,7 +631,8 @@ def _band(inp: _Input) -> list[float]:
 def _stage_result(circuit: Circuit, s: Stage, netlist: Netlist, system: MnaSystem, inputs: list[_Input],
                   x_unit: np.ndarray, per_input: list[np.ndarray], lo: np.ndarray,
                   hi: np.ndarray, ac: AcResult, notes: list[str], cache: dict | None = None,
-                  loop_netlist: LoopCircuit | None = None, corners: Corners | None = None) -> StageResult:
+                  loop_netlist: LoopCircuit | None = None, corners: Corners | None = None,
+                  key: tuple | None = None) -> StageResult:
     """Fill one op-amp's StageResult from the unit's DC solutions, AC amplitudes and its own loop gain."""
     ac_amp, fmax, ac_mid, ac_peak = ac
     corners = corners or Corners(circuit)
@@ -694,11 +705,8 @@ def _stage_result(circuit: Circuit, s: Stage, netlist: Netlist, system: MnaSyste
 
     rout = None
     if out >= 0 and fb == "negative":
-        rhs = np.zeros(system.size)
-        rhs[out] = 1.0
-        zero_g = system.g
         try:
-            rout = float(abs(np.linalg.solve(zero_g, rhs)[out]))
+            rout = shared(cache, key and ("rout", key, out), lambda: _output_resistance(system, out))
         except np.linalg.LinAlgError:
             reasons.append("closed-loop output resistance: singular circuit")
 
@@ -727,6 +735,21 @@ def _stage_result(circuit: Circuit, s: Stage, netlist: Netlist, system: MnaSyste
         rail_plus=vp, rail_minus=vm, assumed=tuple(op.assumed), estimated="second_pole" in op.assumed,
         not_evaluated=tuple(reasons),
     )
+
+
+def _output_resistance(system: MnaSystem, out: int) -> float:
+    """|v(out)| for 1 A into the output node with every source zeroed: the closed-loop output resistance."""
+    rhs = np.zeros(system.size)
+    rhs[out] = 1.0
+    return float(abs(np.linalg.solve(system.g, rhs)[out]))
+
+
+def _excitation_key(system: MnaSystem, name: str) -> tuple[int, ...]:
+    """Where :func:`unit_excitation` puts a source's unit, by row: its branch, or a current source's two nodes."""
+    e = system.netlist.element(name)
+    if isinstance(e, CurrentSource):
+        return (system.node_index(e.pos), system.node_index(e.neg))
+    return (system.branch_index(name),)
 
 
 def _common_mode(circuit: Circuit, s: Stage, inp_i: int, lo: np.ndarray, hi: np.ndarray,

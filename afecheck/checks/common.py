@@ -64,8 +64,11 @@ def print_tolerance(limit: float, digits: int = 3) -> float:
 
 def noise_floor(*quantities: float) -> float:
     """Round-off scale of a comparison: NUMERIC_TOLERANCE times the largest magnitude among ``quantities``."""
-    finite = [abs(q) for q in quantities if math.isfinite(q)]
-    return NUMERIC_TOLERANCE * max(finite, default=0.0)
+    largest = 0.0
+    for q in quantities:  # a plain loop: this runs a dozen times per stage and rule
+        if math.isfinite(q) and abs(q) > largest:
+            largest = abs(q)
+    return NUMERIC_TOLERANCE * largest
 
 
 def grade_above(value: float, warn: float, err: float) -> Severity | None:

@@ -18,16 +18,24 @@ META = RuleMeta(
 )
 
 
+_KEYED = ("rails", "signals", "loads", "budgets", "components")  # sections whose second key is an instance name
+
+
 def unchecked_paths(ctx: Context) -> list[tuple[str | int, ...]]:
     """Key paths the user declared (design, intent, own part models) whose registered consumer is UNCHECKED."""
     loaded = ctx.loaded
     d = loaded.design
     found: list[tuple[str | int, ...]] = []
+    verdicts: dict[tuple, bool] = {}  # by the path with its instance key (net, refdes) replaced by the kind
     for path in declared_fields(d):
         if path[0] == "parts":
             continue  # walked below, once per part the design uses
         kind = d.components[path[1]].kind if path[0] == "components" and len(path) > 2 else None
-        if consumer(pattern_of(path, kind)) is UNCHECKED:
+        shape = (path[0], kind, path[2:]) if len(path) > 2 and path[0] in _KEYED else path
+        unchecked = verdicts.get(shape)
+        if unchecked is None:
+            unchecked = verdicts[shape] = consumer(pattern_of(path, kind)) is UNCHECKED
+        if unchecked:
             found.append(path)
     used = sorted({c.part for c in d.components.values() if c.kind == "opamp"})  # type: ignore[union-attr]
     for name in used:

@@ -154,15 +154,27 @@ def consumer(pattern: str) -> str | None:
 
 def declared_fields(data: Any, path: tuple[str | int, ...] = ()) -> Iterator[tuple[str | int, ...]]:
     """Key path of every field explicitly set in a validated model (and the models inside it), depth first."""
+    found: list[tuple[str | int, ...]] = []
+    _walk(data, path, found)
+    yield from found
+
+
+_LEAVES = (str, int, float, bool, type(None))
+
+
+def _walk(data: Any, path: tuple[str | int, ...], found: list[tuple[str | int, ...]]) -> None:
+    """Append the declared key paths under ``data`` to ``found`` (one call per node, no generator chain)."""
+    if isinstance(data, _LEAVES):
+        return
     fields = getattr(data, "model_fields_set", None)
     if fields is not None:
         for name in sorted(fields):
             sub = (*path, name)
-            yield sub
-            yield from declared_fields(getattr(data, name), sub)
+            found.append(sub)
+            _walk(getattr(data, name), sub, found)
     elif isinstance(data, dict):
         for key, value in data.items():
-            yield from declared_fields(value, (*path, str(key)))
+            _walk(value, (*path, str(key)), found)
     elif isinstance(data, (tuple, list)):
         for i, value in enumerate(data):
-            yield from declared_fields(value, (*path, i))
+            _walk(value, (*path, i), found)

@@ -110,6 +110,15 @@ def _fixed_nets(loaded: LoadedDesign, ground: str) -> dict[str, float | None]:
     return fixed
 
 
+def circuit_of(loaded: LoadedDesign) -> Circuit:
+    """The :class:`Circuit` of ``loaded``, built once per loaded design and shared by the analysis and the rules
+    (both are immutable, so sharing changes nothing but the time)."""
+    circuit = loaded.__dict__.get("_circuit")
+    if circuit is None:
+        circuit = loaded.__dict__["_circuit"] = build_circuit(loaded)
+    return circuit
+
+
 def build_circuit(loaded: LoadedDesign) -> Circuit:
     """Make the :class:`Circuit` of ``loaded``: every pin on its net, fixed nets, signal nets, op-amp outputs."""
     d = loaded.design

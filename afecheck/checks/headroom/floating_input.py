@@ -21,10 +21,10 @@ META = RuleMeta(
 
 def check(ctx: Context) -> Iterator[Finding]:
     """Each in+/in- net that reaches no fixed, signal or output net through resistors (capacitors open)."""
-    from afecheck.graph.build import build_circuit
+    from afecheck.graph.build import circuit_of
     from afecheck.graph.queries import has_dc_path
 
-    circuit = ctx.memo("circuit", lambda: build_circuit(ctx.loaded))
+    circuit = ctx.memo("circuit", lambda: circuit_of(ctx.loaded))
     for stage in ctx.stages:
         for pin, net in (("in+", stage.in_plus), ("in-", stage.in_minus)):
             if not net or has_dc_path(circuit, net):
