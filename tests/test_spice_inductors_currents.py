@@ -9,6 +9,7 @@ test_spice_import_vs_ngspice.py), so both simulate the same circuit.
 from __future__ import annotations
 
 import math
+import re
 import textwrap
 from pathlib import Path
 
@@ -195,3 +196,38 @@ def test_the_map_gives_an_inductor_its_winding_resistance_and_the_intent_a_senso
     assert dc.voltage("a") == pytest.approx(5.0 * 100 / 125, rel=1e-12)
     assert dc.voltage("pd") == pytest.approx(1.0, rel=1e-12)
     assert loaded.position("signals", "pd")[1] == 5  # the I card's line
+
+
+def test_convert_writes_inductors_and_current_signals_that_read_back_the_same(tmp_path: Path) -> None:
+    import io
+
+    from spice_roundtrip import RoundTrip, compare
+
+    deck = _deck("tia")
+    loaded = _load(tmp_path, deck)
+    out = tmp_path / "converted.yaml"
+    err = io.StringIO()
+    assert main(["convert", str(tmp_path / "deck.cir"), "--map", str(tmp_path / "map.yaml"), "--parts",
+                 str(tmp_path / "parts.yaml"), "-o", str(out)], io.StringIO(), err) == 0, err.getvalue()
+    text = out.read_text(encoding="utf-8")
+    assert "kind: inductor" in text and "kind: current" in text
+    back = load_design(out, libraries=(tmp_path / "parts.yaml",))
+    assert back.design.components["Lload"].value == pytest.approx(0.5e-3, rel=1e-12)
+    assert compare(RoundTrip(loaded, back, {}, "")) == []  # same stages and findings, numbers to 1e-9
+
+
+def test_nothing_after_loading_knows_which_reader_ran() -> None:
+    # the netlist reader is one of the loader's readers: no analysis, graph, rule, engine, policy or report module
+    # imports it, so a netlist design takes the one path a YAML design takes
+    root = Path(__file__).resolve().parents[1] / "afecheck"
+    imports = re.compile(r"^\s*(from\s+afecheck\.model(\.(spice_\w+|netlist_map))?\s+import\s+[^\n]*"
+                         r"|import\s+afecheck\.model\.(spice_\w+|netlist_map))", re.M)
+    readers = ("spice_reader", "spice_cards", "spice_values", "netlist_map")
+    seen = 0
+    for folder in ("analysis", "graph", "checks", "engine", "policy", "report", "sensors"):
+        for module in (root / folder).rglob("*.py"):
+            seen += 1
+            for m in imports.finditer(module.read_text(encoding="utf-8")):
+                assert not any(r in m.group(0) for r in readers), (module, m.group(0))
+    assert seen > 50
+    assert imports.search("from afecheck.model.spice_reader import is_netlist")  # the pattern does catch one
