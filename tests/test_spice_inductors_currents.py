@@ -231,3 +231,33 @@ def test_nothing_after_loading_knows_which_reader_ran() -> None:
                 assert not any(r in m.group(0) for r in readers), (module, m.group(0))
     assert seen > 50
     assert imports.search("from afecheck.model.spice_reader import is_netlist")  # the pattern does catch one
+
+
+def test_an_inductors_winding_resistance_adds_its_johnson_noise(tmp_path: Path) -> None:
+    # well below ωL = R, an inductor with winding resistance R is that resistor: the same thermal noise at the
+    # output (Johnson 1928; Nyquist 1928: √(4kTR) in series with the element)
+    from afecheck.analysis.noise import analyse_noise
+
+    base = textwrap.dedent("""\
+        afecheck: 1
+        name: gain stage
+        ground: GND
+        rails:
+          VCC: {voltage: 5 V}
+          VEE: {voltage: -5 V}
+        signals:
+          IN: {dc: [0 V, 0.1 V], band: [1 Hz, 100 Hz]}
+        components:
+          U1: {kind: opamp, part: AFE-GP1, pins: {in+: IN, in-: FB, out: OUT, v+: VCC, v-: VEE}}
+          R2: {kind: resistor, value: 90k, pins: {1: OUT, 2: FB}}
+        """)
+    as_resistor = base + "  R1: {kind: resistor, value: 10k, pins: {1: FB, 2: GND}}\n"
+    as_inductor = base + "  L1: {kind: inductor, value: 1 nH, series_resistance: 10k, pins: {1: FB, 2: GND}}\n"
+    noise = {}
+    for name, text in (("r", as_resistor), ("l", as_inductor)):
+        (tmp_path / f"{name}.yaml").write_text(text, encoding="utf-8")
+        noise[name] = analyse_noise(load_design(tmp_path / f"{name}.yaml"), ["OUT"]).nets["OUT"]
+    assert noise["l"].output_rms == pytest.approx(noise["r"].output_rms, rel=1e-9)
+    share = {c.name: c.output_rms for c in noise["l"].contributors}
+    assert share["L1 winding thermal"] == pytest.approx({c.name: c.output_rms for c in noise["r"].contributors}
+                                                        ["R1 thermal"], rel=1e-9)
