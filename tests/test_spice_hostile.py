@@ -16,9 +16,9 @@ BASE = "hostile test\nV1 vcc 0 5\nR1 a 0 1k\nR2 a vcc 1k\n"
 
 def check(path: Path, *extra: str) -> tuple[int, str, float]:
     out, err = io.StringIO(), io.StringIO()
-    start = time.perf_counter()
+    start = time.process_time()  # CPU time: a loaded machine must not fail a sound refusal
     code = main(["check", str(path), *extra], out, err)
-    return code, err.getvalue(), time.perf_counter() - start
+    return code, err.getvalue(), time.process_time() - start
 
 
 def write(tmp_path: Path, text: str, name: str = "board.cir") -> Path:
