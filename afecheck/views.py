@@ -32,6 +32,9 @@ if TYPE_CHECKING:
     from afecheck.engine.context import Context
 
 Detail = Literal["none", "stages", "curves"]
+BUDGET_STAGES = 40
+"""Stages (in order) whose nets get noise and DC-error panels: a page of thousands of channels keeps its other
+numbers without a worksheet per channel (``afecheck stages`` gives every net's)."""
 
 
 def analyse_for_views(loaded: LoadedDesign, detail: Detail) -> tuple[DesignAnalysis | None, dict[str, StageCurves]]:
@@ -61,7 +64,8 @@ def stage_views(loaded: LoadedDesign, analysis: DesignAnalysis, curves: Mapping[
     ctx.memo("analysis", lambda: analysis)
     pm = _limits(phase_margin.META, params, rules_run, "warn_deg", "error_deg")
     gm = _limits(gain_margin.META, params, rules_run, "warn_db", "error_db")
-    panels = _budget_panels(loaded, analysis) if budgets else {}
+    panels = _budget_panels(loaded, analysis, BUDGET_STAGES) if budgets else {}
+    skipped = {s.opamp for s in analysis.stages[BUDGET_STAGES:]} if budgets else set()
     views = []
     for s in analysis.stages:
         c = (curves or {}).get(s.opamp)
@@ -79,7 +83,8 @@ def stage_views(loaded: LoadedDesign, analysis: DesignAnalysis, curves: Mapping[
             loop_gain=_trace(c.loop_gain if c else None), noise_gain=_trace(c.noise_gain if c else None),
             open_loop=_trace(c.open_loop if c else None),
             closed_loop=tuple(t for t in (_trace(r) for r in (c.closed_loop if c else ())) if t is not None),
-            band_hz=c.band_hz if c else None, budgets=panels.get(s.opamp, ()), estimated=s.estimated, assumed=s.assumed,
+            band_hz=c.band_hz if c else None, budgets=panels.get(s.opamp, ()),
+            budgets_skipped=s.opamp in skipped, estimated=s.estimated, assumed=s.assumed,
             not_evaluated=s.not_evaluated + (c.not_evaluated if c else ()),
         ))
     return tuple(views)
@@ -138,9 +143,10 @@ def _trace(r: Response | None) -> Trace | None:
     return Trace(label=r.label, freqs_hz=r.freqs_hz, magnitude_db=r.magnitude_db, phase_deg=r.phase_deg)
 
 
-def _budget_panels(loaded: LoadedDesign, analysis: DesignAnalysis) -> dict[str, tuple[NetBudget, ...]]:
+def _budget_panels(loaded: LoadedDesign, analysis: DesignAnalysis, limit: int) -> dict[str, tuple[NetBudget, ...]]:
     """Noise and DC error at the worksheet's nets, each net under the stage that drives it: its own output, or
-    for a loaded or budgeted net after the last stage, the last stage of the same channel."""
+    for a loaded or budgeted net after the last stage, the last stage of the same channel; for the first
+    ``limit`` stages only."""
     from afecheck.analysis.channel import find_channels
     from afecheck.analysis.dc_error import analyse_dc_error
     from afecheck.analysis.noise import analyse_noise
@@ -160,7 +166,8 @@ def _budget_panels(loaded: LoadedDesign, analysis: DesignAnalysis) -> dict[str, 
     for net in nets:
         if net not in owner and net in channels and id(channels[net]) in last_in_channel:
             owner[net] = last_in_channel[id(channels[net])]
-    wanted = [n for n in nets if n in owner]
+    first = {s.opamp for s in analysis.stages[:limit]}
+    wanted = [n for n in nets if owner.get(n) in first]
     noise, dc = analyse_noise(loaded, wanted), analyse_dc_error(loaded, wanted)
     budgets = loaded.design.budgets
     out: dict[str, list[NetBudget]] = {}

@@ -120,7 +120,7 @@ def test_noise_and_dc_error_panels_render_and_print_within_the_page(browser: Bro
     assert page.console_errors() == []
     noise = page.evaluate("Array.from(document.querySelectorAll('figure[id$=\"-noise\"] svg.plot')).map(s => {"
                           "const r = s.getBoundingClientRect(); return [r.width, r.height];})")
-    assert len(noise) == 6 and all(w > 100 and h > 50 for w, h in noise), noise
+    assert len(noise) == 3 and all(w > 100 and h > 50 for w, h in noise), noise
     tables = page.evaluate("Array.from(document.querySelectorAll('div.budget table.worksheet')).map(t => "
                            "[t.getBoundingClientRect().width, t.rows.length])")
     assert len(tables) >= 18 and all(w > 100 and rows > 1 for w, rows in tables), tables

@@ -35,8 +35,10 @@ def test_each_stage_card_has_noise_and_dc_error_panels_for_the_nets_it_drives(pa
     for sid, nets in PANELS.items():
         card = _card(page, sid)
         assert re.findall(r"Noise and DC error at <code>([^<]+)</code>", card) == list(nets)
-        for k in range(1, len(nets) + 1):
-            assert f'<figure id="{sid}-net{k}-noise">' in card and f'id="{sid}-net{k}-noise-caption"' in card
+        # one density plot per stage, at the budgeted converter input; the output keeps its numbers and table
+        assert f'<figure id="{sid}-net2-noise">' in card and f'id="{sid}-net2-noise-caption"' in card
+        assert f'<figure id="{sid}-net1-noise">' not in card
+        assert card.count("<caption class=\"meta\">Noise contributors at") == 2
 
 
 
@@ -97,6 +99,15 @@ def test_panels_keep_headings_in_order_and_ids_unique(page: str) -> None:
 
 def test_panels_are_byte_identical_across_runs(page: str) -> None:
     assert html_of(DAQ) == page
+
+
+def test_panels_stop_after_the_stage_limit(monkeypatch: pytest.MonkeyPatch) -> None:
+    from afecheck import views
+
+    monkeypatch.setattr(views, "BUDGET_STAGES", 1)
+    text = html_of(DAQ)
+    assert "Noise and DC error at <code>ADC_A</code>" in text and "Noise and DC error at <code>ADC_B</code>" not in text
+    assert text.count("Noise and DC-error panels are given for the first stages") == 2
 
 
 def test_a_net_without_a_band_says_why_instead_of_a_panel(tmp_path: Path) -> None:

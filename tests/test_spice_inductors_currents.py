@@ -9,6 +9,7 @@ test_spice_import_vs_ngspice.py), so both simulate the same circuit.
 from __future__ import annotations
 
 import math
+import re
 import textwrap
 from pathlib import Path
 
@@ -195,3 +196,68 @@ def test_the_map_gives_an_inductor_its_winding_resistance_and_the_intent_a_senso
     assert dc.voltage("a") == pytest.approx(5.0 * 100 / 125, rel=1e-12)
     assert dc.voltage("pd") == pytest.approx(1.0, rel=1e-12)
     assert loaded.position("signals", "pd")[1] == 5  # the I card's line
+
+
+def test_convert_writes_inductors_and_current_signals_that_read_back_the_same(tmp_path: Path) -> None:
+    import io
+
+    from spice_roundtrip import RoundTrip, compare
+
+    deck = _deck("tia")
+    loaded = _load(tmp_path, deck)
+    out = tmp_path / "converted.yaml"
+    err = io.StringIO()
+    assert main(["convert", str(tmp_path / "deck.cir"), "--map", str(tmp_path / "map.yaml"), "--parts",
+                 str(tmp_path / "parts.yaml"), "-o", str(out)], io.StringIO(), err) == 0, err.getvalue()
+    text = out.read_text(encoding="utf-8")
+    assert "kind: inductor" in text and "kind: current" in text
+    back = load_design(out, libraries=(tmp_path / "parts.yaml",))
+    assert back.design.components["Lload"].value == pytest.approx(0.5e-3, rel=1e-12)
+    assert compare(RoundTrip(loaded, back, {}, "")) == []  # same stages and findings, numbers to 1e-9
+
+
+def test_nothing_after_loading_knows_which_reader_ran() -> None:
+    # the netlist reader is one of the loader's readers: no analysis, graph, rule, engine, policy or report module
+    # imports it, so a netlist design takes the one path a YAML design takes
+    root = Path(__file__).resolve().parents[1] / "afecheck"
+    imports = re.compile(r"^\s*(from\s+afecheck\.model(\.(spice_\w+|netlist_map))?\s+import\s+[^\n]*"
+                         r"|import\s+afecheck\.model\.(spice_\w+|netlist_map))", re.M)
+    readers = ("spice_reader", "spice_cards", "spice_values", "netlist_map")
+    seen = 0
+    for folder in ("analysis", "graph", "checks", "engine", "policy", "report", "sensors"):
+        for module in (root / folder).rglob("*.py"):
+            seen += 1
+            for m in imports.finditer(module.read_text(encoding="utf-8")):
+                assert not any(r in m.group(0) for r in readers), (module, m.group(0))
+    assert seen > 50
+    assert imports.search("from afecheck.model.spice_reader import is_netlist")  # the pattern does catch one
+
+
+def test_an_inductors_winding_resistance_adds_its_johnson_noise(tmp_path: Path) -> None:
+    # well below ωL = R, an inductor with winding resistance R is that resistor: the same thermal noise at the
+    # output (Johnson 1928; Nyquist 1928: √(4kTR) in series with the element)
+    from afecheck.analysis.noise import analyse_noise
+
+    base = textwrap.dedent("""\
+        afecheck: 1
+        name: gain stage
+        ground: GND
+        rails:
+          VCC: {voltage: 5 V}
+          VEE: {voltage: -5 V}
+        signals:
+          IN: {dc: [0 V, 0.1 V], band: [1 Hz, 100 Hz]}
+        components:
+          U1: {kind: opamp, part: AFE-GP1, pins: {in+: IN, in-: FB, out: OUT, v+: VCC, v-: VEE}}
+          R2: {kind: resistor, value: 90k, pins: {1: OUT, 2: FB}}
+        """)
+    as_resistor = base + "  R1: {kind: resistor, value: 10k, pins: {1: FB, 2: GND}}\n"
+    as_inductor = base + "  L1: {kind: inductor, value: 1 nH, series_resistance: 10k, pins: {1: FB, 2: GND}}\n"
+    noise = {}
+    for name, text in (("r", as_resistor), ("l", as_inductor)):
+        (tmp_path / f"{name}.yaml").write_text(text, encoding="utf-8")
+        noise[name] = analyse_noise(load_design(tmp_path / f"{name}.yaml"), ["OUT"]).nets["OUT"]
+    assert noise["l"].output_rms == pytest.approx(noise["r"].output_rms, rel=1e-9)
+    share = {c.name: c.output_rms for c in noise["l"].contributors}
+    assert share["L1 winding thermal"] == pytest.approx({c.name: c.output_rms for c in noise["r"].contributors}
+                                                        ["R1 thermal"], rel=1e-9)

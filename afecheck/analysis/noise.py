@@ -29,7 +29,7 @@ import numpy as np
 from afecheck.analysis.channel import Channel, channel_netlist, per_channel
 from afecheck.analysis.measurands import sensor_noise_kelvin
 from afecheck.analysis.mna import check_connectivity, system_of
-from afecheck.analysis.netlist import GROUND, ZERO_C_K, OpAmpCore, Resistor
+from afecheck.analysis.netlist import GROUND, ZERO_C_K, Inductor, OpAmpCore, Resistor
 from afecheck.errors import AnalysisError, InputError, SingularCircuitError
 from afecheck.model.loaded import LoadedDesign
 
@@ -54,6 +54,8 @@ class NoiseSource:
     node_b: str = GROUND
     core: str | None = None
     """for op-amp voltage noise: the core element whose + input it sits in series with"""
+    branch: str | None = None
+    """for an inductor's winding resistance: the branch whose voltage law it sits in (a series voltage, V²/Hz)"""
 
     def power(self, f: np.ndarray) -> np.ndarray:
         """Density at each frequency, white·(1 + fc/f)."""
@@ -159,6 +161,10 @@ def _sources(loaded: LoadedDesign, netlist, temperature_k: float) -> tuple[list[
             label = e.name if e.name == ref else f"{ref} {_ROLE.get(e.name.split('#', 1)[1], 'resistance')}"
             out.append(NoiseSource(f"{label} thermal", "resistor", refs, 4 * BOLTZMANN * t_k / e.value, 0.0,
                                    e.a, e.b))
+        elif isinstance(e, Inductor) and e.series_resistance > 0:
+            refs = (e.name,) if e.name in d.components else ()
+            out.append(NoiseSource(f"{e.name} winding thermal", "resistor", refs,
+                                   4 * BOLTZMANN * temperature_k * e.series_resistance, 0.0, e.a, e.b, branch=e.name))
     for ref, op in netlist.opamps.items():
         model = loaded.part(ref)
         values = {}
@@ -216,6 +222,8 @@ def channel_noise(loaded: LoadedDesign, channel: Channel, nets: Iterable[str],
             core = netlist.element(src.core)
             assert isinstance(core, OpAmpCore)
             h = z[:, system.branch_index(src.core), :] * core.gain(f)[:, None]
+        elif src.branch is not None:
+            h = z[:, system.branch_index(src.branch), :]
         else:
             a, b = system.node_index(src.node_a), system.node_index(src.node_b)
             h = (z[:, a, :] if a >= 0 else 0.0) - (z[:, b, :] if b >= 0 else 0.0)

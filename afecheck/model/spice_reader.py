@@ -74,6 +74,18 @@ class _Subckt:
         return top.get(name.lower())
 
 
+@dataclass(frozen=True)
+class _Source:
+    """An independent source card read: its tokens, DC value, AC magnitude, SIN (offset, amplitude, frequency)."""
+
+    toks: list[Token]
+    dc: float
+    ac: float
+    sine: tuple[float, float, float] | None
+    pos: str
+    neg: str
+
+
 @dataclass
 class _Instance:
     """Where flattening stands: name prefix, port -> outer net, parameter scope, definitions in reach, depth."""
@@ -305,15 +317,22 @@ class NetlistReader:
         self.at(path + ("pins", "1"), args[0])
         self.at(path + ("pins", "2"), args[1])
 
-    def vsource(self, card: Card, scope: _Instance) -> None:
+    def source(self, card: Card, scope: _Instance) -> _Source | None:
+        """An independent source card's values and nets (None, with the problem noted, when it has no nodes)."""
         toks = list(card.tokens)
         if len(toks) < 3:
             self.problem(toks[0], f"{toks[0].text}: expected NAME NODE+ NODE- [DC value] [AC mag] [SIN(...)]")
-            return
+            return None
         dc, ac, sine, notes = source_spec(toks, scope.params)
         for text in notes:
             self.note(text)
-        pos, neg = self.net(toks[1], scope), self.net(toks[2], scope)
+        return _Source(toks, dc, ac, sine, self.net(toks[1], scope), self.net(toks[2], scope))
+
+    def vsource(self, card: Card, scope: _Instance) -> None:
+        src = self.source(card, scope)
+        if src is None:
+            return
+        toks, dc, ac, sine, pos, neg = src.toks, src.dc, src.ac, src.sine, src.pos, src.neg
         name = toks[0]
         refine = self.map.components.get(self._full(scope, name.text).lower())
         keep = refine is not None and refine[1].fields.get("kind") in ("vsource", "signal_source")
@@ -365,15 +384,11 @@ class NetlistReader:
         """A current source with one node on ground: a ``current`` signal on the other net (DC value as its
         range, AC magnitude or SIN amplitude as ``ac_current``, SIN frequency as its band); DC only, it is a bias
         current (a current signal with no AC part). SPICE's current flows from n+ through the source to n-."""
-        toks = list(card.tokens)
-        if len(toks) < 3:
-            self.problem(toks[0], f"{toks[0].text}: expected NAME NODE+ NODE- [DC value] [AC mag] [SIN(...)]")
+        src = self.source(card, scope)
+        if src is None:
             return
-        dc, ac, sine, notes = source_spec(toks, scope.params)
-        for text in notes:
-            self.note(text)
-        pos, neg = self.net(toks[1], scope), self.net(toks[2], scope)
-        name = toks[0]
+        dc, ac, sine, pos, neg = src.dc, src.ac, src.sine, src.pos, src.neg
+        name = src.toks[0]
         if pos == neg:
             self.problem(name, f"{name.text}: both nodes are {pos!r}: the source is shorted")
             return

@@ -254,6 +254,8 @@ class StageView:
     closed_loop: tuple[Trace, ...] = ()
     band_hz: tuple[float, float] | None = None
     budgets: tuple[NetBudget, ...] = ()
+    budgets_skipped: bool = False
+    """True when the page left this stage's noise and DC-error panels out (beyond its stage limit)"""
     estimated: bool = False
     assumed: tuple[str, ...] = ()
     not_evaluated: tuple[str, ...] = ()

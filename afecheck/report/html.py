@@ -213,7 +213,8 @@ def _stage(v: StageView, sid: str, findings: list[dict[str, Any]], plots: Any) -
     if v.assumed:
         rows.append(("assumed part defaults", ", ".join(v.assumed)))
     figures: list[dict[str, Any]] = []
-    budgets = [_budget(b, f"{sid}-net{k}", plots) for k, b in enumerate(v.budgets, 1)]
+    drawn = _plotted_net(v)
+    budgets = [_budget(b, f"{sid}-net{k}", plots if b.net == drawn else None) for k, b in enumerate(v.budgets, 1)]
     if plots is None:
         return {"id": sid, "view": v, "rows": rows, "figures": figures, "findings": findings,
                 "parts": ", ".join((v.opamp, *v.refs)), "unplotted": True, "budgets": budgets}
@@ -280,6 +281,14 @@ def _budget(b: NetBudget, bid: str, plots: Any) -> dict[str, Any]:
     if b.dc_error is not None:
         out["dc"] = _dc_tables(b.dc_error)
     return out
+
+
+def _plotted_net(v: StageView) -> str | None:
+    """The one net of a stage whose noise density is drawn: the last one with a budget, else the last one with
+    noise (the others keep their numbers and contributor table; the curves at a stage's nets differ little)."""
+    noisy = [b for b in v.budgets if b.noise is not None]
+    budgeted = [b for b in noisy if b.noise is not None and b.noise.budget is not None]
+    return (budgeted or noisy)[-1].net if noisy else None
 
 
 def _noise_summary(n: NoisePanel) -> str:
