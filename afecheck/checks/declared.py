@@ -29,6 +29,9 @@ def unchecked_paths(ctx: Context) -> list[tuple[str | int, ...]]:
         kind = d.components[path[1]].kind if path[0] == "components" and len(path) > 2 else None
         if consumer(pattern_of(path, kind)) is UNCHECKED:
             found.append(path)
+    for ref, comp in loaded.sensors.items():  # thermocouples and bridges as declared, before they became parts
+        found += [p for p in declared_fields(comp, ("components", ref))
+                  if consumer(pattern_of(p, comp.kind)) is UNCHECKED]
     used = sorted({c.part for c in d.components.values() if c.kind == "opamp"})  # type: ignore[union-attr]
     for name in used:
         if name not in loaded.parts or loaded.part_origins.get(name, "").startswith("built-in"):

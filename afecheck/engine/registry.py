@@ -17,6 +17,7 @@ from typing import Any
 from afecheck.checks import coverage, declared
 from afecheck.checks.adc import anti_alias, kickback, range_fill, settling
 from afecheck.checks.budgets import drift_over_budget, gain_error_over_budget, noise_over_budget, offset_over_budget
+from afecheck.checks.dc_accuracy import sensor_self_heating
 from afecheck.checks.distortion import (
     class2_ceramic,
     common_mode_swing,
@@ -54,6 +55,7 @@ _BUILTIN_MODULES: tuple[ModuleType, ...] = (
     noise_over_budget, offset_over_budget, gain_error_over_budget, drift_over_budget,
     range_fill, anti_alias, settling, kickback,
     supply_range, input_current, capacitive_load,
+    sensor_self_heating,
 )
 
 BUILTIN_RULES: tuple[Rule, ...] = tuple(Rule(m.META, m.check) for m in _BUILTIN_MODULES)
