@@ -11,6 +11,7 @@ from __future__ import annotations
 from pathlib import Path
 
 import pytest
+from ngspice_harness import needs_ngspice, parse_print, run_ngspice
 
 from afecheck.api import check_file
 from afecheck.model.load import load_design
@@ -118,3 +119,36 @@ def test_no_class_or_tolerance_is_not_evaluated_with_the_rise_stated(tmp_path: P
                    "pins: {1: RTD, 2: GND}}\n", "loads:\n  RTD: {resistance: 1T}\n")
     (f,) = [f for f in check_file(path).findings if f.rule == RULE]
     assert f.confidence == "not-evaluated" and "0.0871 °C" in f.message  # 174.2 µW / 2 mW/K
+
+
+def _corner_deck(corners: list[tuple[float, float]], r_sensor: float) -> str:
+    """The sensor's network, written by hand, one copy per (VCC, VNEG) corner; the sensor current is read from a
+    0 V source in series with it."""
+    lines = ["* sensor between two rails through a resistor network, one copy per rail corner"]
+    for i, (vp, vn) in enumerate(corners):
+        lines += [f"VP{i} p{i} 0 {vp!r}", f"VN{i} n{i} 0 {vn!r}", f"R1_{i} p{i} t{i} 2k", f"R3_{i} t{i} n{i} 3k",
+                  f"VS{i} t{i} s{i} 0", f"RS{i} s{i} m{i} {r_sensor!r}", f"R2_{i} m{i} 0 1k", f"R4_{i} m{i} p{i} 10k"]
+    prints = " ".join(f"i(vs{i})" for i in range(len(corners)))
+    return "\n".join(lines) + f"\n.control\nset numdgt=15\nop\nprint {prints}\nquit 0\n.endc\n.end\n"
+
+
+@pytest.mark.ngspice
+@needs_ngspice
+def test_worst_corner_current_matches_ngspice_over_every_rail_corner(tmp_path: Path) -> None:
+    # a Pt1000 at 100 °C (1385.055 Ω, IEC 60751) fed from +5 V ± 5 % and -5 V ± 2 % through a resistor network:
+    # the method's exact worst case must equal the largest current of the four rail corners ngspice solves
+    path = _design(tmp_path, "  VCC: {voltage: 5 V, tolerance: 5%}\n  VNEG: {voltage: -5 V, tolerance: 2%}\n",
+                   "  R1: {kind: resistor, value: 2k, pins: {1: VCC, 2: T}}\n"
+                   "  R3: {kind: resistor, value: 3k, pins: {1: T, 2: VNEG}}\n"
+                   "  RT1: {kind: rtd, r0: 1000, temperature: [100 °C, 100 °C], class: A, dissipation: 1 mW/K, "
+                   "pins: {1: T, 2: M}}\n"
+                   "  R2: {kind: resistor, value: 1k, pins: {1: M, 2: GND}}\n"
+                   "  R4: {kind: resistor, value: 10k, pins: {1: M, 2: VCC}}\n",
+                   "loads:\n  T: {resistance: 1T}\n  M: {resistance: 1T}\n")
+    h = self_heating(load_design(path), "RT1")
+    corners = [(vp, vn) for vp in (4.75, 5.25) for vn in (-4.9, -5.1)]
+    text, _ = run_ngspice(_corner_deck(corners, _cvd(1000.0, 100.0)), tmp_path)
+    currents = [abs(v) for v in parse_print(text).values()]
+    assert len(currents) == 4
+    assert abs(h.current_a) == pytest.approx(max(currents), rel=1e-6)
+    assert h.power_w == pytest.approx(max(currents) ** 2 * _cvd(1000.0, 100.0), rel=2e-6)
