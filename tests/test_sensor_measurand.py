@@ -105,6 +105,19 @@ def test_bridge_without_a_unit_is_stated_in_percent_of_full_scale(tmp_path: Path
     assert scale.slope_v_per_unit == pytest.approx(2.5 / 2.0 * 2e-3 / 100.0, rel=1e-9)
 
 
+def test_quarter_bridge_strain_slope_is_smallest_at_full_scale_in_microstrain(tmp_path: Path) -> None:
+    parts = ("  SG1: {kind: bridge, arrangement: quarter, resistance: 350, sensitivity: 0.5 mV/V,\n"
+             "        measurand: [0, 1000], unit: µε, span: 1000, pins: {exc+: VREF, exc-: GND, out+: SP, out-: SN}}\n")
+    scale = net_scale(load_design(_design(tmp_path, parts, "loads:\n  SP: {}\n  SN: {}\n")), "SP")
+    assert scale is not None and scale.measurand.unit == "µε"
+    # quarter bridge: out+ = V·R(1+x)/(R + R(1+x)) (Kirchhoff), d/dx = V/(2+x)², falling with x: smallest at full
+    # scale, where 0.5 mV/V of V·x/(4+2x) needs x = 4s/(1−2s)
+    s = 0.5e-3
+    x_fs = 4 * s / (1 - 2 * s)
+    assert scale.at == 1000.0
+    assert scale.slope_v_per_unit == pytest.approx(2.5 / (2 + x_fs) ** 2 * x_fs / 1000.0, rel=1e-6)
+
+
 def test_two_sensors_in_one_channel_give_no_single_measurand(tmp_path: Path) -> None:
     parts = PT100 + "  RT2: {kind: ntc, r25: 10k, beta: 3950 K, temperature: [0 °C, 50 °C], pins: {1: RTD, 2: GND}}\n"
     assert net_scale(load_design(_design(tmp_path, parts)), "OUT") is None
@@ -157,7 +170,7 @@ def test_budget_findings_on_a_plain_voltage_channel_carry_no_measurand(tmp_path:
     path.write_text("afecheck: 1\nname: plain\nrails:\n  VCC: {voltage: 5 V}\n  VEE: {voltage: -5 V}\n" + text,
                     encoding="utf-8")
     found = [f for f in check_file(path).findings if f.rule.startswith("budgets.")]
-    assert found and all("measurand_value" not in f.ctx and "at the sensor" not in f.message for f in found)
+    assert found and all("measurand_value" not in f.ctx and " equals " not in f.message for f in found)
 
 
 def test_adc_clipping_states_the_part_of_the_range_lost_at_the_end_that_clips(tmp_path: Path) -> None:
