@@ -185,7 +185,20 @@ def test_adc_clipping_states_the_part_of_the_range_lost_at_the_end_that_clips(tm
     assert f.ctx["measurand_slope_at"] == 1200.0
     slope = 50.9 * seebeck_k_uv(1200.0) * 1e-6
     assert f.ctx["measurand_value"] == pytest.approx(-f.ctx["value"] / slope, rel=2e-4)
-    assert f"equals {f.ctx['measurand_value']:.3g} °C of TC1's range at its 1200 °C end" in f.message
+    assert f"equals about {f.ctx['measurand_value']:.3g} °C of TC1's range at its 1200 °C end" in f.message
+
+
+def test_output_clipping_states_the_part_of_the_range_lost(tmp_path: Path) -> None:
+    # the kiln stage on a 2.2 V rail cannot reach the top of its output range; the shortfall over the slope at the
+    # 1200 °C end (gain × type K Seebeck coefficient there) is the part of the range that clips
+    text = (SAMPLES / "kiln_thermocouple.yaml").read_text(encoding="utf-8").replace(
+        "  VCC: {voltage: 5 V, tolerance: 2%}", "  VCC: {voltage: 2.2 V, tolerance: 2%}")
+    path = tmp_path / "kiln_low.yaml"
+    path.write_text(text, encoding="utf-8")
+    (f,) = [f for f in check_file(path).findings if f.rule == "headroom.output-swing"]
+    slope = 50.9 * seebeck_k_uv(1200.0) * 1e-6
+    assert f.ctx["measurand_value"] == pytest.approx(-f.ctx["margin"] / slope, rel=2e-4)
+    assert f"the part that clips equals about {f.ctx['measurand_value']:.3g} °C" in f.message
 
 
 def test_noise_at_a_pt1000_channel_is_stated_in_degrees_at_the_smallest_slope(tmp_path: Path) -> None:
@@ -201,3 +214,21 @@ def test_noise_at_a_pt1000_channel_is_stated_in_degrees_at_the_smallest_slope(tm
     assert f.ctx["measurand_slope_at"] == 300.0
     assert f.ctx["measurand_slope_v_per_unit"] == pytest.approx(slope, rel=1e-4)
     assert f.ctx["measurand_value"] == pytest.approx(f.ctx["value"] / slope, rel=1e-4)
+
+
+def test_json_report_carries_the_measurand_numbers(tmp_path: Path) -> None:
+    import io
+
+    from afecheck.cli import main
+
+    path = tmp_path / "kiln.yaml"
+    path.write_text("afecheck: 1\nname: kiln\nrails:\n  VCC: {voltage: 5 V}\n  VEE: {voltage: -5 V}\n" + KILN_BUDGETS,
+                    encoding="utf-8")
+    out = io.StringIO()
+    assert main(["check", "--format", "json", "--fail-on", "never", str(path)], stdout=out,
+                stderr=io.StringIO()) == 0
+    findings = [f for f in json.loads(out.getvalue())["findings"] if f["rule"] == "budgets.offset"]
+    assert len(findings) == 1
+    ctx = findings[0]["ctx"]
+    assert ctx["measurand_unit"] == "°C" and ctx["measurand_sensor"] == "TC1"
+    assert ctx["measurand_value"] == pytest.approx(ctx["value"] / (50.9 * seebeck_k_uv(1200.0) * 1e-6), rel=2e-4)

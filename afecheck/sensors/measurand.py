@@ -154,7 +154,8 @@ def measurand_note(ctx: Context, net: str, value: float, unit: str, limit: float
                    end: str | None = None) -> tuple[str, dict[str, Any]]:
     """For a finding at ``net`` whose error is ``value`` in ``unit`` (V, or "1" for a fraction of span): the text
     "equals 0.812 °C at TC1" and the structured numbers, or ``("", {})`` when no single sensor drives the net.
-    With ``end`` ("low"/"high": an error at that end of the net's range, such as clipping) the slope there is used."""
+    With ``end`` ("low"/"high": an error at that end of the net's range, such as clipping) the slope there is used,
+    a first-order statement ("about"): a shortfall large against the range's curvature is only roughly that much."""
     scale = ctx.memo(f"measurand-scale:{net}", lambda: net_scale(ctx.loaded, net))
     if scale is None:
         return "", {}
@@ -162,7 +163,8 @@ def measurand_note(ctx: Context, net: str, value: float, unit: str, limit: float
     if end is not None:
         where, slope = scale.net_end(end)
         amount = abs(value) / abs(slope)
-        return (f"equals {_number(amount, m.unit)} of {m.sensor}'s range at its {where:g} {m.unit} end",
+        return (f"equals about {_number(amount, m.unit)} of {m.sensor}'s range at its {where:g} {m.unit} end (at the "
+                f"slope there, {format_si(abs(slope), 'V', 3)}/{m.unit})",
                 {"measurand_sensor": m.sensor, "measurand_unit": m.unit, "measurand_value": amount,
                  "measurand_slope_v_per_unit": slope, "measurand_slope_at": where})
     amount = scale.equivalent(value, unit)
