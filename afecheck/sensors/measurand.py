@@ -31,8 +31,8 @@ MIN_STEP = 1e-3
 
 @dataclass(frozen=True)
 class Measurand:
-    """A declared sensor as a quantity the analysis can move: its unit, declared range and how a value enters the
-    netlist (``apply`` gives the netlist options' overrides for one measurand value)."""
+    """A declared sensor as a quantity the analysis can move: its unit, declared range and what carries a value into
+    the netlist (:func:`_options` turns one measurand value into netlist option overrides)."""
 
     sensor: str
     unit: str
