@@ -148,9 +148,9 @@ def test_budget_findings_state_the_error_at_the_sensor_in_message_and_numbers(tm
     path.write_text("afecheck: 1\nname: kiln\nrails:\n  VCC: {voltage: 5 V}\n  VEE: {voltage: -5 V}\n" + KILN_BUDGETS,
                     encoding="utf-8")
     report = check_file(path)
-    by_rule = {f.rule: f for f in report.findings if f.rule.startswith("budgets.")}
+    by_rule = {f.rule: f for f in report.findings}
     slope = 50.9 * seebeck_k_uv(1200.0) * 1e-6
-    for rule in ("budgets.offset", "budgets.drift"):
+    for rule in ("budgets.offset", "budgets.drift", "dc-accuracy.bias-offset"):
         f = by_rule[rule]
         assert f.ctx["measurand_unit"] == "°C" and f.ctx["measurand_sensor"] == "TC1"
         assert f.ctx["measurand_value"] == pytest.approx(f.ctx["value"] / slope, rel=2e-4)
