@@ -80,6 +80,12 @@ def _check(finding, stages, analysis, loaded) -> None:
     if rule.split(".")[0] in ("budgets", "adc", "limits"):
         _check_whole_chain(finding, analysis, loaded)
         return
+    if rule == "dc-accuracy.sensor-self-heating":
+        from afecheck.sensors.self_heating import self_heating
+
+        h = self_heating(loaded, finding.location.refs[0])
+        assert (c["value"], c["power_w"], c["accuracy_k"]) == (h.rise_k, h.power_w, h.accuracy_k)
+        return
     s = _stage(stages, finding)
     if rule == "loading.inverting-input":
         inp = _input(s, finding.location.nets[0])
@@ -151,4 +157,4 @@ def test_every_printed_number_equals_its_analysis_quantity() -> None:
         "budgets.noise", "budgets.offset", "budgets.gain-error", "budgets.drift", "budgets.nonlinearity",
         "adc.range", "adc.anti-alias",
         "adc.settling", "adc.kick-back", "limits.supply-range", "limits.input-current",
-        "limits.capacitive-load"}, checked
+        "limits.capacitive-load", "dc-accuracy.sensor-self-heating"}, checked

@@ -37,6 +37,9 @@ def unchecked_paths(ctx: Context) -> list[tuple[str | int, ...]]:
             unchecked = verdicts[shape] = consumer(pattern_of(path, kind)) is UNCHECKED
         if unchecked:
             found.append(path)
+    for ref, comp in loaded.sensors.items():  # thermocouples and bridges as declared, before they became parts
+        found += [p for p in declared_fields(comp, ("components", ref))
+                  if consumer(pattern_of(p, comp.kind)) is UNCHECKED]
     used = sorted({c.part for c in d.components.values() if c.kind == "opamp"})  # type: ignore[union-attr]
     for name in used:
         if name not in loaded.parts or name in loaded.shipped_parts:

@@ -186,6 +186,10 @@ class OpAmp(_Component):
         return v
 
 
+DISSIPATION_TEXT = ("dissipation constant δ in W/K: the excitation's power P heats the sensor by P/δ, judged "
+                    "against its accuracy by rule dc-accuracy.sensor-self-heating")
+
+
 class Ntc(_Component):
     """NTC thermistor over a declared temperature range: the Beta model R(T) = R25·exp(B·(1/T − 1/T25)), or
     Steinhart-Hart from its three coefficients or from three (temperature, resistance) points."""
@@ -198,7 +202,7 @@ class Ntc(_Component):
     points: tuple[tuple[Celsius, Ohm], tuple[Celsius, Ohm], tuple[Celsius, Ohm]] | None = Field(
         default=None, description="three (temperature, resistance) points the Steinhart-Hart curve passes through")
     temperature: tuple[Celsius, Celsius] = (25.0, 25.0)
-    dissipation: Q("W/K") | None = Field(default=None, gt=0)
+    dissipation: Q("W/K") | None = Field(default=None, gt=0, description=DISSIPATION_TEXT)
 
     @model_validator(mode="after")
     def _one_model(self) -> Ntc:
@@ -225,7 +229,7 @@ class Rtd(_Component):
     tolerance_class: Literal["AA", "A", "B", "C"] | None = Field(default=None, alias="class")
     wiring: RtdWiring = "4-wire"
     lead_resistance: Ohm = Field(default=0.0, ge=0, description="resistance of each lead wire")
-    dissipation: Q("W/K") | None = Field(default=None, gt=0)
+    dissipation: Q("W/K") | None = Field(default=None, gt=0, description=DISSIPATION_TEXT)
 
     @field_validator("temperature")
     @classmethod

@@ -9,6 +9,7 @@ from afecheck.checks.common import finding, fmt, not_evaluated, pct
 from afecheck.engine.context import Context
 from afecheck.engine.finding import Finding, Severity
 from afecheck.engine.rule import Param, RuleMeta
+from afecheck.sensors.measurand import measurand_note
 
 META = RuleMeta(
     id="adc.range", slug="adc-range-misfit", severity=Severity.ERROR, family="adc",
@@ -38,12 +39,15 @@ def check(ctx: Context) -> Iterator[Finding]:
         common = (f"{net}: signal {a.signal_low:.4g}..{a.signal_high:.4g} V into the {a.bits}-bit converter's "
                   f"{a.input_low:.4g}..{a.input_high:.4g} V range")
         if worst < need:
+            lost, numbers = measurand_note(ctx, net, -worst, "V", end=end) if worst < 0 else ("", {})
             yield finding(
                 ctx, Severity.ERROR, value=worst, limit=need, unit="V", margin=worst - need,
                 limit_source="rule parameter (common practice)",
                 message=f"{common} leaves {fmt(worst, 'V')} at the {end} end (limit {fmt(need, 'V')}): "
-                        "readings clip there", fix=META.fix, nets=(net,),
-                extra={"margin_low": a.margin_low, "margin_high": a.margin_high, "codes_used": a.codes_used})
+                        f"readings clip there{'; the part that clips ' + lost if lost else ''}", fix=META.fix,
+                nets=(net,),
+                extra={"margin_low": a.margin_low, "margin_high": a.margin_high, "codes_used": a.codes_used,
+                       **numbers})
         elif a.codes_used < ctx.param("min_codes_used"):
             limit = ctx.param("min_codes_used")
             yield finding(

@@ -8,6 +8,7 @@ from typing import TYPE_CHECKING, Any
 
 from afecheck.checks.common import finding, fmt, grade_above, pct
 from afecheck.engine.finding import Finding, Severity
+from afecheck.sensors.measurand import measurand_note
 
 if TYPE_CHECKING:
     from afecheck.analysis.dc_error import DcErrorResult
@@ -53,10 +54,11 @@ def over_budget(ctx: Context, net: str, field: str, value: float, budget: float,
     limit_share = ctx.param("budget_error" if severity == Severity.ERROR else "budget_warn")
     limit = limit_share * budget
     shown = pct if unit == "1" else (lambda v: fmt(v, unit))
+    at_sensor, numbers = measurand_note(ctx, net, value, unit, limit)
     text = (f"{net}: {what} {shown(value)} is {pct(share)} of its {shown(budget)} budget (limit {shown(limit)}); "
-            f"{detail}")
+            f"{at_sensor + '; ' if at_sensor else ''}{detail}")
     meta = ctx.rule
     assert meta is not None
     return finding(ctx, severity, value=value, limit=limit, unit=unit, margin=limit - value,
                    limit_source=f"budgets.{net}.{field} × rule parameter", message=text, fix=meta.fix, refs=refs,
-                   nets=(net,), assumed=assumed, extra=extra)
+                   nets=(net,), assumed=assumed, extra={**(extra or {}), **numbers})

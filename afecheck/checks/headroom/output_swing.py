@@ -10,6 +10,7 @@ from afecheck.checks.headroom.limits import swing
 from afecheck.engine.context import Context
 from afecheck.engine.finding import Finding, Severity
 from afecheck.engine.rule import RuleMeta
+from afecheck.sensors.measurand import measurand_note
 
 META = RuleMeta(
     id="headroom.output-swing", slug="output-beyond-swing-limit", severity=Severity.ERROR, family="headroom",
@@ -40,9 +41,11 @@ def check(ctx: Context) -> Iterator[Finding]:
                 continue
             text = (f"{stage.opamp} must reach {fmt(value, 'V')} on {stage.out} but its {name} output at this load "
                     f"is {fmt(limit, 'V')} ({fmt(-margin, 'V')} short): the signal clips")
+            lost, numbers = measurand_note(ctx, stage.out, -margin, "V", end="high" if name == "highest" else "low")
             yield make_finding(
                 ctx, Severity.ERROR, value=value, limit=limit, unit="V", margin=margin,
-                limit_source=f"part {stage.part} output swing at this load (common practice; {FRANCO})", message=text,
-                fix=META.fix,
+                limit_source=f"part {stage.part} output swing at this load (common practice; {FRANCO})",
+                message=text + (f"; the part that clips {lost}" if lost and margin < 0 else ""), fix=META.fix,
                 refs=(stage.opamp,), nets=(stage.out,), pins=("out",), assumed=s.assumed,
+                extra=numbers if margin < 0 else None,
             )

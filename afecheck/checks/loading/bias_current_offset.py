@@ -17,6 +17,7 @@ from afecheck.checks.loading.sources import ac_coupled, plus_source_resistance
 from afecheck.engine.context import Context
 from afecheck.engine.finding import Finding, Severity
 from afecheck.engine.rule import Param, RuleMeta
+from afecheck.sensors.measurand import measurand_note
 
 META = RuleMeta(
     id="dc-accuracy.bias-offset", slug="bias-current-offsets-output", severity=Severity.ERROR, family="dc-accuracy",
@@ -73,10 +74,12 @@ def check(ctx: Context) -> Iterator[Finding]:
             text = (f"{stage.opamp}: bias current {fmt(ib, 'A')} through {fmt(r_plus, 'Ω')} at in+ "
                     f"(in- side {fmt(r_minus, 'Ω')}) with noise gain {stage.noise_gain_dc:.3g} offsets {stage.out} by "
                     f"up to {fmt(offset, 'V')} (limit {fmt(limit, 'V')}, {against})")
+            at_sensor, numbers = measurand_note(ctx, stage.out, offset, "V", limit)
+            text += f"; {at_sensor}" if at_sensor else ""
             yield make_finding(
                 ctx, severity, value=offset, limit=limit, unit="V", margin=limit - offset, limit_source=source,
                 message=text, fix=META.fix, refs=(*inp.via[:1], stage.opamp), nets=(inp.source.net, stage.out),
                 assumed=a1 + a2,
                 extra={"bias_current": ib, "offset_current": ios, "r_plus": r_plus, "r_minus": r_minus,
-                       "noise_gain": stage.noise_gain_dc, "own_offset": own},
+                       "noise_gain": stage.noise_gain_dc, "own_offset": own, **numbers},
             )

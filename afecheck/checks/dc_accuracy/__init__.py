@@ -1,0 +1,1 @@
+"""DC-accuracy rules that judge a sensor itself (its self-heating)."""
