@@ -19,6 +19,7 @@ from afecheck.analysis.netlist import (
     GROUND,
     Capacitor,
     CurrentSource,
+    Inductor,
     Netlist,
     OpAmpCore,
     Resistor,
@@ -52,6 +53,9 @@ def numeric_key(netlist: Netlist) -> tuple:
         t = type(e)
         if t is Resistor or t is Capacitor:
             key.append((t, number(e.a, len(numbers)), number(e.b, len(numbers)), e.value))
+            continue
+        if t is Inductor:
+            key.append((t, number(e.a, len(numbers)), number(e.b, len(numbers)), e.value, e.series_resistance))
             continue
         nodes = (number(e.pos, len(numbers)), number(e.neg, len(numbers)))
         if t is VoltageSource or t is CurrentSource:
