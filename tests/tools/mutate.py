@@ -257,7 +257,10 @@ def run(sample: int | None, seed: int, report: Path | None, ids: list[str] | Non
         everything = tests or list(dict.fromkeys(FAST["afecheck/checks"] + FAST["afecheck/analysis"]
                                                  + [t for m in chosen for t in _tests_for(work, m.file)]))
         if not _pytest(work, everything):
-            raise SystemExit("the unmutated test subset fails: fix the suite first")
+            proc = subprocess.run([sys.executable, "-m", "pytest", "-q", "-p", "no:cacheprovider", "-m", "not slow",
+                                   "-x", *[t for t in everything if (work / t).exists()]],
+                                  cwd=work, capture_output=True, text=True, timeout=TIMEOUT_S)
+            raise SystemExit(f"the unmutated test subset fails: fix the suite first\n{proc.stdout[-3000:]}")
         for k, m in enumerate(chosen, 1):
             if m.id in same:
                 results.append({"id": m.id, "killed": False, "equivalent": same[m.id], "seconds": 0.0})
