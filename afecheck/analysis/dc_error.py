@@ -27,6 +27,7 @@ from __future__ import annotations
 import math
 from collections.abc import Iterable, Mapping
 from dataclasses import dataclass, replace
+from functools import partial
 
 from afecheck.analysis.channel import Channel, per_channel
 from afecheck.analysis.measurands import has_sensor, own_tolerance, point_options
@@ -98,8 +99,11 @@ class NetDcError:
     drift_rss: float = 0.0
     temperature_range: tuple[float, float] | None = None
     assumed: tuple[str, ...] = ()
+    """assumed part values the offset and gain-error terms rest on"""
     nonlinearity: Nonlinearity | None = None
     """end-point nonlinearity of the nominal channel over its measurand or input range"""
+    drift_assumed: tuple[str, ...] = ()
+    """assumed part values the drift terms rest on"""
 
 
 @dataclass(frozen=True)
@@ -228,8 +232,10 @@ def _split(ideal_low: float, ideal_high: float, low: float, high: float,
     return low + at * (high - low), (high - low) / span
 
 
-def channel_dc_error(loaded: LoadedDesign, channel: Channel, nets: Iterable[str]) -> dict[str, NetDcError]:
-    """DC error and drift at each of ``nets`` in ``channel``."""
+def channel_dc_error(loaded: LoadedDesign, channel: Channel, nets: Iterable[str],
+                     nonlinearity: bool = True) -> dict[str, NetDcError]:
+    """DC error and drift at each of ``nets`` in ``channel``; with ``nonlinearity``, the end-point nonlinearity too
+    (a sensor's channel is solved at 17 more points for it, so callers that judge no nonlinearity leave it out)."""
     gnd = loaded.design.ground
     targets = [(n, GROUND if n == gnd else n) for n in nets]
     ends = [netlist_from_design(loaded, channel.refs, _end_options(loaded, channel, k)) for k in (0, 1)]
@@ -255,7 +261,7 @@ def channel_dc_error(loaded: LoadedDesign, channel: Channel, nets: Iterable[str]
                 err = _v(perturbed(nl, moves), node) - ideal_v[k][n]
                 corner.setdefault(n, []).append(err)
     linear = bool(channel.signal_branches) or has_sensor(loaded, channel.refs)
-    straightness = channel_nonlinearity(loaded, channel, [n for n, _ in targets])
+    straightness = channel_nonlinearity(loaded, channel, [n for n, _ in targets]) if nonlinearity else {}
     for n, _ in targets:
         lo_i, hi_i = ideal_v[0][n], ideal_v[1][n]
         terms = []
@@ -290,16 +296,18 @@ def channel_dc_error(loaded: LoadedDesign, channel: Channel, nets: Iterable[str]
             corner_low=min(corner[n]), corner_high=max(corner[n]), drift_terms=tuple(dterms),
             drift_worst=sum(drift_each), drift_rss=math.sqrt(sum(x * x for x in drift_each)),
             temperature_range=(float(rng[0]), float(rng[1])) if rng else None,
-            assumed=tuple(sorted(set(assumed + dassumed))), nonlinearity=straightness[n],
+            assumed=tuple(sorted(set(assumed))), drift_assumed=tuple(sorted(set(dassumed))),
+            nonlinearity=straightness.get(n),
         )
     return results
 
 
-def analyse_dc_error(loaded: LoadedDesign, nets: Iterable[str]) -> DcErrorResult:
-    """DC error and drift at each of ``nets``, channel by channel; reasons for the nets that cannot be evaluated."""
+def analyse_dc_error(loaded: LoadedDesign, nets: Iterable[str], nonlinearity: bool = True) -> DcErrorResult:
+    """DC error and drift (and, with ``nonlinearity``, end-point nonlinearity) at each of ``nets``, channel by
+    channel; reasons for the nets that cannot be evaluated."""
     nets = list(dict.fromkeys(nets))
     if not nets:
         return DcErrorResult({}, {})
-    found, missing = per_channel(loaded, nets, channel_dc_error,
+    found, missing = per_channel(loaded, nets, partial(channel_dc_error, nonlinearity=nonlinearity),
                                  (AnalysisError, InputError, SingularCircuitError, ValueError, ArithmeticError))
     return DcErrorResult(found, missing)

@@ -11,18 +11,20 @@ range: a thermistor, RTD or bridge arm over its own range, a thermocouple over i
 junction at mid-range (so E(t)'s curvature counts), a declared signal over its DC range. The nominal circuit is
 solved (finite open-loop gain kept; tolerances and offsets left out: in a linear circuit they change the line, not
 its straightness) at :data:`POINTS` evenly spaced points; around the largest deviation the vertex of the parabola
-through its neighbours is solved too, so the figure is always a solved point. A chain of resistors and op-amps
-driven by a declared voltage is linear: its nonlinearity is zero (deviations below :data:`ROUNDING` of the largest
-output are the solver's rounding and count as zero).
+through its neighbours is solved too, so the figure is always a solved point (deviations below :data:`ROUNDING` of
+the largest output are the solver's rounding and count as zero). A channel with no sensor is a linear circuit driven
+by its declared signals: by superposition its output is an affine function of them, so its nonlinearity is exactly
+zero and only the two ends are solved.
 """
 
 from __future__ import annotations
 
+import math
 from collections.abc import Sequence
 from dataclasses import dataclass
 
 from afecheck.analysis.channel import Channel
-from afecheck.analysis.measurands import point_options, swept_refs, thermocouple_refs
+from afecheck.analysis.measurands import has_sensor, point_options, swept_refs, thermocouple_refs
 from afecheck.analysis.mna import solve_dc
 from afecheck.analysis.netlist import GROUND, netlist_from_design
 from afecheck.model.loaded import LoadedDesign
@@ -80,14 +82,15 @@ def channel_nonlinearity(loaded: LoadedDesign, channel: Channel, nets: Sequence[
     """End-point nonlinearity at each of ``nets`` (all in ``channel``)."""
     gnd = loaded.design.ground
     nodes = [GROUND if n == gnd else n for n in nets]
-    grid = [k / (POINTS - 1) for k in range(POINTS)]
+    curved = has_sensor(loaded, channel.refs)
+    grid = [k / (POINTS - 1) for k in range(POINTS)] if curved else [0.0, 1.0]
     values = [_solve(loaded, channel, p, nodes) for p in grid]
     over, refs = _over(loaded, channel)
     out: dict[str, Nonlinearity] = {}
     for j, net in enumerate(nets):
         pts = list(grid)
         vs = [row[j] for row in values]
-        floor = ROUNDING * max(abs(v) for v in vs)
+        floor = ROUNDING * max(abs(v) for v in vs) if curved else math.inf
         k = _worst_index(pts, vs)
         if 0 < k < len(pts) - 1 and abs(_deviations(pts, vs)[k]) > floor:
             extra = _vertex(pts[k - 1:k + 2], _deviations(pts, vs)[k - 1:k + 2])

@@ -43,7 +43,7 @@ def check(ctx: Context) -> Iterator[Finding]:
         found = over_budget(
             ctx, net, "drift", e.drift_worst, budget.drift, "V", f"worst-case drift over {lo:g}..{hi:g} °C",
             f"statistical (RSS) {fmt(e.drift_rss, 'V')}; largest terms: {terms_text(e.drift_terms, 'error_high', 'V')}",
-            refs=lead.refs if lead else (), assumed=e.assumed,
+            refs=lead.refs if lead else (), assumed=e.drift_assumed,
             extra={"rss": e.drift_rss, "temperature_low_c": lo, "temperature_high_c": hi})
         if found is not None:
             yield found

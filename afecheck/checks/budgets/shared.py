@@ -35,7 +35,8 @@ def dc_error_of_budgets(ctx: Context) -> DcErrorResult:
     from afecheck.analysis.dc_error import analyse_dc_error
 
     return ctx.memo("dc-error-budgets", lambda: analyse_dc_error(
-        ctx.loaded, budget_nets(ctx, "offset", "gain_accuracy", "drift", "nonlinearity")))
+        ctx.loaded, budget_nets(ctx, "offset", "gain_accuracy", "drift", "nonlinearity"),
+        nonlinearity=bool(budget_nets(ctx, "nonlinearity"))))
 
 
 def top_shares(items: Iterable[Any], count: int = 3) -> str:
