@@ -87,3 +87,21 @@ def test_a_full_memo_stops_keeping_but_still_answers_the_same(tmp_path, monkeypa
     assert same(plain, _run(["stages", "--json", str(path)]), rel=TOL) == []
     assert kept and kept[-1][solve_memo._KEPT] == 3
     assert sum(1 for k in kept[-1] if isinstance(k, tuple) and k[0] in ("system", "points", "ac", "rout")) == 3
+
+
+def test_the_key_holds_an_inductors_values_and_refuses_unknown_kinds():
+    """Two circuits that differ only in an inductance or its winding resistance never share a solve."""
+    from afecheck.analysis.netlist import Inductor, Netlist, Resistor, VoltageSource
+
+    def net(l_h: float, r: float) -> Netlist:
+        return Netlist((VoltageSource("V1", "a", "0", dc=1.0), Inductor("L1", "a", "b", l_h, r),
+                        Resistor("R1", "b", "0", 1e3)))
+
+    assert solve_memo.numeric_key(net(1e-3, 0.5)) == solve_memo.numeric_key(net(1e-3, 0.5))
+    assert solve_memo.numeric_key(net(1e-3, 0.5)) != solve_memo.numeric_key(net(2e-3, 0.5))
+    assert solve_memo.numeric_key(net(1e-3, 0.5)) != solve_memo.numeric_key(net(1e-3, 0.7))
+
+    class Strange(Resistor):
+        pass
+
+    assert solve_memo.numeric_key(Netlist((Strange("X1", "a", "0", 1.0),))) is None

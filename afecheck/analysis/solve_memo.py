@@ -23,6 +23,7 @@ from afecheck.analysis.netlist import (
     Netlist,
     OpAmpCore,
     Resistor,
+    Vccs,
     Vcvs,
     VoltageSource,
 )
@@ -44,8 +45,9 @@ def _keep(cache: dict, key: tuple, value: Any) -> None:
         cache[_KEPT] = kept + 1
 
 
-def numeric_key(netlist: Netlist) -> tuple:
-    """The netlist up to names: per element its kind, numbered nodes and every value it stamps."""
+def numeric_key(netlist: Netlist) -> tuple | None:
+    """The netlist up to names: per element its kind, numbered nodes and every value it stamps (None for an element
+    kind it does not know, so a new kind is solved plainly until its values are added here)."""
     numbers: dict[str, int] = {GROUND: -1}
     number = numbers.setdefault
     key: list[tuple] = []
@@ -57,6 +59,8 @@ def numeric_key(netlist: Netlist) -> tuple:
         if t is Inductor:
             key.append((t, number(e.a, len(numbers)), number(e.b, len(numbers)), e.value, e.series_resistance))
             continue
+        if t not in (VoltageSource, CurrentSource, OpAmpCore, Vcvs, Vccs):
+            return None  # a kind this key does not know: nothing is shared
         nodes = (number(e.pos, len(numbers)), number(e.neg, len(numbers)))
         if t is VoltageSource or t is CurrentSource:
             key.append((t, nodes, e.dc, e.ac))
