@@ -150,7 +150,7 @@ def test_budget_findings_state_the_error_at_the_sensor_in_message_and_numbers(tm
     report = check_file(path)
     by_rule = {f.rule: f for f in report.findings}
     slope = 50.9 * seebeck_k_uv(1200.0) * 1e-6
-    for rule in ("budgets.offset", "budgets.drift", "dc-accuracy.bias-offset"):
+    for rule in ("budgets.offset", "budgets.drift"):
         f = by_rule[rule]
         assert f.ctx["measurand_unit"] == "°C" and f.ctx["measurand_sensor"] == "TC1"
         assert f.ctx["measurand_value"] == pytest.approx(f.ctx["value"] / slope, rel=2e-4)
@@ -160,6 +160,22 @@ def test_budget_findings_state_the_error_at_the_sensor_in_message_and_numbers(tm
     # a gain error is a fraction of span: over the declared 20..1200 °C it misreads the top by that fraction of 1180 °C
     assert gain.ctx["measurand_value"] == pytest.approx(gain.ctx["value"] * 1180.0, rel=1e-12)
     json.dumps(gain.ctx)  # plain data, serialisable as the JSON report needs
+
+
+def test_bias_offset_finding_states_its_offset_at_the_sensor(tmp_path: Path) -> None:
+    # dc-accuracy.bias-offset judges against the part's own offset (not the budget): a general-purpose bipolar part
+    # behind 100 kΩ in the thermocouple lead (a protection resistor counted into it) offsets the output by more than
+    # the part's own NG·Vos (45 nA × 99 kΩ ≈ 4.5 mV against 2 mV at the input), and says what that is in °C
+    path = tmp_path / "kiln.yaml"
+    text = KILN_BUDGETS.replace("lead_resistance: 40", "lead_resistance: 100k").replace("AFE-PREC1", "AFE-GP1")
+    path.write_text("afecheck: 1\nname: kiln\nrails:\n  VCC: {voltage: 5 V}\n  VEE: {voltage: -5 V}\n" + text,
+                    encoding="utf-8")
+    (f,) = [f for f in check_file(path).findings if f.rule == "dc-accuracy.bias-offset"]
+    slope = 50.9 * seebeck_k_uv(1200.0) * 1e-6
+    assert f.ctx["measurand_unit"] == "°C" and f.ctx["measurand_sensor"] == "TC1"
+    # 1e-3: with 100 kΩ of lead the chain's solved slope sits 0.06 % off the hand slope (the part is no longer ideal)
+    assert f.ctx["measurand_value"] == pytest.approx(f.ctx["value"] / slope, rel=1e-3)
+    assert f"equals {f.ctx['measurand_value']:.3g} °C at TC1" in f.message
 
 
 def test_budget_findings_on_a_plain_voltage_channel_carry_no_measurand(tmp_path: Path) -> None:
