@@ -234,8 +234,10 @@ def channel_noise(loaded: LoadedDesign, channel: Channel, nets: Iterable[str],
     signal = None
     gain = None
     if channel.signal_branches:
-        names = {el.name for el in netlist.elements}
-        found = [(name, br) for name, br in channel.signal_branches if br in names]
+        # input-referred only to voltage signals: a current signal's source has no branch unknown, and its
+        # input-referred noise would be amperes, which the worksheet does not print
+        branches = set(system.branches)
+        found = [(name, br) for name, br in channel.signal_branches if br in branches]
         if found:
             gains = [np.abs(z[:, system.branch_index(br), :]) for _, br in found]
             best = [max(range(len(found)), key=lambda k, j=j: float(gains[k][:, j].max())) for j in range(len(targets))]
