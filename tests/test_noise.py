@@ -198,10 +198,10 @@ def test_budget_yaml_round_trip(tmp_path):
     assert data["budgets"][out]["noise"] == 1e-3
 
 
-# Every sample but the two whose sensor runs far from the design's temperature: this deck writer gives every
-# resistor one temperature, while afecheck takes an RTD's or thermocouple lead's noise at the sensor's own
+# Every sample but the one whose sensor runs far from the design's temperature: this deck writer gives every
+# resistor one temperature, while afecheck takes an RTD's noise at the middle of its own range
 # (tests/test_budget_sensors.py compares that with a hand-written deck holding per-resistor temperatures).
-OWN_TEMPERATURE = {"kiln_thermocouple.yaml", "pt1000_process_probe.yaml"}
+OWN_TEMPERATURE = {"pt1000_process_probe.yaml"}
 SAMPLES = sorted(p.name for p in Path("sample_designs").glob("*.yaml")
                  if not p.name.endswith(".intent.yaml") and p.name not in OWN_TEMPERATURE)
 
@@ -219,7 +219,10 @@ def test_every_sample_design_agrees_with_ngspice(sample):
         assert not loaded.design.budgets and not loaded.design.loads
         return
     noise = analyse_noise(loaded, worked)
-    assert not noise.not_evaluated, noise.not_evaluated  # every worksheet net evaluated (a current signal once was not)
+    # a net is left out only for what the design lacks, never for an analysis failure (a current signal once was)
+    assert all(r == "no signal band is declared for the channel" for r in noise.not_evaluated.values()), noise
+    if not noise.nets:
+        return  # every worksheet net evaluated (a current signal once was not)
     nets = list(noise.nets)
     for net in nets:
         _compare_with_ngspice(loaded, net)
