@@ -256,11 +256,13 @@ def run(sample: int | None, seed: int, report: Path | None, ids: list[str] | Non
             (shutil.copytree if src.is_dir() else shutil.copy2)(src, work / name)
         everything = tests or list(dict.fromkeys(FAST["afecheck/checks"] + FAST["afecheck/analysis"]
                                                  + [t for m in chosen for t in _tests_for(work, m.file)]))
-        if not _pytest(work, everything):
+        if not _pytest(work, everything):  # once more, showing the failures: a test may be flaky under load
             proc = subprocess.run([sys.executable, "-m", "pytest", "-q", "-p", "no:cacheprovider", "-m", "not slow",
                                    "-x", *[t for t in everything if (work / t).exists()]],
                                   cwd=work, capture_output=True, text=True, timeout=TIMEOUT_S)
-            raise SystemExit(f"the unmutated test subset fails: fix the suite first\n{proc.stdout[-3000:]}")
+            if proc.returncode != 0:
+                raise SystemExit(f"the unmutated test subset fails: fix the suite first\n{proc.stdout[-3000:]}")
+            print("warning: the unmutated subset failed once and passed when run again (a flaky test)", flush=True)
         for k, m in enumerate(chosen, 1):
             if m.id in same:
                 results.append({"id": m.id, "killed": False, "equivalent": same[m.id], "seconds": 0.0})
