@@ -235,7 +235,7 @@ class _Reviewer:
         if analysis is not None:
             from afecheck.views import stage_views
 
-            views = stage_views(loaded, analysis, curves, options["params"], rules_run)
+            views = stage_views(loaded, analysis, curves, options["params"], rules_run, budgets=detail == "curves")
         design = DesignResult(
             file=loaded.file, name=name, hazards=tuple(loaded.design.hazards), entries=review.entries,
             stages=opamps, ruleset=policy.ruleset, config=policy.config, rules_run=rules_run, stage_views=views,

@@ -11,10 +11,23 @@ from collections.abc import Collection, Mapping
 from typing import TYPE_CHECKING, Any, Literal
 
 from afecheck.model.loaded import LoadedDesign
-from afecheck.report.data import Headroom, InputGain, StageView, Trace
+from afecheck.report.data import (
+    DcErrorPanel,
+    ErrorTerm,
+    ErrorTotal,
+    Headroom,
+    InputGain,
+    NetBudget,
+    NoisePanel,
+    NoiseShare,
+    StageView,
+    Trace,
+)
 
 if TYPE_CHECKING:
     from afecheck.analysis.curves import Response, StageCurves
+    from afecheck.analysis.dc_error import DcTerm, NetDcError
+    from afecheck.analysis.noise import NetNoise
     from afecheck.analysis.results import DesignAnalysis, StageResult
     from afecheck.engine.context import Context
 
@@ -38,9 +51,9 @@ def analyse_for_views(loaded: LoadedDesign, detail: Detail) -> tuple[DesignAnaly
 
 def stage_views(loaded: LoadedDesign, analysis: DesignAnalysis, curves: Mapping[str, StageCurves] | None = None,
                 params: Mapping[str, Mapping[str, float]] | None = None,
-                rules_run: Collection[str] = ()) -> tuple[StageView, ...]:
+                rules_run: Collection[str] = (), budgets: bool = False) -> tuple[StageView, ...]:
     """One StageView per analysed stage; margin limit lines only for the stability rules that ran, at the
-    parameters they ran with."""
+    parameters they ran with; with ``budgets``, the noise and DC-error panels of the nets each stage drives."""
     from afecheck.checks.stability import gain_margin, phase_margin
     from afecheck.engine.context import Context
 
@@ -48,6 +61,7 @@ def stage_views(loaded: LoadedDesign, analysis: DesignAnalysis, curves: Mapping[
     ctx.memo("analysis", lambda: analysis)
     pm = _limits(phase_margin.META, params, rules_run, "warn_deg", "error_deg")
     gm = _limits(gain_margin.META, params, rules_run, "warn_db", "error_db")
+    panels = _budget_panels(loaded, analysis) if budgets else {}
     views = []
     for s in analysis.stages:
         c = (curves or {}).get(s.opamp)
@@ -65,7 +79,7 @@ def stage_views(loaded: LoadedDesign, analysis: DesignAnalysis, curves: Mapping[
             loop_gain=_trace(c.loop_gain if c else None), noise_gain=_trace(c.noise_gain if c else None),
             open_loop=_trace(c.open_loop if c else None),
             closed_loop=tuple(t for t in (_trace(r) for r in (c.closed_loop if c else ())) if t is not None),
-            band_hz=c.band_hz if c else None, estimated=s.estimated, assumed=s.assumed,
+            band_hz=c.band_hz if c else None, budgets=panels.get(s.opamp, ()), estimated=s.estimated, assumed=s.assumed,
             not_evaluated=s.not_evaluated + (c.not_evaluated if c else ()),
         ))
     return tuple(views)
@@ -122,3 +136,81 @@ def _trace(r: Response | None) -> Trace | None:
     if r is None:
         return None
     return Trace(label=r.label, freqs_hz=r.freqs_hz, magnitude_db=r.magnitude_db, phase_deg=r.phase_deg)
+
+
+def _budget_panels(loaded: LoadedDesign, analysis: DesignAnalysis) -> dict[str, tuple[NetBudget, ...]]:
+    """Noise and DC error at the worksheet's nets, each net under the stage that drives it: its own output, or
+    for a loaded or budgeted net after the last stage, the last stage of the same channel."""
+    from afecheck.analysis.channel import find_channels
+    from afecheck.analysis.dc_error import analyse_dc_error
+    from afecheck.analysis.noise import analyse_noise
+    from afecheck.analysis.worksheet import worksheet_nets
+
+    nets = worksheet_nets(loaded, analysis)
+    if not nets:
+        return {}
+    channels = find_channels(loaded)
+    owner: dict[str, str] = {}
+    for s in analysis.stages:
+        owner.setdefault(s.out, s.opamp)
+    last_in_channel: dict[int, str] = {}
+    for s in analysis.stages:
+        if s.out in channels:
+            last_in_channel[id(channels[s.out])] = s.opamp
+    for net in nets:
+        if net not in owner and net in channels and id(channels[net]) in last_in_channel:
+            owner[net] = last_in_channel[id(channels[net])]
+    wanted = [n for n in nets if n in owner]
+    noise, dc = analyse_noise(loaded, wanted), analyse_dc_error(loaded, wanted)
+    budgets = loaded.design.budgets
+    out: dict[str, list[NetBudget]] = {}
+    for net in wanted:
+        b = budgets.get(net)
+        reasons = tuple(f"{what}: {why[net]}" for what, why in (("noise", noise.not_evaluated),
+                                                                ("DC error", dc.not_evaluated)) if net in why)
+        nn, ee = noise.nets.get(net), dc.nets.get(net)
+        out.setdefault(owner[net], []).append(NetBudget(
+            net=net, noise=None if nn is None else _noise_panel(nn, b.noise if b else None),
+            dc_error=None if ee is None else _dc_panel(ee, b), not_evaluated=reasons))
+    return {k: tuple(v) for k, v in out.items()}
+
+
+def _used(value: float | None, budget: float | None) -> float | None:
+    return None if value is None or not budget else float(value / budget)
+
+
+def _noise_panel(n: NetNoise, budget: float | None) -> NoisePanel:
+    return NoisePanel(
+        net=n.net, band_hz=n.band, temperature_k=n.temperature_k, freqs_hz=n.freqs, output_density=n.output_density,
+        output_rms=n.output_rms, signal=n.signal, input_rms=n.input_rms, budget=budget,
+        budget_used=_used(n.output_rms, budget),
+        contributors=tuple(NoiseShare(name=c.name, kind=c.kind, output_rms=c.output_rms, share=c.share,
+                                      density=c.output_density) for c in n.contributors))
+
+
+_LIMIT_UNITS = (("tolerance", "%"), ("tempco", "%"), ("offset voltage", "V"), ("offset drift", "V"),
+                ("current", "A"), ("open-loop gain", "V/V"))
+
+
+def _term(t: DcTerm) -> ErrorTerm:
+    unit = next((u for suffix, u in _LIMIT_UNITS if t.name.endswith(suffix)), "")
+    return ErrorTerm(name=t.name, kind=t.kind, limit=t.limit, limit_unit=unit, error_low=t.error_low,
+                     error_high=t.error_high, offset=t.offset, gain_error=t.gain_error, counted=t.kind != "sensor")
+
+
+def _dc_panel(e: NetDcError, budget: Any) -> DcErrorPanel:
+    def get(key: str) -> float | None:
+        return None if budget is None else getattr(budget, key)
+
+    totals = [ErrorTotal("offset", "V", e.offset_worst, e.offset_rss, get("offset"),
+                         _used(e.offset_worst, get("offset")))]
+    if e.gain_error_worst is not None:
+        totals.append(ErrorTotal("gain error", "%", e.gain_error_worst, e.gain_error_rss or 0.0,
+                                 get("gain_accuracy"), _used(e.gain_error_worst, get("gain_accuracy"))))
+    if e.temperature_range is not None:
+        totals.append(ErrorTotal("drift", "V", e.drift_worst, e.drift_rss, get("drift"),
+                                 _used(e.drift_worst, get("drift"))))
+    return DcErrorPanel(net=e.net, ideal_low=e.ideal_low, ideal_high=e.ideal_high,
+                        terms=tuple(_term(t) for t in e.terms), totals=tuple(totals), corner_low=e.corner_low,
+                        corner_high=e.corner_high, drift_terms=tuple(_term(t) for t in e.drift_terms),
+                        temperature_range=e.temperature_range)

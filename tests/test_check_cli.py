@@ -110,7 +110,7 @@ def test_fail_on_levels_through_cli(work):
 
 def test_baseline_command_then_gate(work):
     code, out, err = _run("baseline", "logger.yaml", "--output", "base.json")
-    assert code == 0 and "recorded 3 findings" in out, err
+    assert code == 0 and "recorded 3 findings" in err and out == "", err
     code, out, _ = _run("check", "logger.yaml", "--baseline", "base.json")
     assert code == 0, out
     code, out, _ = _run("check", "logger_new_defect.yaml", "--baseline", "base.json", "--format", "json")

@@ -88,9 +88,9 @@ def test_config_alias_bomb_stops_at_the_alias_limit(work):
     lines += [f"a{i}: &a{i} [*a{i - 1}, *a{i - 1}, *a{i - 1}, *a{i - 1}, *a{i - 1}, *a{i - 1}, *a{i - 1}, "
               f"*a{i - 1}, *a{i - 1}, *a{i - 1}]" for i in range(1, 9)]
     config(work, "\n".join(lines) + "\n")
-    start = time.perf_counter()
+    start = time.process_time()  # CPU time: a loaded machine must not fail a sound refusal
     refused("check", "logger.yaml", needle="aliases expand to more than")
-    assert time.perf_counter() - start < 5
+    assert time.process_time() - start < 5
 
 
 def test_config_number_key_is_refused(work):

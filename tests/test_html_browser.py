@@ -108,3 +108,29 @@ def test_page_reads_the_same_without_javascript(browser: Browser, tmp_path: Path
                           "Array.from(document.querySelectorAll('svg.plot')).every(s => s.getBoundingClientRect()"
                           ".height > 50)]")
     assert state[0] is True and state[1] == 0 and state[2] == 3 and state[3] is True
+
+
+@pytest.mark.slow
+def test_noise_and_dc_error_panels_render_and_print_within_the_page(browser: Browser, tmp_path: Path) -> None:
+    # the data-acquisition sample: three channels, each with a noise plot and DC-error worksheet per driven net
+    page_file = tmp_path / "daq.html"
+    page_file.write_text(html_of(next(p for p in SAMPLES if p.stem == "daq_front_end")), encoding="utf-8")
+    page = browser.page(width=1000)
+    page.open(page_file)
+    assert page.console_errors() == []
+    noise = page.evaluate("Array.from(document.querySelectorAll('figure[id$=\"-noise\"] svg.plot')).map(s => {"
+                          "const r = s.getBoundingClientRect(); return [r.width, r.height];})")
+    assert len(noise) == 6 and all(w > 100 and h > 50 for w, h in noise), noise
+    tables = page.evaluate("Array.from(document.querySelectorAll('div.budget table.worksheet')).map(t => "
+                           "[t.getBoundingClientRect().width, t.rows.length])")
+    assert len(tables) >= 18 and all(w > 100 and rows > 1 for w, rows in tables), tables
+    text = page.evaluate("document.getElementById('stage-1-2-net2').innerText")
+    assert "RB3 tolerance" in text and "budget 20.0 µV" in text
+    page.screenshot(tmp_path / "daq.png")
+    page.send("Emulation.setEmulatedMedia", {"media": "print"})
+    for paper, width in PRINT_WIDTHS_PX.items():
+        page.send("Emulation.setDeviceMetricsOverride", {"width": width, "height": 1000, "deviceScaleFactor": 1,
+                                                         "mobile": False})
+        scroll, client, wide = page.evaluate(OVERFLOW)
+        assert scroll <= client and wide == [], (paper, scroll, client, wide)
+        assert page.print_pdf(*PAPER_IN[paper]).startswith(b"%PDF")

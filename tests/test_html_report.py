@@ -129,7 +129,7 @@ def test_plots_carry_text_alternatives_with_the_key_numbers(pages: dict[str, str
     for stage in analyse(load_design(ROOT / "sample_designs" / "soil_probe_reader.yaml")).stages:
         assert f"phase margin {stage.phase_margin_deg:.1f}°" in text
     captions = re.findall(r'<figcaption id="([^"]+)-caption">(.*?)</figcaption>', text, re.S)
-    assert {c[0].rsplit("-", 1)[1] for c in captions} == {"loop", "closed", "headroom"}
+    assert {c[0].rsplit("-", 1)[1] for c in captions} == {"loop", "closed", "headroom", "noise"}
     headroom = next(c for i, c in captions if i == "stage-1-2-headroom")
     # as the headroom.input-common-mode finding says: 3.80 V against the 3.25 V limit (AFE-GP1's input_cm_high
     # 1.5 V below the 4.75 V worst-case rail)

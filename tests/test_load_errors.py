@@ -275,9 +275,9 @@ def test_alias_bomb_is_refused_quickly(tmp_path: Path) -> None:
     for i in range(1, 10):
         lines.append(f"a{i}: &a{i} [" + ", ".join([f"*a{i - 1}"] * 9) + "]")
     path = write(tmp_path, "\n".join(lines) + "\n")
-    start = time.perf_counter()
+    start = time.process_time()  # CPU time: a loaded machine must not fail a sound refusal
     (message,) = errors(path)
-    assert time.perf_counter() - start < 1.0
+    assert time.process_time() - start < 1.0
     assert f"aliases expand to more than {MAX_ALIAS_NODES} values" in message
 
 
@@ -292,9 +292,9 @@ def test_deep_nesting_is_refused_quickly(tmp_path: Path, suffix: str) -> None:
     depth = 200_000
     text = '{"afecheck": 1, "x": ' + "[" * depth + "]" * depth + "}"
     path = write(tmp_path, text, "deep" + suffix)
-    start = time.perf_counter()
+    start = time.process_time()  # CPU time: a loaded machine must not fail a sound refusal
     (message,) = errors(path)
-    assert time.perf_counter() - start < 2.0
+    assert time.process_time() - start < 2.0
     # our refusal, never the parser's own nesting limit (libyaml 0.2.5+ stops at 1000 with its own words)
     where = f"{path}:1:{21 + MAX_DEPTH}:" if suffix == ".yaml" else f"{path}:1:"
     assert message == f"{where} nesting deeper than {MAX_DEPTH} levels"

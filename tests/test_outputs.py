@@ -9,6 +9,7 @@ rename(2) semantics).
 from __future__ import annotations
 
 import io
+import json
 import os
 import shutil
 import stat
@@ -77,6 +78,17 @@ def test_dev_stdout_is_written_directly(tmp_path):
                          capture_output=True, text=True, timeout=120, cwd=tmp_path)
     assert run.returncode == 0, run.stderr
     assert run.stdout.startswith("soil-probe reader\n") and run.stdout.rstrip().endswith(".end")
+    assert list(tmp_path.iterdir()) == []
+
+
+def test_baseline_to_dev_stdout_is_the_baseline_alone(tmp_path):
+    # the "recorded N findings" note goes to standard error, so standard output holds exactly the JSON baseline
+    design = ROOT / "sample_designs" / "soil_probe_reader.yaml"
+    argv = ["baseline", "--no-config", str(design), "-o", "/dev/stdout"]
+    run = subprocess.run([sys.executable, "-m", "afecheck", *argv],
+                         capture_output=True, text=True, timeout=120, cwd=tmp_path)
+    assert run.returncode == 0, run.stderr
+    assert json.loads(run.stdout)["afecheck_baseline"] == 1 and "recorded" in run.stderr
     assert list(tmp_path.iterdir()) == []
 
 

@@ -80,7 +80,7 @@ def _mutations() -> list[tuple[str, Any]]:
     mutate("format version 2", lambda d: d.update(afecheck=2))
     mutate("version missing", lambda d: d.pop("afecheck"))
     mutate("kind missing", lambda d: d["components"]["R1"].pop("kind"))
-    mutate("unknown kind", lambda d: d["components"]["R1"].update(kind="inductor"))
+    mutate("unknown kind", lambda d: d["components"]["R1"].update(kind="transformer"))
     mutate("value missing", lambda d: d["components"]["R1"].pop("value"))
     mutate("unknown component key", lambda d: d["components"]["R1"].update(colour="blue"))
     mutate("pins not a mapping", lambda d: d["components"]["R1"].update(pins=["IN", "INM"]))

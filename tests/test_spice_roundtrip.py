@@ -40,7 +40,23 @@ def varied_design(seed: int) -> dict:
     part["gbw"] = rng.choice(["100 kHz", "1.5 MHz", "20 MHz"])
     part["min_stable_gain"] = rng.choice([1, 1, 5])
     part["input_cm_high"] = rng.choice(["1.5 V", "-1.5 V"])
+    _add_inductors(data, random.Random(seed + 1_000_000))
     return data
+
+
+def _add_inductors(data: dict, rng: random.Random) -> None:
+    """In about a third of the designs, put an inductor in series with some resistors (a new net between them),
+    so the round trip carries L cards too (a separate generator, so the other values do not move)."""
+    if rng.random() >= 0.35:
+        return
+    for ref, comp in list(data["components"].items()):
+        if comp["kind"] == "resistor" and rng.random() < 0.3:
+            key = next(k for k in comp["pins"] if str(k) == "2")
+            net = comp["pins"][key]
+            mid = f"{ref}_L"
+            comp["pins"][key] = mid
+            data["components"][f"L{ref}"] = {"kind": "inductor", "value": rng.choice(["1 uH", "47 uH", "2.2 mH"]),
+                                             "pins": {"1": mid, "2": net}}
 
 
 def _si(text: str) -> float:
@@ -77,6 +93,12 @@ def test_generated_design_reads_back_the_same(seed: int, tmp_path: Path) -> None
 @pytest.mark.parametrize("seed", SLOW_SEEDS)
 def test_many_generated_designs_read_back_the_same(seed: int, tmp_path: Path) -> None:
     _generated(seed, tmp_path)
+
+
+def test_some_varied_designs_carry_inductors() -> None:
+    with_l = [seed for seed in range(206) if any(c["kind"] == "inductor"
+                                                     for c in varied_design(seed)["components"].values())]
+    assert 40 <= len(with_l) <= 120 and any(s in with_l for s in FAST_SEEDS), len(with_l)
 
 
 def test_the_varied_designs_carry_findings(tmp_path: Path) -> None:

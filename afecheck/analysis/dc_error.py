@@ -5,14 +5,15 @@ Independent quantities of the channel that feeds the net: each op-amp's offset v
 tolerance, each rail's and reference's tolerance; and, as a systematic term, each op-amp's finite open-loop gain (the
 output with the declared A0 against A0 a million times larger). Each term is the change of the net's voltage
 when that quantity alone moves to its limit, found by a DC solve of the whole channel (exact for the linear
-circuit, first order in the product of two tolerances), at both ends of the declared signal range (signal low
-and high; a thermistor at the ends of its range). Where a declared signal drives the channel, the transfer is a
-straight line and each term splits into an offset (its error at zero scale, where the ideal output crosses
+circuit, first order in the product of two tolerances), at both ends of the declared range (every signal and every
+sensor of any kind, :mod:`afecheck.analysis.measurands`, at its low end, then at its high end). The straight line
+through the two ends splits each term into an offset (its error at zero scale, where the ideal output crosses
 0 V, if the range holds that point, else at mid-scale) and a gain error (the change of its error across the span
-over the ideal span). A channel driven only by a thermistor
-or a reference has no straight line to split: its offset is the term's larger error at the two ends and no gain
-error is given. A thermistor's own tolerance is the sensor's accuracy, not the electronics': it is listed
-(kind ``sensor``) but left out of the totals.
+over the ideal span); how far the nominal output strays from that line in between is the nonlinearity
+(:mod:`afecheck.analysis.nonlinearity`). A channel driven by neither a signal nor a sensor (a reference alone)
+has no span: its offset is the term's larger error at the two ends and no gain error is given. A sensor's own
+tolerance (an NTC's or bridge's ``tolerance``, an RTD's tolerance class) is the sensor's accuracy, not the
+electronics': it is listed (kind ``sensor``) but left out of the totals.
 
 Totals: worst case is the linear sum Σ|term|, statistical the root-sum-square √Σ term² (treating each limit as
 the same confidence bound, common practice). The exact worst case is also solved: every quantity at the limit
@@ -28,6 +29,7 @@ from collections.abc import Iterable, Mapping
 from dataclasses import dataclass, replace
 
 from afecheck.analysis.channel import Channel, per_channel
+from afecheck.analysis.measurands import has_sensor, own_tolerance, point_options
 from afecheck.analysis.mna import solve_dc
 from afecheck.analysis.netlist import (
     GROUND,
@@ -39,8 +41,10 @@ from afecheck.analysis.netlist import (
     VoltageSource,
     netlist_from_design,
 )
+from afecheck.analysis.nonlinearity import Nonlinearity, channel_nonlinearity
 from afecheck.errors import AnalysisError, InputError, SingularCircuitError
 from afecheck.model.loaded import LoadedDesign
+from afecheck.sensors.resistive import SWEPT_KINDS
 
 REFERENCE_C = 25.0
 IDEAL_GAIN_FACTOR = 1e6
@@ -94,6 +98,8 @@ class NetDcError:
     drift_rss: float = 0.0
     temperature_range: tuple[float, float] | None = None
     assumed: tuple[str, ...] = ()
+    nonlinearity: Nonlinearity | None = None
+    """end-point nonlinearity of the nominal channel over its measurand or input range"""
 
 
 @dataclass(frozen=True)
@@ -105,10 +111,8 @@ class DcErrorResult:
 
 
 def _end_options(loaded: LoadedDesign, channel: Channel, end: int) -> NetlistOptions:
-    """Netlist options for one end of the signal range: every signal at its low (0) or high (1) end."""
-    d = loaded.design
-    ntc = {r: d.components[r].temperature[end] for r in channel.refs if d.components[r].kind == "ntc"}
-    return NetlistOptions(signal_point=float(end), ntc_temperature_c=ntc, include_offsets=False)
+    """Netlist options for one end of the range: every signal and sensor at its low (0) or high (1) end."""
+    return point_options(loaded, channel.refs, float(end))
 
 
 def quantities(loaded: LoadedDesign, netlist: Netlist, drift: bool = False) -> tuple[list[Quantity], list[str]]:
@@ -118,8 +122,8 @@ def quantities(loaded: LoadedDesign, netlist: Netlist, drift: bool = False) -> t
     out: list[Quantity] = []
     assumed: list[str] = []
     for e in netlist.elements:
-        if isinstance(e, Resistor) and e.name in d.components and d.components[e.name].kind == "ntc":
-            tol = d.components[e.name].tolerance
+        if isinstance(e, Resistor) and e.name in d.components and d.components[e.name].kind in SWEPT_KINDS:
+            tol = own_tolerance(d.components[e.name])
             if tol and not drift:
                 out.append(Quantity(f"{e.name} tolerance", "sensor", (e.name,), tol, e.name, "scale"))
         elif isinstance(e, Resistor) and e.name in d.components and d.components[e.name].kind == "resistor":
@@ -250,7 +254,8 @@ def channel_dc_error(loaded: LoadedDesign, channel: Channel, nets: Iterable[str]
                          for q, m in zip(qs, moved, strict=True) if q.kind != "sensor"]
                 err = _v(perturbed(nl, moves), node) - ideal_v[k][n]
                 corner.setdefault(n, []).append(err)
-    linear = bool(channel.signal_branches)
+    linear = bool(channel.signal_branches) or has_sensor(loaded, channel.refs)
+    straightness = channel_nonlinearity(loaded, channel, [n for n, _ in targets])
     for n, _ in targets:
         lo_i, hi_i = ideal_v[0][n], ideal_v[1][n]
         terms = []
@@ -285,7 +290,7 @@ def channel_dc_error(loaded: LoadedDesign, channel: Channel, nets: Iterable[str]
             corner_low=min(corner[n]), corner_high=max(corner[n]), drift_terms=tuple(dterms),
             drift_worst=sum(drift_each), drift_rss=math.sqrt(sum(x * x for x in drift_each)),
             temperature_range=(float(rng[0]), float(rng[1])) if rng else None,
-            assumed=tuple(sorted(set(assumed + dassumed))),
+            assumed=tuple(sorted(set(assumed + dassumed))), nonlinearity=straightness[n],
         )
     return results
 

@@ -28,6 +28,7 @@ from afecheck.analysis.netlist import (
     GROUND,
     Capacitor,
     CurrentSource,
+    Inductor,
     Netlist,
     OpAmpCore,
     Resistor,
@@ -352,6 +353,14 @@ def _check_connectivity(netlist: Netlist, dc: bool) -> None:
             find(nd)
         if isinstance(e, Resistor) or (isinstance(e, Capacitor) and not dc):
             parent[find(e.a)] = find(e.b)
+        elif isinstance(e, Inductor):
+            parent[find(e.a)] = find(e.b)
+            if dc and e.series_resistance == 0:  # a short at DC: a loop of them with sources has no defined current
+                ra, rb = vfind(e.a), vfind(e.b)
+                if ra == rb:
+                    loops.append(e.name)
+                else:
+                    vparent[ra] = rb
         elif isinstance(e, (VoltageSource, Vcvs, OpAmpCore)):
             parent[find(e.pos)] = find(e.neg)
             ra, rb = vfind(e.pos), vfind(e.neg)

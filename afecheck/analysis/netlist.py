@@ -46,6 +46,18 @@ class Capacitor:
 
 
 @dataclass(frozen=True)
+class Inductor:
+    """Inductor of ``value`` henries between ``a`` and ``b`` in series with ``series_resistance`` ohms: a branch
+    whose current flows from ``a`` to ``b`` with v(a) − v(b) = (R + jωL)·i (a short at DC when R is 0)."""
+
+    name: str
+    a: str
+    b: str
+    value: float
+    series_resistance: float = 0.0
+
+
+@dataclass(frozen=True)
 class VoltageSource:
     """Independent voltage source: ``v(pos) - v(neg) = dc`` at DC and ``ac`` (complex phasor) in AC analysis."""
 
@@ -116,7 +128,7 @@ class OpAmpCore:
         return self.a0 / ((1 + 1j * f / self.fp1) * (1 + 1j * f / self.fp2))
 
 
-Element = Union[Resistor, Capacitor, VoltageSource, CurrentSource, Vcvs, Vccs, OpAmpCore]
+Element = Union[Resistor, Capacitor, VoltageSource, CurrentSource, Vcvs, Vccs, OpAmpCore, Inductor]
 
 
 @dataclass(frozen=True)
@@ -199,7 +211,7 @@ class Netlist:
 
 def element_nodes(e: Element) -> tuple[str, ...]:
     """The nodes an element touches (controlling nodes included)."""
-    if isinstance(e, (Resistor, Capacitor)):
+    if isinstance(e, (Resistor, Capacitor, Inductor)):
         return (e.a, e.b)
     if isinstance(e, (VoltageSource, CurrentSource)):
         return (e.pos, e.neg)
@@ -331,6 +343,9 @@ def netlist_from_design(
             elements.append(Resistor(ref, pin(ref, "1"), pin(ref, "2"), float(comp.value)))
         elif kind == "capacitor":
             elements.append(Capacitor(ref, pin(ref, "1"), pin(ref, "2"), float(comp.value)))
+        elif kind == "inductor":
+            elements.append(Inductor(ref, pin(ref, "1"), pin(ref, "2"), float(comp.value),
+                                     float(comp.series_resistance)))
         elif kind in SWEPT_KINDS:
             t = opts.ntc_temperature_c.get(ref, opts.temperature_c if kind != "bridge_arm" else None)
             if t is None:

@@ -69,6 +69,8 @@ class NoiseContributor:
     share: float
     output_density_top: float
     """output-referred density at the band's upper edge, V/√Hz"""
+    output_density: tuple[float, ...] = ()
+    """output-referred density on the net's frequency grid, V/√Hz (what the report plots)"""
 
 
 @dataclass(frozen=True)
@@ -236,7 +238,8 @@ def channel_noise(loaded: LoadedDesign, channel: Channel, nets: Iterable[str],
         out_rms = math.sqrt(sum(r * r for r in rms_each))
         tot_sq = out_rms**2 or 1.0
         contributors = sorted(
-            (NoiseContributor(s.name, s.kind, s.refs, r, r * r / tot_sq, float(math.sqrt(power[i, -1, j])))
+            (NoiseContributor(s.name, s.kind, s.refs, r, r * r / tot_sq, float(math.sqrt(power[i, -1, j])),
+                              tuple(float(v) for v in np.sqrt(power[i, :, j])))
              for i, (s, r) in enumerate(zip(sources, rms_each, strict=True))),
             key=lambda c: (-c.output_rms, c.name))
         in_density = in_rms = None

@@ -21,6 +21,7 @@ from afecheck.analysis.netlist import (
     Capacitor,
     CurrentSource,
     Element,
+    Inductor,
     Netlist,
     OpAmpCore,
     Resistor,
@@ -30,7 +31,7 @@ from afecheck.analysis.netlist import (
 )
 
 _PREFIX: dict[type, str] = {
-    Resistor: "R", Capacitor: "C", VoltageSource: "V", CurrentSource: "I", Vcvs: "E", Vccs: "G",
+    Resistor: "R", Capacitor: "C", VoltageSource: "V", CurrentSource: "I", Vcvs: "E", Vccs: "G", Inductor: "L",
 }
 _UNSAFE = re.compile(r"[^A-Za-z0-9_]")
 
@@ -197,6 +198,12 @@ def _card(e: Element, nodes: _Namer, elements: _Namer) -> str:
     name = elements.name(e.name, _PREFIX[type(e)])
     if isinstance(e, (Resistor, Capacitor)):
         return f"{name} {nodes.name(e.a)} {nodes.name(e.b)} {_fmt(e.value)}"
+    if isinstance(e, Inductor):
+        if e.series_resistance == 0:
+            return f"{name} {nodes.name(e.a)} {nodes.name(e.b)} {_fmt(e.value)}"
+        mid = nodes.name(f"{e.name}#winding")
+        return (f"{name} {nodes.name(e.a)} {mid} {_fmt(e.value)}\n"
+                f"{elements.name(e.name + '#winding', 'R')} {mid} {nodes.name(e.b)} {_fmt(e.series_resistance)}")
     if isinstance(e, (VoltageSource, CurrentSource)):
         mag, ph = abs(complex(e.ac)), math.degrees(cmath.phase(complex(e.ac)))
         ac = f" AC {_fmt(mag)} {_fmt(ph)}" if mag else ""

@@ -29,6 +29,7 @@ from afecheck.analysis.netlist import (
     Capacitor,
     CurrentSource,
     Element,
+    Inductor,
     Netlist,
     NetlistOptions,
     OpAmpCore,
@@ -450,6 +451,8 @@ def _value_key(comp) -> tuple:  # noqa: ANN001 - any component model
     kind = comp.kind
     if kind in ("resistor", "capacitor", "vsource"):
         return (comp.value,)
+    if kind == "inductor":
+        return (comp.value, comp.series_resistance)
     if kind == "ntc":
         return (comp.r25, comp.beta, comp.steinhart_hart, comp.points, tuple(comp.temperature))
     if kind in ("rtd", "bridge_arm"):
@@ -876,6 +879,8 @@ def _circuit_key(netlist: Netlist, probed: str) -> tuple:
         nodes = tuple(numbers.setdefault(n, len(numbers)) for n in element_nodes(e))
         if isinstance(e, (Resistor, Capacitor)):
             key.append((type(e).__name__, nodes, e.value))
+        elif isinstance(e, Inductor):
+            key.append(("inductor", nodes, e.value, e.series_resistance))
         elif isinstance(e, OpAmpCore):
             key.append(("core", nodes, e.a0, e.fp1, e.fp2, e.name == probed))
         elif isinstance(e, Vcvs):

@@ -17,6 +17,7 @@ from afecheck.analysis.netlist import (
     Capacitor,
     CurrentSource,
     Element,
+    Inductor,
     OpAmpCore,
     Resistor,
     Vccs,
@@ -96,6 +97,16 @@ def stamp_current_source(t: StampTarget, e: CurrentSource) -> None:
         t.b_ac[neg] += ac
 
 
+def stamp_inductor(t: StampTarget, e: Inductor) -> None:
+    """v(a) − v(b) − (R + jωL)·i = 0 with a branch current a → b: −R in G and −L in C on the branch's diagonal."""
+    if not e.value > 0:
+        raise ValueError(f"{e.name}: inductance must be positive, got {e.value!r}")
+    k = t.branch[e.name]
+    _branch_incidence(t, k, t.node[e.a], t.node[e.b])
+    t.g[k, k] -= e.series_resistance
+    t.c[k, k] -= e.value
+
+
 def stamp_vcvs(t: StampTarget, e: Vcvs) -> None:
     """v(pos) − v(neg) − gain·(v(cpos) − v(cneg)) = 0 with a branch current like a voltage source."""
     k = t.branch[e.name]
@@ -132,6 +143,7 @@ STAMPS: dict[type, Callable[[StampTarget, Element], None]] = {
     Vcvs: stamp_vcvs,
     Vccs: stamp_vccs,
     OpAmpCore: stamp_opamp_core,
+    Inductor: stamp_inductor,
 }
 
-BRANCH_KINDS: tuple[type, ...] = (VoltageSource, Vcvs, OpAmpCore)
+BRANCH_KINDS: tuple[type, ...] = (VoltageSource, Vcvs, OpAmpCore, Inductor)

@@ -27,6 +27,7 @@ def run(args: argparse.Namespace, stdout: TextIO, stderr: TextIO) -> int:
     recorded = [e.finding for e in report.entries() if e.status == "open"]
     write_outputs([(args.output, render_baseline(recorded, [(d.name, d.file) for d in report.designs]))], reads)
     waived = sum(1 for e in report.entries() if e.status == "waived")
+    # a run note, on standard error: the output may itself be standard output (``-o /dev/stdout``)
     print(f"afecheck: recorded {len(recorded)} findings from {len(report.designs)} designs in {args.output}"
-          + (f" ({waived} waived findings left out)" if waived else ""), file=stdout)
+          + (f" ({waived} waived findings left out)" if waived else ""), file=stderr)
     return EXIT_CLEAN

@@ -24,8 +24,20 @@ Verdicts = dict[str, tuple[Severity, ...]]
 
 
 def _split(name: str) -> tuple[str, str]:
-    ref, _, param = name.partition(".")
+    ref, _, param = name.rpartition(".")  # parameter names hold no dot; a reference may
     return ref, param
+
+
+def _part_name(loaded: LoadedDesign, ref: str) -> str | None:
+    """The part model name of op-amp ``ref``; None when ``ref`` is no op-amp with a known part.
+
+    Analyses also record assumptions that are not part parameters (a resistor's tolerance, an ADC's acquisition
+    time): those have no plausible range here, so a finding resting on one stays an estimate.
+    """
+    comp = loaded.design.components.get(ref)
+    if comp is None or comp.kind != "opamp" or comp.part not in loaded.parts:  # type: ignore[union-attr]
+        return None
+    return comp.part  # type: ignore[union-attr]
 
 
 def _variant(loaded: LoadedDesign, updates: Iterable[tuple[str, str, float]]) -> LoadedDesign:
@@ -93,8 +105,10 @@ class Sensitivity:
         ranges: dict[str, tuple[str, str, tuple[float, float]]] = {}
         for name in assumed:
             ref, param = _split(name)
-            model = loaded.part(ref)
-            part = loaded.design.components[ref].part  # type: ignore[union-attr]
+            part = _part_name(loaded, ref)
+            if part is None:
+                raise KeyError(name)
+            model = loaded.parts[part]
             declared[(part, param)] = float(model.get(param)[0])
             ranges[name] = (part, param, model.plausible_range(param))
         nominal = frozenset((p, q, v) for (p, q), v in declared.items())

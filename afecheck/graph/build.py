@@ -17,8 +17,8 @@ from afecheck.model.loaded import LoadedDesign
 if TYPE_CHECKING:
     import networkx as nx
 
-PASSIVE_KINDS = frozenset({"resistor", "capacitor", "ntc", "rtd", "bridge_arm"})
-CONDUCTIVE_KINDS = frozenset({"resistor", "ntc", "rtd", "bridge_arm"})
+PASSIVE_KINDS = frozenset({"resistor", "capacitor", "ntc", "rtd", "bridge_arm", "inductor"})
+CONDUCTIVE_KINDS = frozenset({"resistor", "ntc", "rtd", "bridge_arm", "inductor"})
 
 
 @dataclass(frozen=True)

@@ -43,7 +43,7 @@ class LoadedDesign:
         """net -> (refdes, other net, kind) for every resistor, capacitor and NTC on it; built once per design."""
         index: dict[str, list[tuple[str, str, str]]] = {}
         for ref, comp in self.design.components.items():
-            if comp.kind not in ("resistor", "capacitor", "ntc", "rtd", "bridge_arm"):
+            if comp.kind not in ("resistor", "capacitor", "ntc", "rtd", "bridge_arm", "inductor"):
                 continue
             a, b = comp.pins.get("1"), comp.pins.get("2")
             if a is not None and b is not None:

@@ -35,6 +35,7 @@ def Q(unit: str):  # noqa: N802 - reads like a unit annotation at the use site
 
 Ohm = Q("ohm")
 Farad = Q("F")
+Henry = Q("H")
 Volt = Q("V")
 Ampere = Q("A")
 Hertz = Q("Hz")
@@ -151,6 +152,15 @@ class Capacitor(_Component):
         if v is not None and v not in known:
             raise ValueError(f"unknown dielectric {v!r}; expected one of {', '.join(known)}")
         return v
+
+
+class Inductor(_Component):
+    """Inductor of ``value`` henries between pins 1 and 2, with its winding's ``series_resistance`` (a short at DC
+    apart from that resistance; jωL over frequency)."""
+
+    kind: Literal["inductor"]
+    value: Henry = Field(gt=0)
+    series_resistance: Ohm = Field(default=0.0, ge=0)
 
 
 StageRole = Literal["amplifier", "comparator", "schmitt", "integrator"]
@@ -306,7 +316,8 @@ class SignalSource(_Component):
 
 
 Component = Annotated[
-    Union[Resistor, Capacitor, OpAmp, Ntc, VoltageSource, SignalSource, Rtd, Thermocouple, Bridge, BridgeArm],
+    Union[Resistor, Capacitor, OpAmp, Ntc, VoltageSource, SignalSource, Rtd, Thermocouple, Bridge, BridgeArm,
+          Inductor],
     Field(discriminator="kind"),
 ]
 
@@ -321,6 +332,7 @@ PIN_NAMES: dict[str, tuple[str, ...]] = {
     "thermocouple": ("p", "n"),
     "bridge": ("exc+", "exc-", "out+", "out-"),
     "bridge_arm": ("1", "2"),
+    "inductor": ("1", "2"),
 }
 
 

@@ -34,14 +34,16 @@ MAX_ELEMENTS = 100_000
 MAX_SUBCIRCUIT_DEPTH = 50
 MAX_PROBLEMS = 50
 
-_READABLE = frozenset("rcvxl")
+_READABLE = frozenset("rclvix")
 _ELEMENT_NAMES = {"d": "diode", "q": "bipolar transistor", "m": "MOSFET", "j": "JFET", "e": "voltage-controlled "
                   "voltage source", "f": "current-controlled current source", "g": "voltage-controlled current "
                   "source", "h": "current-controlled voltage source", "b": "behavioural source", "k": "coupled "
                   "inductor", "t": "transmission line", "s": "switch", "w": "switch", "u": "RC line", "o": "lossy "
                   "line", "a": "XSPICE model", "z": "MESFET", "y": "transmission line", "p": "coupled line",
                   "n": "device model"}
-_IGNORED_PARAMS = {"tc", "tc1", "tc2", "temp", "dtemp", "noisy", "ic", "scale"}
+_IGNORED_PARAMS = {"tc", "tc1", "tc2", "temp", "dtemp", "noisy", "ic", "scale", "nt"}
+_PASSIVE_KINDS = {"r": "resistor", "c": "capacitor", "l": "inductor"}
+_VALUE_NAMES = {"resistor": ("r", "resistance"), "capacitor": ("c", "capacitance"), "inductor": ("l", "inductance")}
 _MILLI_TRAP = re.compile(r"^[0-9.]+M(?:ohm|Ω)?$")
 
 
@@ -186,7 +188,7 @@ class NetlistReader:
         elif key == ".func":
             self.problem(toks[0], ".func (user functions) is not supported; write the expression out in {...}")
         else:
-            self.problem(toks[0], f"unknown or unsupported command {toks[0].text!r}; afecheck reads R, C, V, X, "
+            self.problem(toks[0], f"unknown or unsupported command {toks[0].text!r}; afecheck reads R, C, L, V, I, X, "
                                   ".subckt/.ends, .param, .global, .include, .lib and ignores analysis commands")
 
     # ---- nets and names --------------------------------------------------------------------------------
@@ -242,18 +244,14 @@ class NetlistReader:
                         self.dot_card(card, scope)
                     continue
                 letter = key[0]
-                if letter in "rc":
+                if letter in "rcl":
                     self.passive(card, scope)
                 elif letter == "v":
                     self.vsource(card, scope)
+                elif letter == "i":
+                    self.isource(card, scope)
                 elif letter == "x":
                     self.instance(card, scope)
-                elif letter == "l":
-                    self.problem(card.tokens[0], f"inductor {card.tokens[0].text}: afecheck's circuit model has no "
-                                 "inductors yet; a supply filter can be left out (join its nets)")
-                elif letter == "i":
-                    self.problem(card.tokens[0], f"current source {card.tokens[0].text}: afecheck's design model "
-                                 "has no independent current source yet")
                 else:
                     what = _ELEMENT_NAMES.get(letter, "element")
                     self.problem(card.tokens[0], f"{card.tokens[0].text}: a {what} is not something afecheck "
@@ -263,7 +261,7 @@ class NetlistReader:
 
     def passive(self, card: Card, scope: _Instance) -> None:
         toks = card.tokens
-        kind = "resistor" if card.key[0] == "r" else "capacitor"
+        kind = _PASSIVE_KINDS[card.key[0]]
         args, pairs = split_params(list(toks[1:]))
         if pairs is None or len(args) < 2:
             self.problem(toks[0], f"{toks[0].text}: expected NAME NODE NODE VALUE")
@@ -275,7 +273,7 @@ class NetlistReader:
             return
         multiplier = 1.0
         for name, value in pairs:
-            if name.low in ("r", "resistance", "c", "capacitance") and value_tok is None:
+            if name.low in _VALUE_NAMES[kind] and value_tok is None:
                 value_tok = value
             elif name.low == "m":
                 multiplier = number(value, scope.params)
@@ -291,7 +289,7 @@ class NetlistReader:
         if not multiplier > 0:
             self.problem(toks[0], f"{toks[0].text}: m= must be positive")
             return
-        value = value / multiplier if kind == "resistor" else value * multiplier
+        value = value * multiplier if kind == "capacitor" else value / multiplier  # m= parts in parallel
         if kind == "resistor" and _MILLI_TRAP.match(value_tok.text):
             self.note(f"{value_tok.file}:{value_tok.line}: {toks[0].text} = {value_tok.text} is {value:g} Ω: in "
                       "SPICE 'M' means milli; mega is 'Meg'")
@@ -362,6 +360,39 @@ class NetlistReader:
         self.at(path, name)
         self.at(path + ("pins", "p"), toks[1])
         self.at(path + ("pins", "n"), toks[2])
+
+    def isource(self, card: Card, scope: _Instance) -> None:
+        """A current source with one node on ground: a ``current`` signal on the other net (DC value as its
+        range, AC magnitude or SIN amplitude as ``ac_current``, SIN frequency as its band); DC only, it is a bias
+        current (a current signal with no AC part). SPICE's current flows from n+ through the source to n-."""
+        toks = list(card.tokens)
+        if len(toks) < 3:
+            self.problem(toks[0], f"{toks[0].text}: expected NAME NODE+ NODE- [DC value] [AC mag] [SIN(...)]")
+            return
+        dc, ac, sine, notes = source_spec(toks, scope.params)
+        for text in notes:
+            self.note(text)
+        pos, neg = self.net(toks[1], scope), self.net(toks[2], scope)
+        name = toks[0]
+        if pos == neg:
+            self.problem(name, f"{name.text}: both nodes are {pos!r}: the source is shorted")
+            return
+        if GROUND not in (pos, neg):
+            self.problem(name, f"{name.text}: a current source between {pos!r} and {neg!r}: afecheck reads current "
+                               "sources from or to ground only (a current signal into a net)")
+            return
+        net, sign = (neg, 1.0) if pos == GROUND else (pos, -1.0)
+        if net in self.signals:
+            self.problem(name, f"{name.text} drives net {net!r}, which another source already drives")
+            return
+        self.refs[self._full(scope, name.text).lower()] = card
+        self.absorbed[self._full(scope, name.text).lower()] = f"current signal on net {net!r}"
+        entry: dict[str, Any] = {"kind": "current", "current": [sign * dc, sign * dc],
+                                 "ac_current": sine[1] if sine is not None else ac}
+        if sine is not None and sine[2] > 0:
+            entry["band"] = [sine[2], sine[2]]
+        self.signals[net] = entry
+        self.at(("signals", net), name)
 
     def _full(self, scope: _Instance, name: str) -> str:
         return f"{scope.prefix}.{name}" if scope.prefix else name
@@ -540,7 +571,7 @@ class NetlistReader:
             raise InputError(self.problems)
         if not self.components:
             raise InputError([Problem(self.file, 1, None, "", "no circuit elements: expected a SPICE netlist "
-                                                              "(title line, then R, C, V, X cards)")])
+                                                              "(title line, then R, C, L, V, I, X cards)")])
         return {"afecheck": 1, "name": title or Path(self.file).stem, "ground": GROUND, "rails": self.rails,
                 "components": self.components, "signals": self.signals}
 

@@ -53,6 +53,7 @@ PREFIXES: dict[str, int] = {
 UNITS: dict[str, tuple[tuple[str, ...], str]] = {
     "ohm": (("\u03a9", "\u2126", "ohm", "ohms", "Ohm", "Ohms", "R"), "ohms"),
     "F": (("F",), "farads"),
+    "H": (("H",), "henries"),
     "V": (("V",), "volts"),
     "A": (("A",), "amperes"),
     "C": (("C",), "coulombs"),

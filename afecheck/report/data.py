@@ -114,6 +114,92 @@ class Headroom:
 
 
 @dataclass(frozen=True)
+class NoiseShare:
+    """One noise source's part of a net's noise: RMS at the net over the band, its share of the total power, and
+    its output-referred density (V/√Hz) on the panel's grid."""
+
+    name: str
+    kind: str
+    output_rms: float
+    share: float
+    density: tuple[float, ...]
+
+
+@dataclass(frozen=True)
+class NoisePanel:
+    """Noise at one net as the noise analysis found it: band, temperature, total output density (V/√Hz) on a log
+    grid (Hz), RMS totals, the contributors ranked, and the budget with the fraction of it used."""
+
+    net: str
+    band_hz: tuple[float, float]
+    temperature_k: float
+    freqs_hz: tuple[float, ...]
+    output_density: tuple[float, ...]
+    output_rms: float
+    contributors: tuple[NoiseShare, ...]
+    signal: str | None = None
+    input_rms: float | None = None
+    budget: float | None = None
+    budget_used: float | None = None
+
+
+@dataclass(frozen=True)
+class ErrorTerm:
+    """One DC-error quantity at a net: its limit (± in ``limit_unit``: % for a fraction, V, A, V/V), the
+    output change at each signal end (V), and its offset (V) and gain-error (fraction) parts."""
+
+    name: str
+    kind: str
+    limit: float
+    limit_unit: str
+    error_low: float
+    error_high: float
+    offset: float
+    gain_error: float | None
+    counted: bool = True
+    """False for a sensor's own tolerance: listed, left out of the totals"""
+
+
+@dataclass(frozen=True)
+class ErrorTotal:
+    """One worksheet line: worst case (linear sum) and statistical (RSS) total, its unit, budget and use of it."""
+
+    label: str
+    unit: str
+    worst: float
+    rss: float
+    budget: float | None = None
+    budget_used: float | None = None
+
+
+@dataclass(frozen=True)
+class DcErrorPanel:
+    """The DC-error worksheet at one net: ideal outputs at the signal ends, every term, the totals (offset, gain
+    error, drift) against their budgets, and the exact worst-case corners (V)."""
+
+    net: str
+    ideal_low: float
+    ideal_high: float
+    terms: tuple[ErrorTerm, ...]
+    totals: tuple[ErrorTotal, ...]
+    corner_low: float
+    corner_high: float
+    drift_terms: tuple[ErrorTerm, ...] = ()
+    temperature_range: tuple[float, float] | None = None
+
+
+@dataclass(frozen=True)
+class NetBudget:
+    """The noise and DC-error panels of one net a stage drives (its output, or a loaded or budgeted net after it),
+    with the reason for each analysis that could not be done there."""
+
+    net: str
+    noise: NoisePanel | None = None
+    dc_error: DcErrorPanel | None = None
+    not_evaluated: tuple[str, ...] = ()
+
+
+@dataclass(frozen=True)
 class InputGain:
     """One signal input of a stage: its net and pin, the parts between, DC and in-band gain, loading."""
 
@@ -167,6 +253,7 @@ class StageView:
     open_loop: Trace | None = None
     closed_loop: tuple[Trace, ...] = ()
     band_hz: tuple[float, float] | None = None
+    budgets: tuple[NetBudget, ...] = ()
     estimated: bool = False
     assumed: tuple[str, ...] = ()
     not_evaluated: tuple[str, ...] = ()

@@ -17,7 +17,19 @@ from typing import Any
 from afecheck.model.units import format_si
 from afecheck.report._common import message, where
 from afecheck.report.cautions import cautions
-from afecheck.report.data import STATUS_MEANING, Entry, Report, StageView, fail_level_label, plural
+from afecheck.report.data import (
+    STATUS_MEANING,
+    DcErrorPanel,
+    Entry,
+    ErrorTerm,
+    ErrorTotal,
+    NetBudget,
+    NoisePanel,
+    Report,
+    StageView,
+    fail_level_label,
+    plural,
+)
 from afecheck.report.stage_lines import headroom_text, loop_text, si
 
 DEPENDENCIES = (("jinja2", "Jinja2"), ("matplotlib", "matplotlib"))
@@ -201,9 +213,10 @@ def _stage(v: StageView, sid: str, findings: list[dict[str, Any]], plots: Any) -
     if v.assumed:
         rows.append(("assumed part defaults", ", ".join(v.assumed)))
     figures: list[dict[str, Any]] = []
+    budgets = [_budget(b, f"{sid}-net{k}", plots) for k, b in enumerate(v.budgets, 1)]
     if plots is None:
         return {"id": sid, "view": v, "rows": rows, "figures": figures, "findings": findings,
-                "parts": ", ".join((v.opamp, *v.refs)), "unplotted": True}
+                "parts": ", ".join((v.opamp, *v.refs)), "unplotted": True, "budgets": budgets}
     loop = plots.loop_plot(v, f"{sid}-loop")
     if loop is not None:
         text = f"Loop gain |T| and phase of {v.opamp} against frequency: {loop_text(v)}."
@@ -227,7 +240,7 @@ def _stage(v: StageView, sid: str, findings: list[dict[str, Any]], plots: Any) -
                         "caption": f"Headroom of {v.opamp} between rails {v.rail_minus:g} V and {v.rail_plus:g} V: "
                                    f"{text}."})
     return {"id": sid, "view": v, "rows": rows, "figures": figures, "findings": findings,
-            "parts": ", ".join((v.opamp, *v.refs)), "unplotted": False}
+            "parts": ", ".join((v.opamp, *v.refs)), "unplotted": False, "budgets": budgets}
 
 
 def _opt(value: float | None, fmt: str) -> str:
@@ -238,3 +251,73 @@ def _margin(value: float | None) -> str:
     if value is None:
         return "no limit given"
     return f"{si(value, 'V')} inside" if value >= 0 else f"{si(-value, 'V')} beyond"
+
+
+def _v(x: float) -> str:
+    return format_si(float(x), "V", 3)
+
+
+def _pct(x: float | None) -> str:
+    return "-" if x is None else f"{100 * x:.3g} %"
+
+
+def _budget(b: NetBudget, bid: str, plots: Any) -> dict[str, Any]:
+    """The noise and DC-error panels of one net: the noise plot (when plots are drawn) with a caption carrying the
+    totals and every contributor's share, the contributor table, and the DC-error worksheet as tables."""
+    out: dict[str, Any] = {"id": bid, "net": b.net, "not_evaluated": b.not_evaluated, "figure": None,
+                           "noise": None, "dc": None}
+    if b.noise is not None:
+        n = b.noise
+        summary = _noise_summary(n)
+        out["noise"] = {"summary": summary, "rows": [(c.name, c.kind, _v(c.output_rms), f"{100 * c.share:.3g} %")
+                                                     for c in n.contributors]}
+        svg = plots.noise_plot(n, f"{bid}-noise") if plots is not None else None
+        if svg is not None:
+            shares = ", ".join(f"{c.name} {100 * c.share:.2g} %" for c in n.contributors)
+            out["figure"] = {"id": f"{bid}-noise", "svg": _markup(svg),
+                             "caption": f"Output noise density at {n.net} against frequency: {summary}. "
+                                        f"Contributors by share of the noise power: {shares}."}
+    if b.dc_error is not None:
+        out["dc"] = _dc_tables(b.dc_error)
+    return out
+
+
+def _noise_summary(n: NoisePanel) -> str:
+    text = (f"{_v(n.output_rms)} rms over {si(n.band_hz[0], 'Hz')} to {si(n.band_hz[1], 'Hz')} at "
+            f"{n.temperature_k:.1f} K")
+    if n.input_rms is not None:
+        text += f" (input-referred {_v(n.input_rms)} from {n.signal})"
+    if n.budget is not None:
+        text += f", budget {_v(n.budget)} ({_pct(n.budget_used)} used{', OVER' if (n.budget_used or 0) > 1 else ''})"
+    return text
+
+
+def _limit(t: ErrorTerm) -> str:
+    if t.limit_unit == "%":
+        return f"±{100 * t.limit:.3g} %"
+    if t.limit_unit in ("V", "A"):
+        return "±" + format_si(t.limit, t.limit_unit, 3)
+    return f"{t.limit:.4g} {t.limit_unit}".strip()
+
+
+def _term_row(t: ErrorTerm) -> tuple[str, ...]:
+    return (t.name + ("" if t.counted else " (sensor, not counted)"), _limit(t), _v(t.error_low), _v(t.error_high),
+            _v(t.offset), _pct(None if t.gain_error is None else abs(t.gain_error)))
+
+
+def _total_row(t: ErrorTotal) -> tuple[str, ...]:
+    show = _v if t.unit == "V" else _pct
+    used = "" if t.budget_used is None else f" ({_pct(t.budget_used)} used{', OVER' if t.budget_used > 1 else ''})"
+    return (t.label, show(t.worst), show(t.rss), "-" if t.budget is None else show(t.budget) + used)
+
+
+def _dc_tables(e: DcErrorPanel) -> dict[str, Any]:
+    totals = [_total_row(t) for t in e.totals]
+    summary = "; ".join(f"{t.label} {show(t.worst)} worst, {show(t.rss)} RSS"
+                        + ("" if t.budget is None else f", budget {show(t.budget)}")
+                        for t in e.totals for show in (_v if t.unit == "V" else _pct,))
+    temp = ("" if e.temperature_range is None
+            else f"{e.temperature_range[0]:g} °C to {e.temperature_range[1]:g} °C")
+    return {"terms": [_term_row(t) for t in e.terms], "drift": [_term_row(t) for t in e.drift_terms],
+            "totals": totals, "summary": summary, "ideal": f"{_v(e.ideal_low)} to {_v(e.ideal_high)}",
+            "corners": f"{_v(e.corner_low)} to {_v(e.corner_high)}", "temperature": temp}

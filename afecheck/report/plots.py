@@ -1,4 +1,5 @@
-"""The HTML page's plots as inline SVG drawn with matplotlib: loop gain and phase, closed-loop response, headroom.
+"""The HTML page's plots as inline SVG drawn with matplotlib: loop gain and phase, closed-loop response, headroom,
+noise density with its contributors.
 
 Drawing only: every curve and number comes from the stage view. matplotlib is imported on first use (the check
 path never loads it). Output is deterministic: a fixed hash salt per plot, no date, text kept as text, and every
@@ -11,7 +12,7 @@ import io
 import re
 from typing import Any
 
-from afecheck.report.data import Headroom, StageView, Trace
+from afecheck.report.data import Headroom, NoisePanel, StageView, Trace
 
 # our own palette: dark enough for 4.5:1 contrast on white; every series also differs in line style or marker
 INK = "#1a1a1a"
@@ -25,6 +26,7 @@ FORBIDDEN = "#f1d6d6"
 SIGNAL = "#0b5d7a"
 BEYOND = "#a1141b"
 SERIES = (("#0b5d7a", "-"), ("#5b2a86", "--"), ("#2f6b1f", "-."), ("#8c3b00", ":"))
+NOISE_TOP = 5  # contributors drawn one by one; the rest are in the total and the caption's list
 
 _ID = re.compile(r'\bid="([^"]+)"')
 
@@ -199,6 +201,57 @@ def _headroom_row(ax: Any, y: int, h: Headroom, left: float, right: float) -> No
     for x, align, shift in ((h.rail_low, "left", 2), (h.rail_high, "right", -2)):
         ax.annotate(f"rail {x:.3g} V", xy=(x, y - 0.25), xytext=(shift, -9), textcoords="offset points", ha=align,
                     fontsize=7.0)
+
+
+def noise_plot(panel: NoisePanel, plot_id: str) -> str | None:
+    """Output noise density (V/√Hz) at a net against frequency, the largest contributors beside the total, the band
+    shaded."""
+    points = [(f, d) for f, d in zip(panel.freqs_hz, panel.output_density, strict=True) if f > 0 and d > 0]
+    if len(points) < 2:
+        return None
+    plt = _pyplot()
+    with plt.rc_context(_style(plot_id)):
+        fig, ax = plt.subplots(figsize=(7.0, 3.2))
+        fig.subplots_adjust(left=0.13, right=0.6, top=0.9, bottom=0.15)
+        lo, hi = panel.band_hz
+        ax.axvspan(lo, hi, color=BAND, lw=0, label=f"band {_hz(lo)} to {_hz(hi)}")
+        ax.loglog([p[0] for p in points], [p[1] for p in points], color=INK, lw=2.0,
+                  label=f"total, {_volts(panel.output_rms)} rms")
+        for k, c in enumerate(panel.contributors[:NOISE_TOP]):
+            pts = [(f, d) for f, d in zip(panel.freqs_hz, c.density, strict=True) if f > 0 and d > 0]
+            if len(pts) < 2:
+                continue
+            color, style = SERIES[k % len(SERIES)]
+            ax.loglog([p[0] for p in pts], [p[1] for p in pts], color=color, ls=style, lw=1.3,
+                      marker=_MARKERS[k % len(_MARKERS)], markevery=max(1, len(pts) // 6), ms=4,
+                      label=f"{c.name} ({100 * c.share:.2g} %)")
+        _log_axis(ax)
+        _density_axis(ax)
+        ax.legend(loc="upper left", bbox_to_anchor=(1.02, 1.0), borderaxespad=0.0, fontsize=7.0)
+        ax.set_xlabel("frequency (Hz)")
+        ax.set_ylabel("density at the net (V/√Hz)")
+        ax.set_title(f"Output noise density at {panel.net}")
+        return _svg(fig, plot_id)
+
+
+_MARKERS = ("o", "s", "^", "v", "D")
+
+
+def _density_axis(ax: Any) -> None:
+    """Log density axis labelled in SI volts per root hertz at 1, 2 and 5 of each decade, no minor labels."""
+    from matplotlib.ticker import FuncFormatter, LogLocator, NullLocator
+
+    from afecheck.model.units import format_si
+
+    ax.yaxis.set_major_locator(LogLocator(base=10.0, subs=(1.0, 2.0, 5.0), numticks=12))
+    ax.yaxis.set_major_formatter(FuncFormatter(lambda y, _pos: format_si(y, "V", 1)))
+    ax.yaxis.set_minor_locator(NullLocator())
+
+
+def _volts(value: float) -> str:
+    from afecheck.model.units import format_si
+
+    return format_si(value, "V", 3)
 
 
 def _hz(value: float) -> str:

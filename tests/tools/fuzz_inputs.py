@@ -9,6 +9,7 @@ numbers or message (JSON report), under 10 s. :func:`run_library_case` feeds one
 
 from __future__ import annotations
 
+import copy
 import functools
 import io
 import json
@@ -64,14 +65,27 @@ def _pick(rng: random.Random, data: Any) -> tuple[Any, Any] | None:
     return rng.choice(spots) if spots else None
 
 
+_LOADER = getattr(yaml, "CSafeLoader", yaml.SafeLoader)  # libyaml where PyYAML has it: the generator's own
+_DUMPER = getattr(yaml, "CSafeDumper", yaml.SafeDumper)  # parsing, not afecheck's, was most of a case's time
+_UNPARSED = object()
+
+
+@functools.lru_cache(maxsize=32)
+def _parsed(text: str, as_json: bool) -> Any:
+    """``text`` as data (None when it does not parse); cached, since every case starts from one of a few seeds."""
+    try:
+        return json.loads(text) if as_json else yaml.load(text, Loader=_LOADER)  # noqa: S506 - a safe loader
+    except Exception:  # noqa: BLE001 - damaged text stays text
+        return None
+
+
 def mutate_text(rng: random.Random, text: str, as_json: bool = False) -> str:
     """One to four random edits of ``text``, structural (parse, change, re-dump) or textual."""
+    data: Any = _UNPARSED  # the data ``text`` was dumped from, kept across structural edits
     for _ in range(rng.randint(1, 4)):
         if rng.random() < 0.6:
-            try:
-                data = json.loads(text) if as_json else yaml.safe_load(text)
-            except Exception:  # noqa: BLE001 - damaged text stays text
-                data = None
+            if data is _UNPARSED:
+                data = copy.deepcopy(_parsed(text, as_json))
             spot = _pick(rng, data) if isinstance(data, (dict, list)) else None
             if spot is not None:
                 node, key = spot
@@ -84,10 +98,11 @@ def mutate_text(rng: random.Random, text: str, as_json: bool = False) -> str:
                     del node[key]
                 try:
                     text = (json.dumps(data, allow_nan=True) if as_json or rng.random() < 0.3
-                            else yaml.safe_dump(data, allow_unicode=True, sort_keys=False))
+                            else yaml.dump(data, Dumper=_DUMPER, allow_unicode=True, sort_keys=False))
                 except (TypeError, ValueError, OverflowError):
-                    pass
+                    data = _UNPARSED  # not written out: the next edit starts again from the text
                 continue
+        data = _UNPARSED
         pos = rng.randint(0, len(text))
         op = rng.random()
         lines = text.splitlines(keepends=True)
