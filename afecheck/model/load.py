@@ -14,6 +14,7 @@ from functools import partial
 from pathlib import Path
 
 from afecheck.errors import InputError, Problem
+from afecheck.model.input_kind import is_netlist
 from afecheck.model.loaded import LoadedDesign, PathKey, path_text
 from afecheck.model.paths import PathRefusedError, referenced_file
 from afecheck.model.positions import Positions
@@ -52,8 +53,6 @@ def _collector_paused() -> Iterator[None]:
 
 def _load(path: Path, intent: str | Path | None, libraries: tuple[str | Path, ...], input_format: str | None,
           netlist_map: str | Path | None) -> LoadedDesign:
-    from afecheck.model.spice_reader import is_netlist
-
     if is_netlist(path, input_format):
         doc = _read_netlist(path, intent, libraries, netlist_map)
     else:

@@ -21,12 +21,12 @@ from pathlib import Path
 from typing import Any
 
 from afecheck.errors import InputError, Problem
+from afecheck.model.input_kind import SPICE_SUFFIXES, is_netlist  # noqa: F401 (both were defined here)
 from afecheck.model.netlist_map import OpAmpMap, Refinement, infer_pins, read_map, skeleton
 from afecheck.model.reader import Document, PathKey
 from afecheck.model.spice_cards import Card, Token, read_netlist_cards, token
 from afecheck.model.spice_values import CardError, NetlistStop, Params, number, source_spec, split_params
 
-SPICE_SUFFIXES = (".cir", ".net", ".sp", ".spice", ".ckt")
 """File name endings read as SPICE netlists (any other name with ``--input-format spice``)."""
 GROUND = "0"
 MAX_ELEMENTS = 100_000
@@ -594,13 +594,6 @@ class NetlistReader:
 def _refinement_problem(r: Refinement, name: str, message: str) -> Problem:
     line, column = r.keys.get((), (None, None))
     return Problem(r.file, line, column, name, message)
-
-
-def is_netlist(path: str | Path, input_format: str | None = None) -> bool:
-    """True when ``path`` is read as a SPICE netlist: by ``input_format``, else by its name's ending."""
-    if input_format is not None:
-        return input_format == "spice"
-    return Path(path).suffix.lower() in SPICE_SUFFIXES
 
 
 def read_netlist(path: Path, display: str | None = None, *, map_file: str | Path | None = None,

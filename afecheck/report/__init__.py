@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import importlib
 from collections.abc import Callable
 
 from afecheck.report.data import Report
@@ -9,26 +10,23 @@ from afecheck.report.data import Report
 FORMATS: tuple[str, ...] = ("text", "json", "sarif", "junit", "markdown", "html")
 
 
+_RENDERERS: dict[str, tuple[str, str]] = {
+    "json": ("afecheck.report.json_report", "render_json"),
+    "sarif": ("afecheck.report.sarif", "render_sarif"),
+    "junit": ("afecheck.report.junit", "render_junit"),
+    "markdown": ("afecheck.report.markdown", "render_markdown"),
+    "html": ("afecheck.report.html", "render_html"),
+}
+
+
 def render(report: Report, fmt: str, color: bool = False) -> str:
-    """Render ``report`` in format ``fmt`` (one of :data:`FORMATS`)."""
-    from afecheck.report.json_report import render_json
-    from afecheck.report.junit import render_junit
-    from afecheck.report.markdown import render_markdown
-    from afecheck.report.sarif import render_sarif
-    from afecheck.report.text import render_text
-
-    table: dict[str, Callable[[Report], str]] = {
-        "json": render_json,
-        "sarif": render_sarif,
-        "junit": render_junit,
-        "markdown": render_markdown,
-    }
+    """Render ``report`` in format ``fmt`` (one of :data:`FORMATS`); only that format's module is imported."""
     if fmt == "text":
-        return render_text(report, color=color)
-    if fmt == "html":
-        from afecheck.report.html import render_html
+        from afecheck.report.text import render_text
 
-        return render_html(report)
-    if fmt not in table:
+        return render_text(report, color=color)
+    if fmt not in _RENDERERS:
         raise ValueError(f"unknown report format {fmt!r}; expected one of {', '.join(FORMATS)}")
-    return table[fmt](report)
+    module, function = _RENDERERS[fmt]
+    renderer: Callable[[Report], str] = getattr(importlib.import_module(module), function)
+    return renderer(report)
