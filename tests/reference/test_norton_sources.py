@@ -107,3 +107,28 @@ def test_clipping_restated_in_degrees_through_a_norton_excited_rtd(tmp_path: Pat
     (swing,) = [f for f in check_design(loaded).findings if f.rule == "headroom.output-swing"]
     assert swing.ctx["measurand_sensor"] == "RT1" and swing.ctx["measurand_unit"] == "°C"
     assert abs(swing.ctx["measurand_slope_v_per_unit"]) == pytest.approx(3e-3 * 3.6773, rel=1e-3)
+
+
+def test_current_into_a_rail_biased_node_adds_to_the_divider(tmp_path: Path) -> None:
+    # Superposition (Kirchhoff, Norton): 0..100 µA into a node biased by 10 kΩ from a 5 V ± 2 % rail and 10 kΩ to
+    # ground is VCC/2 + I·(10k ∥ 10k) = 2.45..2.55 V plus 0..0.5 V: 2.45..3.05 V, rail and current at their ends.
+    (tmp_path / "ref_parts.yaml").write_text((CASES / "ref_parts.yaml").read_text(encoding="utf-8"),
+                                             encoding="utf-8")
+    (tmp_path / "bias.yaml").write_text(
+        "afecheck: 1\nname: biased current node\npart_libraries: [ref_parts.yaml]\n"
+        "rails: {VCC: {voltage: 5 V, tolerance: 0.02}, VEE: {voltage: -5 V}}\ncomponents:\n"
+        "  R1: {kind: resistor, value: 10k, pins: {1: VCC, 2: S}}\n"
+        "  R2: {kind: resistor, value: 10k, pins: {1: S, 2: GND}}\n"
+        "  U1: {kind: opamp, part: REF-B, pins: {in+: S, in-: OUT, out: OUT, v+: VCC, v-: VEE}}\n"
+        "signals: {S: {kind: current, current: [0 A, 100 uA]}}\n", encoding="utf-8")
+    result = analyse_design(load_design(tmp_path / "bias.yaml"))
+    (stage,) = result.stages
+    # the follower with REF-B's A0 = 1e4 passes A0/(1 + A0) of in+ and its ±100 µV offset; its ±5 pA bias through
+    # 5 kΩ adds 25 nV
+    follow = 1e4 / (1e4 + 1)
+    assert stage.vout_min == pytest.approx((2.45 - 100e-6) * follow, abs=1e-7)
+    assert stage.vout_max == pytest.approx((3.05 + 100e-6) * follow, abs=1e-7)
+    assert result.nets["S"].dc_min == pytest.approx(2.45, abs=1e-6)
+    assert result.nets["S"].dc_max == pytest.approx(3.05, abs=1e-6)
+    gains = {i.net: i.gain for i in stage.inputs}
+    assert gains["S"] == pytest.approx(5000.0, rel=1e-3) and gains["VCC"] == pytest.approx(0.5, rel=1e-3)
