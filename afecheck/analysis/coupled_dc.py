@@ -76,14 +76,15 @@ def solve_with_neighbours(circuit: Circuit, plan: StagePlan, unit: tuple[str, ..
 
 
 def downstream(circuit: Circuit, unit: tuple[str, ...], stages: list[Stage]) -> list[str]:
-    """Op-amps outside the unit whose inputs sit on the unit's nets (not on a fixed or declared-signal net).
+    """Op-amps outside the unit whose inputs sit on the unit's nets (not on a fixed net or a declared voltage or
+    charge signal's net: a current signal's net takes the voltage its neighbours give it).
 
     Only these change the unit's DC values: an upstream stage drives the unit through its DC Thevenin
     equivalent (its output form behind its closed-loop output resistance), which is exact at DC."""
     near: dict[str, None] = {}
     for s in stages:
         for net in sorted(s.nets):
-            if net in circuit.fixed or net in circuit.signal_nets:
+            if net in circuit.fixed or (net in circuit.signal_nets and net not in circuit.norton_nets):
                 continue
             for ref, pin in circuit.net_pins.get(net, ()):
                 if pin in ("in+", "in-") and circuit.kinds[ref] == "opamp" and ref not in unit:

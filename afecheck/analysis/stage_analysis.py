@@ -143,6 +143,9 @@ def _collect_inputs(
             pin_of.setdefault(net, "in-")
     boundary = set().union(*(s.plus_region.boundary | s.minus_region.boundary for s in stages))
     boundary |= {n for s in stages for n in (s.in_plus, s.in_minus) if n in circuit.signal_nets}
+    # a current signal inside the walked network is a Norton source solved with the parts beside it
+    boundary |= {n for s in stages for r in (s.plus_region, s.minus_region, s.output_region)
+                 for n in r.nets & circuit.norton_nets}
     boundary = sorted(boundary)
     for net in sorted(dividers):
         dv = dividers[net]
@@ -364,8 +367,8 @@ def _neighbours(circuit: Circuit, plan: StagePlan, stages: list[Stage]) -> list[
         for r in s.upstream:
             near.setdefault(r, None)
         for net in s.nets:
-            if net in circuit.fixed or net in circuit.signal_nets:
-                continue  # an ideal source between stages decouples them
+            if net in circuit.fixed or (net in circuit.signal_nets and net not in circuit.norton_nets):
+                continue  # an ideal voltage source between stages decouples them (a current source does not)
             for ref, pin in circuit.net_pins.get(net, ()):
                 if pin in ("in+", "in-") and circuit.kinds[ref] == "opamp":
                     near.setdefault(ref, None)

@@ -52,6 +52,12 @@ class Circuit:
         return g
 
     @cached_property
+    def norton_nets(self) -> frozenset[str]:
+        """Nets of declared ``current`` signals: a current source into a node, not a held voltage, so a stage walk
+        crosses them and the parts beside the source (a sensor, a shunt, a bias network) join the stage's solve."""
+        return frozenset(net for net, sig in self.loaded.design.signals.items() if sig.kind == "current")
+
+    @cached_property
     def memo(self) -> dict:
         """Answers of whole-circuit queries, computed once (see graph/queries.py); the circuit never changes."""
         return {}

@@ -128,10 +128,12 @@ def passive_region(
 
 
 def stage_stop(circuit: Circuit, own_out: str) -> Callable[[str], bool]:
-    """The stop test of a stage walk: rails, ground, fixed nets, declared signal nets and other op-amps' outputs."""
-    fixed, signals, outputs = circuit.fixed, circuit.signal_nets, circuit.opamp_outputs
+    """The stop test of a stage walk: rails, ground, fixed nets, declared voltage and charge signal nets and other
+    op-amps' outputs. A current signal's net is crossed: its source is a Norton source solved with what is beside it."""
+    fixed, signals, outputs, norton = circuit.fixed, circuit.signal_nets, circuit.opamp_outputs, circuit.norton_nets
 
     def stop(net: str) -> bool:
-        return net in fixed or net in signals or (net in outputs and net != own_out) or net == own_out
+        return (net in fixed or (net in signals and net not in norton) or (net in outputs and net != own_out)
+                or net == own_out)
 
     return stop

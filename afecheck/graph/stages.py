@@ -1,7 +1,9 @@
 """Find one stage per op-amp, group op-amps whose feedback runs through each other, and classify each topology.
 
 A stage is an op-amp plus the passives reached from its pins. The walk from ``in+``/``in-`` stops at ground, rails,
-fixed-voltage nets, declared signal nets and other op-amps' outputs (a stiff node ends a stage); the walk from
+fixed-voltage nets, declared voltage and charge signal nets and other op-amps' outputs (a stiff node ends a stage);
+a declared ``current`` signal's net is crossed, so the parts beside the current source (a sensor, a shunt, a bias
+network) are in the stage and solved with it (a Norton source, not a held voltage); the walk from
 ``out`` also stops at other op-amps' ``in-`` nets (a virtual ground). Op-amps whose input walks reach each other's
 outputs in a loop (instrumentation amplifiers, state-variable filters) form a group that is solved together.
 
@@ -90,7 +92,7 @@ def _input_regions(circuit: Circuit, ref: str) -> tuple[Region, Region]:
         if net is None:
             return _EMPTY
         blocked = net in circuit.fixed or (net in circuit.opamp_outputs) or net == out
-        if net in circuit.signal_nets and not allow_signal:
+        if net in circuit.signal_nets and net not in circuit.norton_nets and not allow_signal:
             blocked = True
         if blocked:
             return Region(frozenset(), frozenset(), frozenset({net}))
@@ -104,7 +106,7 @@ def _signal_terminals(circuit: Circuit, region: Region, group: tuple[str, ...], 
     """Signal-carrying nets a side of the stage reaches; a thermistor counts as one, except on the ``in-`` side
     (``gain_side``) where a thermistor touching the pin sets the gain rather than carrying a signal."""
     found = set()
-    nets = set(region.boundary)
+    nets = set(region.boundary) | (region.nets & circuit.norton_nets)
     if start is not None:
         nets.add(start)
     for net in nets:
