@@ -93,7 +93,7 @@ def mutate_text(rng: random.Random, text: str, as_json: bool = False) -> str:
                 node, key = spot
                 op = rng.random()
                 if op < 0.7:
-                    node[key] = rng.choice(HOSTILE)
+                    node[key] = copy.deepcopy(rng.choice(HOSTILE))  # later edits must not change HOSTILE
                 elif op < 0.85 and isinstance(node, dict):
                     node[str(rng.choice(HOSTILE))] = node.pop(key)
                 elif isinstance(node, dict):

@@ -111,7 +111,9 @@ def _mutate(draw: st.DrawFn, data: dict) -> None:
             else:
                 parent.pop(path[-1])
         elif op == "replace":
-            parent[path[-1]] = draw(st.sampled_from(HOSTILE_VALUES) | TEXTS | st.floats() | st.integers())
+            # a copy: a later edit inside a shared hostile list or mapping would change it for every later example
+            value = draw(st.sampled_from(HOSTILE_VALUES) | TEXTS | st.floats() | st.integers())
+            parent[path[-1]] = copy.deepcopy(value)
         elif isinstance(parent, dict):
             parent[draw(TEXTS)] = parent.pop(path[-1])
     elif op == "kind" and comps:
