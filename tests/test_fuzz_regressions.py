@@ -57,3 +57,18 @@ def test_op_amp_reference_holding_a_dot_keeps_its_assumptions_checked(tmp_path: 
     [f] = [f for f in report["findings"] if f["rule"] == "stability.phase-margin"]
     assert f["severity"] == "error" and f["confidence"] == "computed", f
     assert "U1.a.input_capacitance_diff" in f["ctx"]["assumptions_checked"]
+
+
+def test_a_rail_named_inf_is_a_name_not_an_infinite_value(tmp_path: Path) -> None:
+    # Found by the 100 000-case fuzz: the kiln sample with its VEE rail renamed "inf". The supply-pin rule lists
+    # the declared rails in its message ("declared rails: GND, VCC, inf"); the last guard against NaN/inf read the
+    # rail's name as a printed infinity and turned the error into a "not evaluated" warning, so the gate passed.
+    text = (SAMPLES / "kiln_thermocouple.yaml").read_text(encoding="utf-8")
+    renamed = text.replace("\n  VEE:", "\n  inf:", 1)
+    assert renamed != text
+    path = tmp_path / "design.yaml"
+    path.write_text(renamed, encoding="utf-8")
+    code, report, _ = run_json(path)
+    assert code == 1
+    (finding,) = [f for f in report["findings"] if f["rule"] == "headroom.supply-pin-off-rail"]
+    assert finding["severity"] == "error" and "declared rails: GND, VCC, inf" in finding["message"]
