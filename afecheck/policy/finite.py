@@ -43,21 +43,21 @@ def _finite_only(value: Any) -> Any:
     return value
 
 
-def _quoted_names(value: Any) -> set[str]:
+def quoted_names(value: Any) -> set[str]:
     """Names a finding carries as text in its numbers (a list of declared rails, say), each item of a list too."""
     if isinstance(value, str):
         return {value, *(part.strip() for part in value.split(","))}
     if isinstance(value, dict):
-        return {n for v in value.values() for n in _quoted_names(v)}
+        return {n for v in value.values() for n in quoted_names(v)}
     if isinstance(value, (list, tuple)):
-        return {n for v in value for n in _quoted_names(v)}
+        return {n for v in value for n in quoted_names(v)}
     return set()
 
 
 def _message_tokens(f: Finding) -> bool:
     """True when the message prints nan or inf outside the part, net and other names it quotes."""
     text = f"{f.message} {f.fix}"
-    names = {*f.location.refs, *f.location.nets, *f.location.pins, *_quoted_names(f.ctx)}
+    names = {*f.location.refs, *f.location.nets, *f.location.pins, *quoted_names(f.ctx)}
     for name in sorted(names, key=len, reverse=True):
         if name:
             text = text.replace(name, " ")

@@ -180,6 +180,7 @@ class Clock:
 def report_problems(out: str, fmt: str) -> list[str]:
     """What is wrong in a report: internal-error findings; in JSON also non-finite numbers, nan/inf printed."""
     from afecheck.engine.registry import CRASH_META
+    from afecheck.policy.finite import quoted_names
 
     if fmt != "json" or not out.lstrip().startswith("{"):
         return [f"internal error finding in: {out[:2000]}"] if CRASH_META.id in out else []
@@ -189,7 +190,8 @@ def report_problems(out: str, fmt: str) -> list[str]:
             bad.append(f"internal error finding: {f['message']}")
         text = json.dumps(f["ctx"])
         message = f"{f['message']} {f['fix']} {text}"
-        for name in sorted({*f["refs"], *f["nets"], *f["pins"], f["design"]}, key=len, reverse=True):
+        names = {*f["refs"], *f["nets"], *f["pins"], f["design"], *quoted_names(f["ctx"])}
+        for name in sorted(names, key=len, reverse=True):
             if name:
                 message = message.replace(name, " ").replace(json.dumps(name)[1:-1], " ")
         if _TOKEN.search(message) or "NaN" in text or "Infinity" in text:
