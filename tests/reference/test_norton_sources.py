@@ -55,7 +55,9 @@ def test_norton_stage_gain_and_ac_match_hand_deck(name: str, tmp_path: Path) -> 
     assert inp.gain == pytest.approx(_values(text)["transfer_function"], rel=1e-6)
     netlist, branches = circuits["U1"]
     system = assemble(netlist)
-    x = np.linalg.solve(system.admittance(np.array(FREQS)), unit_excitation(system, branches["S"]))
+    y = system.admittance(np.array(FREQS))
+    b = np.broadcast_to(np.asarray(unit_excitation(system, branches["S"]))[..., None], (*y.shape[:-1], 1))
+    x = np.linalg.solve(y, b)[..., 0]  # b as a column per frequency: numpy 1.x does not broadcast a 1-D b
     want = _ngspice_ac(deck, tmp_path / "ac")
     for net in ("S", "OUT"):
         got = x[:, system.node_index(net)]
