@@ -189,3 +189,18 @@ def test_good_example_sits_inside_and_a_looser_compensation_breaks_it(tmp_path: 
     data["components"]["TC1"]["cjc_accuracy"] = "2.7 K"
     path.write_text(yaml.safe_dump(data, allow_unicode=True), encoding="utf-8")
     assert _findings(path) == []
+
+
+def test_no_budget_and_no_span_is_not_evaluated_and_a_perfect_compensation_adds_no_term(tmp_path: Path) -> None:
+    data = yaml.safe_load((RULE / "good.yaml").read_text(encoding="utf-8"))
+    del data["budgets"]
+    data["components"]["TC1"]["hot"] = ["450 °C", "450 °C"]
+    path = tmp_path / "fixed.yaml"
+    path.write_text(yaml.safe_dump(data, allow_unicode=True), encoding="utf-8")
+    (f,) = _findings(path)
+    assert f.confidence == "not-evaluated" and "no span" in f.message
+    del data["components"]["TC1"]["cjc_accuracy"]  # compensated, accuracy left out: declared perfect
+    path.write_text(yaml.safe_dump(data, allow_unicode=True), encoding="utf-8")
+    assert _findings(path) == []
+    terms = analyse_dc_error(load_design(path), ["OUT"]).nets["OUT"].terms
+    assert [t for t in terms if t.hot_junction_c is not None] == []

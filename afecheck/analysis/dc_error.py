@@ -156,8 +156,9 @@ def quantities(loaded: LoadedDesign, netlist: Netlist, drift: bool = False) -> t
             if tol > 0:
                 out.append(Quantity(f"{e.name} tolerance", "resistor", (e.name,), tol, e.name, "scale"))
         elif isinstance(e, VoltageSource) and getattr(loaded.sensors.get(e.name), "kind", None) == "thermocouple":
-            if not drift:
-                out.append(cold_junction_quantity(e.name, loaded.sensors[e.name]))
+            q = None if drift else cold_junction_quantity(e.name, loaded.sensors[e.name])
+            if q is not None and q.limit > 0:
+                out.append(q)
         elif isinstance(e, VoltageSource) and e.dc != 0.0:
             base = e.name.split("#")[0]
             src = d.rails.get(base) if e.name.endswith("#rail") else d.components.get(e.name)

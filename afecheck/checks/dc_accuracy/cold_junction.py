@@ -5,7 +5,7 @@ from __future__ import annotations
 from collections.abc import Iterator
 
 from afecheck.checks.budgets.shared import dc_error_of_budgets
-from afecheck.checks.common import finding, fmt, grade_above, pct
+from afecheck.checks.common import finding, fmt, grade_above, not_evaluated, pct
 from afecheck.engine.context import Context
 from afecheck.engine.finding import Finding, Severity
 from afecheck.engine.rule import Param, RuleMeta
@@ -78,6 +78,11 @@ def check(ctx: Context) -> Iterator[Finding]:
         if judged:
             continue
         span = abs(float(comp.hot[1]) - float(comp.hot[0]))
+        if span == 0.0 and cj.emf_v > 0.0:
+            yield not_evaluated(ctx, f"cold-junction error of {ref}", f"{_cause(cj)}: {_hot(cj)}, but no net it "
+                                "feeds has an offset budget and its hot range has no span to take a share of",
+                                refs=(ref,))
+            continue
         share = ctx.param("span_share")
         limit, value = share * span, cj.at_hot_c
         if grade_above(value, limit, limit) is None:
