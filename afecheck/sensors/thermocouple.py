@@ -1,4 +1,4 @@
-"""Thermocouple voltages from the ITS-90 reference functions (types E, J, K, N, T) and cold-junction compensation.
+"""Thermocouple voltages from the ITS-90 reference functions (types E, J, K, N, T), and their Seebeck coefficients.
 
 E(t) = Σ c_i·t^i (+ a0·exp(a1·(t − a2)²) for type K above 0 °C), t in °C, E in mV. Coefficients are the
 published reference-function coefficients of NIST Monograph 175 (1993), "Temperature-Electromotive Force Reference
