@@ -10,7 +10,9 @@ ranges: the largest voltage error over the cold range, over the smallest Seebeck
 
 from __future__ import annotations
 
+from collections.abc import Callable
 from dataclasses import dataclass
+from functools import lru_cache
 from typing import Any
 
 from afecheck.sensors import thermocouple as tc
@@ -51,6 +53,14 @@ def _grid(lo: float, hi: float) -> list[float]:
     return [lo + (hi - lo) * k / n for k in range(n + 1)]
 
 
+@lru_cache(maxsize=256)
+def _extreme(tc_type: str, lo: float, hi: float, of: str, pick: Callable) -> float:
+    """The temperature of the grid over ``lo``..``hi`` where |S| (``of`` "seebeck") or |E| ("emf") is largest or
+    smallest (``pick``); kept per range, since every channel of a design asks the same."""
+    f = tc.seebeck_uv_per_c if of == "seebeck" else tc.emf_mv
+    return pick(_grid(lo, hi), key=lambda t: abs(f(tc_type, t)))
+
+
 def seebeck_v_per_c(tc_type: str, t_c: float) -> float:
     """The Seebeck coefficient dE/dt at ``t_c`` in V/°C."""
     return tc.seebeck_uv_per_c(tc_type, t_c) * 1e-6
@@ -64,11 +74,11 @@ def cold_junction_error(ref: str, comp: Any) -> ColdJunctionError:
     cold = (float(comp.cold[0]), float(comp.cold[1]))
     delta = float(comp.cjc_accuracy)
     if comp.compensated:
-        cold_c = max(_grid(*cold), key=lambda t: abs(tc.seebeck_uv_per_c(kind, t)))
+        cold_c = _extreme(kind, *cold, "seebeck", max)
         emf = delta * abs(seebeck_v_per_c(kind, cold_c))
     else:
-        cold_c = max(_grid(*cold), key=lambda t: abs(tc.emf_mv(kind, t)))
+        cold_c = _extreme(kind, *cold, "emf", max)
         emf = abs(tc.emf_mv(kind, cold_c)) * 1e-3
-    hot_c = min(_grid(float(comp.hot[0]), float(comp.hot[1])), key=lambda t: abs(tc.seebeck_uv_per_c(kind, t)))
+    hot_c = _extreme(kind, float(comp.hot[0]), float(comp.hot[1]), "seebeck", min)
     return ColdJunctionError(ref, kind, bool(comp.compensated), delta, cold, emf, cold_c,
                              seebeck_v_per_c(kind, cold_c), hot_c, abs(seebeck_v_per_c(kind, hot_c)))

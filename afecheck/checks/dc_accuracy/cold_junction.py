@@ -71,7 +71,7 @@ def check(ctx: Context) -> Iterator[Finding]:
             at_sensor, numbers = measurand_note(ctx, net, value, "V", limit)
             text = (f"{net}: {_cause(cj)}, {fmt(value, 'V')} at {net}: {pct(value / budget)} of its "
                     f"{fmt(budget, 'V')} offset budget (limit {pct(share)}, {fmt(limit, 'V')})"
-                    f"{'; ' + at_sensor if at_sensor else ''}")
+                    f"; {at_sensor or _hot(cj)}")
             yield finding(ctx, Severity.ERROR, value=value, limit=limit, unit="V", margin=limit - value,
                           limit_source=f"budgets.{net}.offset × rule parameter", message=text, fix=META.fix,
                           refs=(ref,), nets=(net,), extra=_numbers(cj) | numbers)
