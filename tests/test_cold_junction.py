@@ -12,6 +12,7 @@ near room temperature and at 400 °C (E''' of order 1e-3 µV/°C³).
 from __future__ import annotations
 
 import math
+import re
 from pathlib import Path
 
 import pytest
@@ -26,7 +27,9 @@ from afecheck.model.load import load_design
 from afecheck.model.schema import Thermocouple
 from afecheck.sensors import thermocouple as tc
 from afecheck.sensors.cold_junction import cold_junction_error
+from afecheck.sensors.expand import thermocouple_range_v
 from afecheck.sensors.measurand import net_scale
+from tests.ngspice_harness import needs_ngspice, run_ngspice
 
 ROOT = Path(__file__).resolve().parents[1]
 KILN = ROOT / "sample_designs" / "kiln_thermocouple.yaml"
@@ -204,3 +207,36 @@ def test_no_budget_and_no_span_is_not_evaluated_and_a_perfect_compensation_adds_
     assert _findings(path) == []
     terms = analyse_dc_error(load_design(path), ["OUT"]).nets["OUT"].terms
     assert [t for t in terms if t.hot_junction_c is not None] == []
+
+
+KILN_DECK = """hand-written: kiln stage, thermocouple source at its low end, then shifted by the cold-junction error
+VTC s 0 DC {v0!r}
+RLEAD s tcp 40
+E1 out 0 tcp fb {a0!r}
+R1 out fb 49.9k
+R2 fb 0 1k
+RL out 0 10k
+.control
+set numdgt=15
+op
+print v(out)
+alter VTC dc = {v1!r}
+op
+print v(out)
+quit
+.endc
+.end
+"""
+
+
+@needs_ngspice
+@pytest.mark.ngspice
+def test_dc_error_term_through_the_stage_matches_ngspice() -> None:
+    # the stage as ngspice solves it with a gain-A0 amplifier: the output moves by the term when the source does
+    loaded = load_design(KILN)
+    e = analyse_dc_error(loaded, ["OUT"]).nets["OUT"]
+    (term,) = [t for t in e.terms if t.kind == "cold junction"]
+    v0 = thermocouple_range_v(loaded.sensors["TC1"])[0]
+    text, _ = run_ngspice(KILN_DECK.format(v0=v0, v1=v0 + term.limit, a0=loaded.part("U1").open_loop_gain))
+    before, after = (float(x) for x in re.findall(r"v\(out\)\s*=\s*(\S+)", text))
+    assert term.error_low == pytest.approx(after - before, rel=1e-5)
