@@ -135,3 +135,19 @@ def test_a_stale_map_is_refused(mapped: tuple[Path, dict], tmp_path: Path) -> No
         assert mutate.load_map(saved, tree, pool[:1])[0] is None
     finally:
         (root / "tests" / "test_double.py").write_text(TESTS["tests/test_double.py"], encoding="utf-8")
+
+
+def test_a_planted_mutant_is_run_through_the_fork_server(mapped: tuple[Path, dict]) -> None:
+    root, cmap = mapped
+    by = {(m.function, m.key.split(" | ")[2]): m for m in mutate.mutants([root / "pkg" / "mod.py"], root=root,
+                                                                          only=None)}
+    server = mutate.ForkServer(root)
+    try:
+        # x * 2 -> x / 2 breaks test_double; x < lo -> x <= lo changes nothing any test looks at (no x == 0 case)
+        killed = mutate._run_one(by[("double", "Mult->Div")], root, cmap, None, server)
+        kept = mutate._run_one(by[("clamp", "Lt->LtE")], root, cmap, None, server)
+    finally:
+        server.close()
+    assert (killed["killed"], killed["tests"]) == (True, 1)
+    assert (kept["killed"], kept["tests"]) == (False, 4)
+    assert (root / "pkg" / "mod.py").read_text(encoding="utf-8") == MODULE
