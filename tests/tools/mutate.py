@@ -327,9 +327,10 @@ def equivalent_reason(m: Mutant, same: dict[str, str]) -> str | None:
     return same.get(m.key, same.get(m.id))
 
 
-def tree_hash(root: Path, names: tuple[str, ...] = COPY) -> str:
-    """sha256 over every file the tests can see (path and bytes), so a coverage map is never used on other code
-    (the runner's own files and the equivalents list do not change what a test runs, so they are left out)."""
+def tree_hash(root: Path, names: tuple[str, ...] = COPY, pool: list[str] | None = None) -> str:
+    """sha256 over every file the mapped tests can see (path and bytes), so a coverage map is never used on other
+    code. Left out: test modules outside the pool (no test imports another's module), the runner's own files and
+    the equivalents list, none of which changes what a mapped test runs."""
     h = hashlib.sha256()
     for name in names:
         top = root / name
@@ -337,6 +338,9 @@ def tree_hash(root: Path, names: tuple[str, ...] = COPY) -> str:
         for p in paths:
             rel = p.relative_to(root).as_posix()
             if "__pycache__" in p.parts or rel in UNMAPPED or p.suffix == ".pyc":
+                continue
+            if pool is not None and p.name.startswith("test_") and p.suffix == ".py" \
+                    and not any(rel == t or rel.startswith(t.rstrip("/") + "/") for t in pool):
                 continue
             h.update(rel.encode() + b"\0" + p.read_bytes() + b"\0")
     return h.hexdigest()
@@ -587,7 +591,7 @@ def _prepare(work: Path, chosen: list[Mutant], tests: list[str] | None, use_map:
         if not _pytest(work, [t for t in everything if t not in SLOW]):
             raise SystemExit("the unmutated test subset fails: fix the suite first")
         return None
-    tree = tree_hash(ROOT)
+    tree = tree_hash(ROOT, COPY, pool)
     cmap, why = load_map(map_file, tree, pool) if map_file else (None, "")
     if cmap is None:
         if map_file is not None and map_file.exists():
@@ -604,7 +608,7 @@ def _prepare(work: Path, chosen: list[Mutant], tests: list[str] | None, use_map:
     return _with_imports(cmap, work, TARGETS)
 
 
-def _summary(results: list[dict], t_setup: float, survivors_file: Path | None) -> tuple[int, float]:
+def _summary(results: list[dict], t_setup: float) -> tuple[int, float]:
     """Print the rate per area, the time per mutant and the survivors; (killed, rate)."""
     killed = sum(r["killed"] for r in results)
     counted = [r for r in results if "equivalent" not in r]
@@ -617,16 +621,16 @@ def _summary(results: list[dict], t_setup: float, survivors_file: Path | None) -
           f"out; {killed}/{len(results)} = {killed / max(len(results), 1):.1%} counting them as survivors)")
     print(f"time: set-up {t_setup:.0f} s, {sum(ran) / max(len(ran), 1):.1f} s per mutant run "
           f"({len(ran)} run, {len(counted) - len(ran)} not covered)")
-    lines = []
     for r in counted:
         if not r["killed"]:
-            m_file, m_fn = r["key"].split(" | ")[:2]
-            note = "" if r.get("covered", True) else " (not covered)"
-            lines.append(f"{r['id']}  [{m_file} {m_fn}]{note}")
-            print(f"survivor: {lines[-1]}")
-    if survivors_file is not None:
-        survivors_file.write_text("".join(ln + "\n" for ln in lines), encoding="utf-8")
+            print(f"survivor: {_survivor_line(r)}")
     return killed, rate
+
+
+def _survivor_line(r: dict) -> str:
+    """``readable id  [file function]``, with ``(not covered)`` when no test runs the code."""
+    m_file, m_fn = r["key"].split(" | ")[:2]
+    return f"{r['id']}  [{m_file} {m_fn}]" + ("" if r.get("covered", True) else " (not covered)")
 
 
 def run(sample: int | None, seed: int, report: Path | None, ids: list[str] | None = None,
@@ -645,6 +649,8 @@ def run(sample: int | None, seed: int, report: Path | None, ids: list[str] | Non
     same = equivalents()
     results = []
     t_start = time.monotonic()
+    if survivors_file is not None:
+        survivors_file.write_text("", encoding="utf-8")
     with tempfile.TemporaryDirectory(prefix="afecheck-mutants-") as tmp:
         work = Path(tmp)
         cmap = _prepare(work, chosen, tests, use_map, map_file)
@@ -660,13 +666,16 @@ def run(sample: int | None, seed: int, report: Path | None, ids: list[str] | Non
                     continue
                 r = _run_one(m, work, cmap, tests, server)
                 results.append(r)
+                if survivors_file is not None and not r["killed"]:  # as found, for whoever writes the kill tests
+                    with survivors_file.open("a", encoding="utf-8") as out:
+                        out.write(_survivor_line(r) + "\n")
                 verdict = "killed  " if r["killed"] else "SURVIVED"
                 how = f"{r['tests']} tests, {r['seconds']:.1f} s" if r["covered"] else "not covered: no test runs it"
                 print(f"[{k}/{len(chosen)}] {verdict} {where} ({how})", flush=True)
         finally:
             if server is not None:
                 server.close()
-    killed, rate = _summary(results, t_setup, survivors_file)
+    killed, rate = _summary(results, t_setup)
     if report is not None:
         report.write_text(json.dumps({"seed": seed, "sample": len(chosen), "total": len(every), "killed": killed,
                                       "equivalent": sum("equivalent" in r for r in results), "rate": rate,
@@ -691,7 +700,7 @@ def main(argv: list[str] | None = None) -> int:
     ap.add_argument("--coverage-map", type=Path, default=None,
                     help="reuse the line-to-tests map saved here if recorded on this exact tree, else record and save")
     ap.add_argument("--no-map", action="store_true", help="run whole test files per mutant, without the coverage map")
-    ap.add_argument("--survivors", type=Path, default=None, help="write the survivors here, one a line")
+    ap.add_argument("--survivors", type=Path, default=None, help="write survivors here as found")
     ap.add_argument("--no-fork", action="store_true", help="start a fresh pytest process for every mutant")
     args = ap.parse_args(argv)
     files = sorted(p for t in TARGETS for p in (ROOT / t).rglob("*.py") if p.name != "__init__.py")
