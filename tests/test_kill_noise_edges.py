@@ -113,3 +113,19 @@ def test_a_segment_with_a_zero_end_is_integrated_as_a_trapezoid():
     assert band_rms(np.array([1.0, 10.0, 100.0]), np.full(3, 1e-18)) == pytest.approx(math.sqrt(99e-18), rel=1e-12)
     # a tiny total (1e-30 V²) stays tiny: nothing in the integral floors it
     assert band_rms(np.array([1.0, 2.0]), np.full(2, 1e-30)) == pytest.approx(1e-15, rel=1e-12)
+
+
+def test_noise_at_every_net_of_the_channel(tmp_path):
+    # A 1 kΩ source resistance, 10 kΩ in series to the follower's input (no current flows in it), at 300 K
+    # (Johnson 1928; Nyquist 1928; hand calculation): at IN only the source resistance is seen, √(4kT·1 kΩ) =
+    # 4.07 nV/√Hz; at X and OUT both resistors in series, √(4kT·11 kΩ) = 13.50 nV/√Hz. Every net is a target in
+    # one solve, whichever its place among the unknowns.
+    path = tmp_path / "d.yaml"
+    text = FOLLOWER.format(front=RESISTOR, lo="10 Hz", hi="10 kHz", en="0", fc="0", t_top="26.85 °C")
+    path.write_text(text.replace("band: [10 Hz, 10 kHz]", "band: [10 Hz, 10 kHz], source_resistance: 1k"),
+                    encoding="utf-8")
+    res = analyse_noise(load_design(path), ["IN", "X", "OUT"])
+    four_kt = 4 * BOLTZMANN * 300.0
+    assert res.nets["IN"].output_density[0] == pytest.approx(math.sqrt(four_kt * 1e3), rel=1e-6)
+    assert res.nets["X"].output_density[0] == pytest.approx(math.sqrt(four_kt * 11e3), rel=1e-6)
+    assert res.nets["OUT"].output_density[-1] == pytest.approx(math.sqrt(four_kt * 11e3), rel=1e-6)
