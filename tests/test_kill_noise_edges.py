@@ -129,3 +129,20 @@ def test_noise_at_every_net_of_the_channel(tmp_path):
     assert res.nets["IN"].output_density[0] == pytest.approx(math.sqrt(four_kt * 1e3), rel=1e-6)
     assert res.nets["X"].output_density[0] == pytest.approx(math.sqrt(four_kt * 11e3), rel=1e-6)
     assert res.nets["OUT"].output_density[-1] == pytest.approx(math.sqrt(four_kt * 11e3), rel=1e-6)
+
+
+def test_a_node_joined_only_through_capacitors_still_has_ac_noise(tmp_path):
+    # IN → 1 µF → M → 1 µF → X, 10 kΩ from X to ground: M has no DC path, which does not matter to noise (an AC
+    # analysis). The resistor's Johnson noise √(4kTR) reaches X divided by the two capacitors in series (0.5 µF,
+    # the ideal source at IN holds their far end): |Zc/(R + Zc)| (Ohm and Kirchhoff, hand calculation).
+    path = tmp_path / "d.yaml"
+    front = ("C1: {kind: capacitor, value: 1u, pins: {1: IN, 2: M}}\n"
+             "  C2: {kind: capacitor, value: 1u, pins: {1: M, 2: X}}\n"
+             "  R1: {kind: resistor, value: 10k, pins: {1: X, 2: GND}}")
+    path.write_text(FOLLOWER.format(front=front, lo="1 kHz", hi="10 kHz", en="0", fc="0", t_top="26.85 °C"),
+                    encoding="utf-8")
+    res = analyse_noise(load_design(path), ["OUT"])
+    assert res.not_evaluated == {}
+    zc = 1 / (2j * math.pi * 1e4 * 0.5e-6)
+    expected = math.sqrt(4 * BOLTZMANN * 300.0 * 1e4) * abs(zc / (1e4 + zc))
+    assert res.nets["OUT"].output_density[-1] == pytest.approx(expected, rel=1e-6)
