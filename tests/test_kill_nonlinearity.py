@@ -8,6 +8,7 @@ import math
 import pytest
 
 from afecheck.analysis.channel import find_channels
+from afecheck.analysis.dc_error import analyse_dc_error, channel_dc_error
 from afecheck.analysis.nonlinearity import channel_nonlinearity
 from afecheck.model.load import load_design
 
@@ -77,3 +78,17 @@ def test_a_thermistor_that_does_not_move_has_no_fraction(tmp_path):
     assert nl.fraction is None
     assert nl.worst == 0.0 and set(nl.deviations) == {0.0}
     assert nl.outputs[0] == pytest.approx(_out(25.0), rel=1e-9)  # 1.25 V: R = R25 = 10 kΩ, half of 2.5 V
+
+
+def test_the_dc_error_budget_carries_the_nonlinearity_unless_told_not_to(tmp_path):
+    # The DC error of a sensor channel includes its end-point nonlinearity by default (afecheck.analysis.dc_error:
+    # offset, gain error and nonlinearity split the error), the same figure as the nonlinearity analysis itself;
+    # callers that judge no nonlinearity leave it out.
+    path = tmp_path / "d.yaml"
+    path.write_text(DIVIDER.format(lo=-20.0, hi=80.0), encoding="utf-8")
+    loaded = load_design(path)
+    channel = find_channels(loaded)["OUT"]
+    own = channel_nonlinearity(loaded, channel, ["OUT"])["OUT"]
+    assert analyse_dc_error(loaded, ["OUT"]).nets["OUT"].nonlinearity.worst == pytest.approx(own.worst, rel=1e-12)
+    assert channel_dc_error(loaded, channel, ["OUT"])["OUT"].nonlinearity.worst == pytest.approx(own.worst, rel=1e-12)
+    assert analyse_dc_error(loaded, ["OUT"], nonlinearity=False).nets["OUT"].nonlinearity is None
