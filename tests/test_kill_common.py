@@ -39,6 +39,12 @@ from afecheck.engine.finding import Severity
 W, E = Severity.WARNING, Severity.ERROR
 
 
+def test_numbers_print_with_an_si_prefix_and_three_significant_figures() -> None:
+    # SI prefixes (BIPM, The International System of Units, 9th ed.); three significant figures, common practice
+    assert common.fmt(4.1e6, "Hz") == "4.10 MHz"
+    assert common.fmt(47.0, "Ω", 2) == "47 Ω"
+
+
 def test_percentages_keep_three_significant_figures() -> None:
     # three significant figures (common practice for engineering read-outs), never fewer than zero decimals
     assert pct(0.333333) == "33.3 %"
@@ -144,6 +150,10 @@ def test_finding_caps_an_estimate_at_warning_and_keeps_flags_as_flags() -> None:
     assert f.ctx["count"] == 3.0 and type(f.ctx["count"]) is float
     assert f.ctx["flag"] is True and f.ctx["name"] == "OUT"
     assert finding(_ctx(loaded), W, **{**base, "fix": ""}).message == "m"
+    # a rule that cannot judge says so as information, with its reason
+    gap = common.not_evaluated(_ctx(loaded), "U1 phase margin", "no crossover", refs=("U1",))
+    assert gap.severity is Severity.INFO and gap.confidence == "not-evaluated"
+    assert gap.message == "U1 phase margin not evaluated: no crossover" and gap.ctx == {"reason": "no crossover"}
 
 
 def test_part_value_reports_defaults_as_assumed() -> None:

@@ -22,6 +22,10 @@ def test_a_design_wide_gap_with_no_parts_is_reported() -> None:
     # no refs at all (the whole design could not be solved): reported as "design", never looked up as a stage
     loaded = kit.design(COMPARATOR)
     assert _reasons(loaded, (((), "no crossover"),)) == ["no crossover"]
+    (f,) = kit.run(coverage, loaded, (), not_evaluated=(((), "singular circuit"),))
+    assert f.message == "design not evaluated: singular circuit"
+    (f,) = kit.run(coverage, loaded, (), not_evaluated=((("U1", "U2"), "singular circuit"),))
+    assert f.message == "U1, U2 not evaluated: singular circuit"
 
 
 def test_only_a_lone_switching_stage_drops_its_linear_only_gaps() -> None:
