@@ -143,3 +143,18 @@ def test_range_names_the_end_with_less_margin(tmp_path) -> None:
     assert a.margin_high == pytest.approx(0.0, abs=1e-3) and a.margin_low > a.margin_high
     (f,) = _run(range_fill, loaded, analysis, {"min_margin": 0.05})
     assert f.severity is Severity.ERROR and "at the high end" in f.message
+
+
+def test_range_of_a_bipolar_converter_is_plus_minus_half_full_scale(tmp_path) -> None:
+    # bipolar: ±FS/2 = ±2.048 V (docs/FORMAT.md); ±0.5 V at gain 1 + 2k/1k = 3 is ±1.5 V (plus the 0.1 mV offset
+    # times 3, hand calculation), so both ends keep 2.048 − 1.5003 = 0.548 V; 20 % of the 4.096 V span asks 0.819 V
+    def edit(text: str) -> str:
+        return text.replace("dc: [0.2 V, 0.5 V]", "dc: [-0.5 V, 0.5 V]").replace(
+            "full_scale: 4.096 V,", "full_scale: 4.096 V, bipolar: true,")
+    loaded, analysis, a = _example("range", edit, tmp_path)
+    assert (a.input_low, a.input_high) == (-2.048, 2.048)
+    assert a.margin_low == a.margin_high == pytest.approx(2.048 - 1.5003, abs=1e-4)
+    (f,) = _run(range_fill, loaded, analysis, {"min_margin": 0.2})
+    assert f.ctx["limit"] == pytest.approx(0.2 * 4.096, rel=1e-12)
+    # equal margins: the low end is the one named (the rule's documented tie order, its first end)
+    assert "at the low end" in f.message and "-2.048..2.048 V range" in f.message
