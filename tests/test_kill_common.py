@@ -49,6 +49,7 @@ def test_percentages_keep_three_significant_figures() -> None:
     # three significant figures (common practice for engineering read-outs), never fewer than zero decimals
     assert pct(0.333333) == "33.3 %"
     assert pct(0.05) == "5.00 %"
+    assert pct(0.01) == "1.00 %"
     assert pct(-0.05) == "-5.00 %"
     assert pct(1.5) == "150 %"
     assert pct(12.345) == "1234 %"
@@ -190,3 +191,9 @@ def test_small_design_queries() -> None:
     assert intended_gain(loaded, "U2") == -2.0 and intended_gain(loaded, "U1") is None
     assert common.attached(loaded, "INM", "capacitor") == [("C1", "GND")]
     assert sorted(r for r, _ in common.attached(loaded, "INM")) == ["C1", "R1", "R2"]
+
+
+def test_stage_assumptions_are_named_by_refdes() -> None:
+    # the analysis names its own assumptions by parameter; a finding names them <refdes>.<parameter> (as part_value)
+    st = kit.stage(assumed=("gbw", "U2.cmrr"))
+    assert common.stage_assumed(st) == ("U1.gbw", "U2.cmrr")
