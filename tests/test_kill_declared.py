@@ -7,6 +7,8 @@ not declare them), every instance of a keyed section is listed once, and a long 
 
 from __future__ import annotations
 
+from pathlib import Path
+
 import pytest
 from fixtures.rules import kit
 
@@ -72,3 +74,10 @@ def test_shipped_archetypes_are_not_the_designers_declarations(tmp_path, monkeyp
                     "v-: GND}}\nsignals: {IN: {dc: [1 V, 2 V]}}\n", encoding="utf-8")
     assert _paths(load_design(path)) == []
     assert _paths(kit.design()) == [("parts", "KIT-AMP", "gbw")]
+
+
+def test_sensors_are_listed_as_declared(monkeypatch: pytest.MonkeyPatch) -> None:
+    # a thermocouple is declared as one component and expanded into circuit parts; its own fields are listed
+    _mark(monkeypatch, "components.*.<thermocouple>.lead_resistance")
+    loaded = load_design(Path(__file__).resolve().parents[1] / "sample_designs" / "kiln_thermocouple.yaml")
+    assert ("components", "TC1", "lead_resistance") in _paths(loaded)
