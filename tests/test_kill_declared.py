@@ -17,6 +17,7 @@ from afecheck.engine import consumers
 from afecheck.engine.context import Context
 from afecheck.engine.finding import Severity
 from afecheck.model.load import load_design
+from afecheck.model.loaded import path_text
 
 PART_FIELDS = ("gbw", "open_loop_gain", "second_pole", "min_stable_gain", "output_resistance",
                "input_resistance_diff", "input_resistance_cm", "input_capacitance_diff", "input_capacitance_cm",
@@ -59,9 +60,14 @@ def test_own_part_fields_are_listed_and_a_long_list_is_cut_after_twelve(monkeypa
     assert f.ctx["count"] == 14 and len(f.ctx["fields"]) == 14
     shown = f.message.split("declared, not checked: ")[1].split(": no analysis")[0]
     assert shown.count(", ") == 11 and shown.endswith(" and 2 more")
+    # the finding points at the first field listed
+    assert f.location.path == path_text(found[0]) != path_text(found[1])
+    # thirteen: twelve shown and one more
+    monkeypatch.setitem(consumers.CONSUMERS, "parts.*.voltage_noise", "budgets.noise")
+    (f,) = kit.run(declared, loaded, ())
+    assert f.ctx["count"] == 13 and f.message.split(": no analysis")[0].endswith(" and 1 more")
     # exactly twelve: every name shown, no "more"
     monkeypatch.setitem(consumers.CONSUMERS, "parts.*.offset_drift", "budgets.drift")
-    monkeypatch.setitem(consumers.CONSUMERS, "parts.*.voltage_noise", "budgets.noise")
     (f,) = kit.run(declared, loaded, ())
     assert f.ctx["count"] == 12 and "more" not in f.message
 
