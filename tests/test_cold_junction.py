@@ -255,3 +255,24 @@ def test_channel_keys_tell_cold_junction_compensation_apart(tmp_path: Path) -> N
         loaded = load_design(path)
         keys.append(channel_key(loaded, find_channels(loaded)["OUT"], "OUT"))
     assert keys[0] != keys[1] and keys[0] == keys[2]
+
+
+def test_each_thermocouple_is_judged_by_its_own_term_and_margins_are_limit_minus_value(tmp_path: Path) -> None:
+    # two probes in series in one channel: the uncompensated one breaks the budget, the compensated one (0.3 °C ×
+    # 52.8 µV/°C × 101 = 1.60 mV) does not; with two sensors on the net there is no single measurand scale, so
+    # the °C figure comes from the probe's own Seebeck coefficient
+    data = yaml.safe_load((RULE / "bad.yaml").read_text(encoding="utf-8"))
+    comps = data["components"]
+    comps["TC1"]["pins"] = {"p": "MID", "n": "GND"}
+    comps["TC2"] = {**comps["TC1"], "compensated": True, "cjc_accuracy": "0.3 K", "pins": {"p": "TCP", "n": "MID"}}
+    path = tmp_path / "pair.yaml"
+    path.write_text(yaml.safe_dump(data, allow_unicode=True), encoding="utf-8")
+    (f,) = _findings(path)
+    assert f.location.refs == ("TC1",)
+    assert f.ctx["margin"] == f.ctx["limit"] - f.ctx["value"] < 0
+    assert f"about {f.ctx['hot_junction_c']:.3g} °C at TC1 (first order" in f.message
+    del data["budgets"]
+    path.write_text(yaml.safe_dump(data, allow_unicode=True), encoding="utf-8")
+    warned = _findings(path)
+    assert [g.location.refs for g in warned] == [("TC1",)]
+    assert warned[0].ctx["margin"] == warned[0].ctx["limit"] - warned[0].ctx["value"] < 0
