@@ -38,3 +38,25 @@ def test_input_capacitance_exactly_at_the_capacitors_tolerance_passes() -> None:
     assert run(input_divider_error, design(network(share)), [sk]) == []
     (f,) = run(input_divider_error, design(network(math.nextafter(share, 0.0))), [sk])
     assert f.ctx["value"] == share and f.ctx["margin"] == math.nextafter(share, 0.0) - share
+
+
+def test_a_capacitor_with_no_declared_tolerance_is_judged_at_the_rule_parameter() -> None:
+    # no tolerance declared: the rule's capacitor_tolerance (5 %, C0G class, common practice) is the limit
+    sk = stage(topology="active-filter",
+               inputs=(stage_input("in+", source("SIG", 0.0, 0.0, f_max=20e3), ("R1", "R2")),))
+    net = {"C2": {"kind": "capacitor", "value": 47e-12, "dielectric": "C0G", "pins": {1: "INP", 2: "GND"}},
+           "R1": {"kind": "resistor", "value": 10e3, "pins": {1: "SIG", 2: "N1"}},
+           "R2": {"kind": "resistor", "value": 10e3, "pins": {1: "N1", 2: "INP"}}}
+    (f,) = run(input_divider_error, design(net), [sk])
+    assert f.ctx["limit"] == 0.05 and f.ctx["value"] == pytest.approx(6 / 47)
+
+
+def test_only_the_non_inverting_input_of_a_voltage_source_is_judged() -> None:
+    # the inverting input's source loading is loading.inverting-source's; a current or charge source is not a
+    # voltage divider at all (the transimpedance and charge-amplifier topologies)
+    def found(pin: str, kind: str = "signal") -> int:
+        src = source("SIG", 100e3, 100e3, kind=kind, f_max=100e3)
+        return len(run(input_divider_error, design(), [stage(topology="follower", inputs=(stage_input(pin, src),))]))
+
+    assert found("in+") == 1 and found("in-") == 0
+    assert found("in+", "current") == 0 and found("in+", "charge") == 0

@@ -31,6 +31,8 @@ def test_an_output_resistance_that_is_an_e12_value_is_suggested_as_is(value: int
 def test_between_two_e12_values_the_nearer_on_a_log_scale_wins() -> None:
     # 30 Ω lies between 27 and 33: ln(33/30) = 0.0953 is less than ln(30/27) = 0.1054, so 33 Ω is nearer
     assert isolation_resistor(30.0) == pytest.approx(33.0)
+    # 95 Ω: 100 Ω (the next decade's first value) is nearer than 82 Ω
+    assert isolation_resistor(95.0) == pytest.approx(100.0)
     # 100 Ω and above: the top of the 10..100 Ω window
     assert isolation_resistor(100.0) == pytest.approx(100.0) and isolation_resistor(1e3) == pytest.approx(100.0)
 
@@ -41,14 +43,20 @@ def _ctx(loaded):
 
 def test_input_zero_needs_both_feedback_and_gain_resistors() -> None:
     # the zero 1/(2π·(Rf‖Rg)·(Cg + Cf)) exists only with a resistor to the output (Rf) and one elsewhere (Rg)
-    rf = {"RF": {"kind": "resistor", "value": 10e3, "pins": {"1": "INM", "2": "OUT"}}}
+    rf = {"RF": {"kind": "resistor", "value": 30e3, "pins": {"1": "INM", "2": "OUT"}}}
     rg = {"RG": {"kind": "resistor", "value": 10e3, "pins": {"1": "INM", "2": "GND"}}}
+    cg = {"CG": {"kind": "capacitor", "value": 10e-12, "pins": {"1": "INM", "2": "GND"}}}
     st = kit.stage(topology="non-inverting")
     assert input_zero(_ctx(kit.design(rf)), st) is None
     assert input_zero(_ctx(kit.design(rg)), st) is None
     cause = input_zero(_ctx(kit.design(rf | rg)), st)
-    # Cg = 3 pF + 3 pF (KIT-AMP) + 1 pF stray = 7 pF, Rf‖Rg = 5 kΩ: 1/(2π·5k·7p) = 4.547 MHz (hand calculation)
-    assert cause.frequency == pytest.approx(1 / (2 * math.pi * 5e3 * 7e-12), rel=1e-12)
+    # Cg = 3 pF + 3 pF (KIT-AMP) + 1 pF stray = 7 pF, Rf‖Rg = 30k‖10k = 7.5 kΩ: 1/(2π·7.5k·7p) = 3.03 MHz
+    # (hand calculation)
+    assert cause.frequency == pytest.approx(1 / (2 * math.pi * 7.5e3 * 7e-12), rel=1e-12)
+    # a 10 pF capacitor from in- to ground adds to Cg: 17 pF, 1.248 MHz
+    cause = input_zero(_ctx(kit.design(rf | rg | cg)), st)
+    assert cause.frequency == pytest.approx(1 / (2 * math.pi * 7.5e3 * 17e-12), rel=1e-12)
+    assert "17.0 pF at INM" in cause.text
 
 
 def test_a_feedback_capacitor_at_the_neutralising_value_is_not_asked_for_again() -> None:
