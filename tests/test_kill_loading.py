@@ -60,3 +60,10 @@ def test_only_the_non_inverting_input_of_a_voltage_source_is_judged() -> None:
 
     assert found("in+") == 1 and found("in-") == 0
     assert found("in+", "current") == 0 and found("in+", "charge") == 0
+
+
+def test_a_zero_ohm_source_makes_no_divider_with_the_pin_capacitance() -> None:
+    # an ideal 0 Ω source holds in+ whatever capacitance sits there: nothing to judge (Ohm's law, no divider)
+    sk = stage(topology="active-filter", inputs=(stage_input("in+", source("INP", 0.0, 0.0, f_max=20e3)),))
+    net = {"C2": {"kind": "capacitor", "value": 47e-12, "tolerance": 0.01, "pins": {1: "INP", 2: "GND"}}}
+    assert run(input_divider_error, design(net), [sk]) == []

@@ -13,6 +13,8 @@ from afecheck.checks.stability.causes import (
     STRAY_CAPACITANCE,
     input_zero,
     isolation_resistor,
+    load_pole,
+    main_cause,
     second_pole,
     sensor_capacitance,
 )
@@ -57,6 +59,10 @@ def test_input_zero_needs_both_feedback_and_gain_resistors() -> None:
     cause = input_zero(_ctx(kit.design(rf | rg | cg)), st)
     assert cause.frequency == pytest.approx(1 / (2 * math.pi * 7.5e3 * 17e-12), rel=1e-12)
     assert "17.0 pF at INM" in cause.text
+    # a feedback capacitor counts too: 3 pF across Rf makes Cg + Cf = 10 pF, 2.122 MHz
+    cf = {"CF": {"kind": "capacitor", "value": 3e-12, "pins": {"1": "INM", "2": "OUT"}}}
+    cause = input_zero(_ctx(kit.design(rf | rg | cf)), st)
+    assert cause.frequency == pytest.approx(1 / (2 * math.pi * 7.5e3 * 10e-12), rel=1e-12)
 
 
 def test_a_feedback_capacitor_at_the_neutralising_value_is_not_asked_for_again() -> None:
@@ -92,3 +98,19 @@ def test_sensor_capacitance_cause_only_for_a_transimpedance_stage_with_a_compute
     assert sensor_capacitance(kit.stage(topology="inverting", feedback_capacitance_for_margin=2e-12)) is None
     cause = sensor_capacitance(kit.stage(topology="transimpedance", feedback_capacitance_for_margin=2e-12))
     assert "2.00 pF" in cause.fix and cause.kind == "sensor-capacitance"
+
+
+def test_a_lag_exactly_three_times_above_the_second_pole_is_not_the_cause() -> None:
+    # main_cause names a load pole or input zero only below 3× the op-amp's second pole (there it costs more phase
+    # at crossover than the second pole itself, common practice); KIT-AMP: f2 = 3 MHz, Ro = 100 Ω, so a load pole at
+    # 9 MHz needs CL = 1/(2π·100·9 MHz) = 176.8 pF
+    loaded = kit.design()
+    ctx = _ctx(loaded)
+    cl = 1.0 / (2.0 * math.pi * 100.0 * 9e6)
+    while 1.0 / (2.0 * math.pi * 100.0 * cl) < 9e6:
+        cl = math.nextafter(cl, 0.0)
+    while 1.0 / (2.0 * math.pi * 100.0 * cl) > 9e6:
+        cl = math.nextafter(cl, 1.0)
+    assert load_pole(ctx, kit.stage(load_capacitance=cl)).frequency == 9e6
+    assert main_cause(ctx, kit.stage(load_capacitance=cl)).kind == "second-pole"
+    assert main_cause(ctx, kit.stage(load_capacitance=math.nextafter(cl, 1.0))).kind == "load"
