@@ -114,3 +114,10 @@ def test_a_lag_exactly_three_times_above_the_second_pole_is_not_the_cause() -> N
     assert load_pole(ctx, kit.stage(load_capacitance=cl)).frequency == 9e6
     assert main_cause(ctx, kit.stage(load_capacitance=cl)).kind == "second-pole"
     assert main_cause(ctx, kit.stage(load_capacitance=math.nextafter(cl, 1.0))).kind == "load"
+
+
+def test_phase_margin_needs_both_the_margin_and_the_crossover() -> None:
+    # either number missing: the rule says it could not judge the loop instead of guessing (never a silent pass)
+    for changes in ({"phase_margin_deg": None, "crossover_hz": 1e6}, {"phase_margin_deg": 30.0, "crossover_hz": None}):
+        (f,) = kit.run(phase_margin, kit.design(), [kit.stage(**changes)])
+        assert f.confidence == "not-evaluated" and f.message.startswith("U1 phase margin not evaluated")
