@@ -1,14 +1,18 @@
-"""Loading rules: the source-resistance bound of the input-divider rule against the divider's closed form."""
+"""Loading rules against the divider's closed form: the input-divider rule's source-resistance bound and capacitance
+share, the inverting-input rule's Rs/(Rs + Ri) gain error and its intended-gain and nonlinearity wording."""
 
 from __future__ import annotations
 
+import dataclasses
 import math
 
 import pytest
+from fixtures.rules import kit
 from fixtures.rules.kit import design, run, source, stage, stage_input
 
-from afecheck.checks.loading import input_divider_error
+from afecheck.checks.loading import input_divider_error, inverting_source_loading
 from afecheck.checks.loading.input_divider_error import divider_error, max_source_resistance
+from afecheck.engine.finding import Severity
 
 
 def test_largest_source_resistance_at_dc_is_the_divider_solved_by_hand() -> None:
@@ -67,3 +71,57 @@ def test_a_zero_ohm_source_makes_no_divider_with_the_pin_capacitance() -> None:
     sk = stage(topology="active-filter", inputs=(stage_input("in+", source("INP", 0.0, 0.0, f_max=20e3)),))
     net = {"C2": {"kind": "capacitor", "value": 47e-12, "tolerance": 0.01, "pins": {1: "INP", 2: "GND"}}}
     assert run(input_divider_error, design(net), [sk]) == []
+
+
+def _inverting(r_min: float, r_max: float, ri: float = 10e3, pin: str = "in-", topology: str = "inverting",
+               kind: str = "signal", ideal_gain: float = -10.0):
+    inp = dataclasses.replace(stage_input(pin, source("SIG", r_min, r_max, kind=kind), ("R1",), input_resistance=ri),
+                              ideal_gain=ideal_gain)
+    return stage(topology=topology, inputs=(inp,))
+
+
+def test_inverting_source_loading_is_rs_over_rs_plus_ri() -> None:
+    # 100 Ω source into a 10 kΩ input resistor: the gain falls by Rs/(Rs + Ri) = 100/10100 = 0.990 % (Ohm's law),
+    # over the 0.1 % warning limit and under the 1 % error limit
+    (f,) = run(inverting_source_loading, design(), [_inverting(100.0, 100.0)])
+    assert f.severity is Severity.WARNING and f.ctx["value"] == pytest.approx(100 / 10100, rel=1e-12)
+    assert f.ctx["limit"] == 1e-3 and f.ctx["margin"] == pytest.approx(1e-3 - 100 / 10100, rel=1e-12)
+    assert "cuts the gain by 0.990 % (limit 0.100 %)" in f.message and "varies" not in f.message
+
+
+def test_inverting_source_loading_against_the_intended_gain() -> None:
+    # declared intent −9.901 = −10·(1 − 100/10100) to four figures: the source is counted in the gain, so what is
+    # judged is the deviation from it, 1 − 9.90099/9.901 = 1e-6 (hand calculation): passes
+    intent = {"U1": {**kit.OPAMP, "intended_gain": -9.901}}
+    assert run(inverting_source_loading, design(intent), [_inverting(100.0, 100.0)]) == []
+    # a source ranging 100..200 Ω: −9.901..−9.804 against −9.901, 0.98 % off
+    (f,) = run(inverting_source_loading, design(intent), [_inverting(100.0, 200.0)])
+    ends = [-10 * (1 - 100 / 10100), -10 * (1 - 200 / 10200)]
+    assert f.ctx["value"] == pytest.approx(max(abs(g / -9.901 - 1) for g in ends), rel=1e-12)
+    assert "against the intended gain -9.901 (computed -9.901..-9.804)" in f.message
+    # without the range the computed gain is one number
+    intent = {"U1": {**kit.OPAMP, "intended_gain": -10.0}}
+    (f,) = run(inverting_source_loading, design(intent), [_inverting(100.0, 100.0)])
+    assert "(computed -9.901):" in f.message and f.ctx["intended_gain"] == -10.0
+
+
+def test_a_source_range_wider_than_the_variation_parameter_is_a_nonlinearity() -> None:
+    # variation 25 %: 100 Ω to exactly 125 Ω is not reported as varying, the next float above is
+    params = {"variation": 0.25}
+    (f,) = run(inverting_source_loading, design(), [_inverting(100.0, 125.0)], params=params)
+    assert f.ctx["varies"] is False
+    (f,) = run(inverting_source_loading, design(), [_inverting(100.0, math.nextafter(125.0, 200.0))], params=params)
+    assert f.ctx["varies"] is True and "it varies from 0.990 % to 1.23 %" in f.message
+
+
+def test_which_inputs_the_inverting_rule_judges() -> None:
+    d = design()
+    # any input of an inverting, summing or difference stage; only in− elsewhere
+    assert len(run(inverting_source_loading, d, [_inverting(100.0, 100.0, pin="in+", topology="difference")])) == 1
+    assert run(inverting_source_loading, d, [_inverting(100.0, 100.0, pin="in+", topology="non-inverting")]) == []
+    assert len(run(inverting_source_loading, d, [_inverting(100.0, 100.0, topology="non-inverting")])) == 1
+    # not judged: a sensor into a virtual ground, current/charge/rail/vsource sources, no source or input resistance
+    assert run(inverting_source_loading, d, [_inverting(100.0, 100.0, topology="transimpedance")]) == []
+    for kind in ("current", "charge", "rail", "vsource"):
+        assert run(inverting_source_loading, d, [_inverting(100.0, 100.0, kind=kind)]) == []
+    assert run(inverting_source_loading, d, [_inverting(0.0, 0.0)]) == []
