@@ -10,7 +10,8 @@ import pytest
 from fixtures.rules import kit
 from fixtures.rules.kit import design, run, source, stage, stage_input
 
-from afecheck.checks.loading import input_divider_error, inverting_source_loading
+from afecheck.checks.loading import bias_current_offset, input_divider_error, inverting_source_loading
+from afecheck.checks.loading.bias_current_offset import bias_offset
 from afecheck.checks.loading.input_divider_error import divider_error, max_source_resistance
 from afecheck.engine.finding import Severity
 
@@ -125,3 +126,53 @@ def test_which_inputs_the_inverting_rule_judges() -> None:
     for kind in ("current", "charge", "rail", "vsource"):
         assert run(inverting_source_loading, d, [_inverting(100.0, 100.0, kind=kind)]) == []
     assert run(inverting_source_loading, d, [_inverting(0.0, 0.0)]) == []
+
+
+def test_bias_offset_formula_with_unmatched_resistances_by_hand() -> None:
+    # NG·(|Ib|·|R− − R+| + |Ios|/2·(R− + R+)) (Jung, Op Amp Applications Handbook, 2005, ch. 1): NG 2, Ib 100 nA,
+    # Ios 10 nA, R+ 10 kΩ, R− 5 kΩ: 2·(100n·5k + 5n·15k) = 2·(0.5 mV + 0.075 mV) = 1.15 mV
+    assert bias_offset(2.0, 100e-9, 10e-9, 10e3, 5e3) == pytest.approx(1.15e-3, rel=1e-12)
+    assert bias_offset(2.0, -100e-9, -10e-9, 5e3, 10e3) == pytest.approx(1.15e-3, rel=1e-12)
+
+
+def _follower(rs: float, via: tuple[str, ...] = (), **changes):
+    return stage(**{"topology": "follower", "inputs": (stage_input("in+", source("SIG", rs, rs), via),), **changes})
+
+
+def test_bias_offset_rule_against_the_parts_own_offset_by_hand() -> None:
+    # KIT-AMP: Ib 1 nA, Vos 1 mV; a follower (NG 1) from 2 MΩ: 1 nA·2 MΩ = 2 mV, twice the part's own 1 mV offset:
+    # a warning at 1 × 1 mV; from 20 MΩ, 20 mV: an error at 10 × 1 mV
+    (f,) = run(bias_current_offset, design(), [_follower(2e6)])
+    assert f.severity is Severity.WARNING and f.ctx["value"] == pytest.approx(2e-3, rel=1e-12)
+    assert f.ctx["limit"] == pytest.approx(1e-3, rel=1e-12) and f.ctx["margin"] == pytest.approx(-1e-3, rel=1e-9)
+    assert "(limit 1.00 mV, 1 × the part's own offset error 1.00 mV = NG × 1.00 mV)" in f.message
+    (f,) = run(bias_current_offset, design(), [_follower(20e6)])
+    assert f.severity is Severity.ERROR and f.ctx["limit"] == pytest.approx(10e-3, rel=1e-12)
+    # exactly the part's own offset (1 MΩ: 1 mV) is not more than it
+    assert run(bias_current_offset, design(), [_follower(1e6)]) == []
+
+
+def test_bias_offset_counts_the_in_minus_resistance() -> None:
+    # Rf = Rg = 20 kΩ at in−: R− = 10 kΩ; with R+ = 1 MΩ the Ib term is 1 nA·990 kΩ at NG 2: 1.98 mV vs 2 mV own
+    net = {"RF": {"kind": "resistor", "value": 20e3, "pins": {"1": "INM", "2": "OUT"}},
+           "RG": {"kind": "resistor", "value": 20e3, "pins": {"1": "INM", "2": "GND"}}}
+    st = stage(topology="non-inverting", noise_gain_dc=2.0,
+               inputs=(stage_input("in+", source("SIG", 2e6, 2e6)),))
+    (f,) = run(bias_current_offset, design(net), [st])
+    assert f.ctx["r_minus"] == pytest.approx(10e3) and f.ctx["value"] == pytest.approx(2 * 1e-9 * 1.99e6, rel=1e-9)
+
+
+def test_which_inputs_the_bias_rule_judges() -> None:
+    d = design({"C1": {"kind": "capacitor", "value": 1e-6, "pins": {"1": "SIG", "2": "INP"}},
+                "R5": {"kind": "resistor", "value": 1e6, "pins": {"1": "SIG", "2": "INP"}}})
+    # a series resistor adds to the source (sources.py: Thevenin Rs plus the series parts): 1 MΩ + 1 MΩ = 2 mV
+    (f,) = run(bias_current_offset, d, [_follower(1e6, ("R5",))])
+    assert f.ctx["r_plus"] == 2e6
+    assert run(bias_current_offset, d, [_follower(20e6, ("C1",))]) == []  # AC-coupled: no DC path from the source
+    assert run(bias_current_offset, d, [_follower(0.0)]) == []
+    assert run(bias_current_offset, d, [_follower(math.inf)]) == []
+    assert run(bias_current_offset, d, [_follower(20e6, topology="inverting")]) == []
+    assert run(bias_current_offset, d, [_follower(20e6, noise_gain_dc=None)]) == []
+    minus = stage(topology="follower", inputs=(stage_input("in-", source("SIG", 20e6, 20e6)),))
+    assert run(bias_current_offset, d, [minus]) == []
+    assert run(bias_current_offset, design(part={"offset_voltage": 0.0}), [_follower(20e6)]) == []
