@@ -23,3 +23,12 @@ def test_a_capacitor_from_a_stiff_output_to_ground_is_exempt() -> None:
     # across the feedback path, output to in−, it is part of the transfer function
     cf = {"CF": {"kind": "capacitor", "value": 1e-9, "dielectric": "X7R", "pins": {"1": "OUT", "2": "INM"}}}
     assert _classify(cf, "CF") == ("feedback", 0.0, 1.0)
+
+
+def test_a_feedback_capacitor_works_against_no_resistance_and_the_default_limit_is_one_percent() -> None:
+    # the whole output-to-in− voltage sits across a feedback capacitor: 100 % of the signal, against the rule's
+    # default 1 % (a class-2 dielectric's voltage coefficient, common practice); no resistance is named
+    cf = {"CF": {"kind": "capacitor", "value": 1e-9, "dielectric": "X7R", "pins": {"1": "OUT", "2": "INM"}}}
+    (f,) = kit.run(class2_ceramic, kit.design(cf, signals=BAND), ())
+    assert f.ctx["value"] == 1.0 and f.ctx["limit"] == 0.01
+    assert "sits in a feedback position with 100 % of the signal across it at 10.0 Hz (limit 1.00 %)" in f.message

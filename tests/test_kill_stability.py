@@ -8,7 +8,7 @@ import math
 import pytest
 from fixtures.rules import kit
 
-from afecheck.checks.stability import phase_margin
+from afecheck.checks.stability import gain_margin, min_stable_gain, phase_margin
 from afecheck.checks.stability.causes import (
     STRAY_CAPACITANCE,
     input_zero,
@@ -19,6 +19,7 @@ from afecheck.checks.stability.causes import (
     sensor_capacitance,
 )
 from afecheck.engine.context import Context
+from afecheck.engine.finding import Severity
 
 # IEC 60063, E12 series (one decade), typed from the standard's table
 IEC_60063_E12 = (10, 12, 15, 18, 22, 27, 33, 39, 47, 56, 68, 82)
@@ -121,3 +122,35 @@ def test_phase_margin_needs_both_the_margin_and_the_crossover() -> None:
     for changes in ({"phase_margin_deg": None, "crossover_hz": 1e6}, {"phase_margin_deg": 30.0, "crossover_hz": None}):
         (f,) = kit.run(phase_margin, kit.design(), [kit.stage(**changes)])
         assert f.confidence == "not-evaluated" and f.message.startswith("U1 phase margin not evaluated")
+
+
+def test_gain_margin_limits_and_the_words_at_0_db() -> None:
+    # warning below 6 dB, error below 0 dB (common practice; gain margin as in Gray, Hurst, Lewis, Meyer, 5th ed.)
+    (f,) = kit.run(gain_margin, kit.design(), [kit.stage(gain_margin_db=4.0)])
+    assert f.severity is Severity.WARNING and (f.ctx["limit"], f.ctx["margin"]) == (6.0, -2.0)
+    assert "gain margin 4.0 dB (limit 6 dB): a small rise in loop gain would oscillate" in f.message
+    (f,) = kit.run(gain_margin, kit.design(), [kit.stage(gain_margin_db=-2.0)])
+    assert f.severity is Severity.ERROR and (f.ctx["limit"], f.ctx["margin"]) == (0.0, -2.0)
+    assert "the loop gain exceeds 1 where its phase reaches -180°" in f.message
+    # exactly 0 dB: |T| is 1 at −180°, it does not exceed 1; at 0.5 dB it is below 1
+    for gm in (0.0, 0.5):
+        (f,) = kit.run(gain_margin, kit.design(), [kit.stage(gain_margin_db=gm)])
+        assert "a small rise in loop gain would oscillate" in f.message
+
+
+def test_minimum_stable_gain_only_for_negative_feedback_and_a_declared_minimum() -> None:
+    decomp = kit.design(part={"min_stable_gain": 5.0})
+    assert kit.run(min_stable_gain, decomp, [kit.stage(feedback="positive", noise_gain_at_crossover=1.0)]) == []
+    assert kit.run(min_stable_gain, kit.design(part={"min_stable_gain": None}),
+                   [kit.stage(noise_gain_at_crossover=1.0)]) == []
+
+
+def test_minimum_stable_gain_names_a_feedback_capacitor_only_when_it_drops_the_noise_gain() -> None:
+    # noise gain falling from DC to high frequency by more than 10 % (below 0.9×) is blamed on 1 + Cg/Cf; exactly
+    # 0.9× (10 → 9) or no high-frequency figure is the signal gain's doing
+    decomp = kit.design(part={"min_stable_gain": 5.0})
+    for hf, blamed in ((None, False), (9.0, False), (math.nextafter(9.0, 0.0), True)):
+        st = kit.stage(noise_gain_at_crossover=2.0, noise_gain_dc=10.0, noise_gain_hf=hf)
+        (f,) = kit.run(min_stable_gain, decomp, [st])
+        assert ("a feedback capacitor drops it" in f.message) is blamed
+        assert ("the signal gain sets it too low" in f.message) is not blamed
