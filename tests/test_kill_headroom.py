@@ -32,6 +32,9 @@ def test_worst_rails_move_each_rail_inward_by_its_tolerance() -> None:
     assert worst_rails(_ctx(loaded), st) == pytest.approx((-4.5, 4.5), rel=1e-15)
     loaded = kit.design(SPLIT, rails={"VCC": {"voltage": 5.0, "tolerance": 0.1}, "VEE": {"voltage": -5.0}})
     assert worst_rails(_ctx(loaded), st) == pytest.approx((-5.0, 4.5), rel=1e-15)
+    # a supply pin on a net that is not a declared rail (a regulator's output, say) has no tolerance to apply
+    loaded = kit.design(SPLIT, rails={"VCC": {"voltage": 5.0, "tolerance": 0.1}})
+    assert worst_rails(_ctx(loaded), st) == pytest.approx((-5.0, 4.5), rel=1e-15)
 
 
 def test_extremes_widen_the_dc_range_by_the_ac_peak() -> None:
