@@ -2,11 +2,15 @@
 
 from __future__ import annotations
 
+import math
+
+import pytest
 from fixtures.rules import kit
 
-from afecheck.checks.distortion import class2_ceramic
+from afecheck.checks.distortion import class2_ceramic, slew_rate
 from afecheck.checks.distortion.class2_ceramic import classify
 from afecheck.engine.context import Context
+from afecheck.engine.finding import Severity
 
 BAND = {"SIG": {"band": [10.0, 1e3]}}
 
@@ -32,3 +36,23 @@ def test_a_feedback_capacitor_works_against_no_resistance_and_the_default_limit_
     (f,) = kit.run(class2_ceramic, kit.design(cf, signals=BAND), ())
     assert f.ctx["value"] == 1.0 and f.ctx["limit"] == 0.01
     assert "sits in a feedback position with 100 % of the signal across it at 10.0 Hz (limit 1.00 %)" in f.message
+
+
+def test_slew_rate_exactly_at_two_and_one_times_the_requirement() -> None:
+    # the rule page: a warning below 2×, an error below 1× the required rate (factors: common practice); a part
+    # exactly at a multiple is not below it. The analysis's required rate, 1 V/µs, is used as it is.
+    st = kit.stage(required_slew_rate=1e6, f_max=0.0, vout_ac_peak=0.0)
+
+    def severities(sr: float) -> list:
+        return [f.severity for f in kit.run(slew_rate, kit.design(part={"slew_rate": sr}), [st])]
+
+    assert severities(2e6) == [] and severities(math.nextafter(2e6, 0.0)) == [Severity.WARNING]
+    assert severities(1e6) == [Severity.WARNING] and severities(math.nextafter(1e6, 0.0)) == [Severity.ERROR]
+    (f,) = kit.run(slew_rate, kit.design(part={"slew_rate": 1.5e6}), [st])
+    assert (f.ctx["limit"], f.ctx["margin"]) == (2e6, -0.5e6) and f.ctx["full_power_bandwidth"] == math.inf
+    # the larger of the analysis's figure and 2π·f·Vpk: 5 V peak at 100 kHz needs 3.14 V/µs (Franco, 4th ed.)
+    st = kit.stage(required_slew_rate=1e6, f_max=100e3, vout_ac_peak=5.0)
+    (f,) = kit.run(slew_rate, kit.design(part={"slew_rate": 1e6}), [st])
+    assert f.ctx["required"] == pytest.approx(2 * math.pi * 100e3 * 5.0, rel=1e-12)
+    assert f.ctx["full_power_bandwidth"] == pytest.approx(1e6 / (2 * math.pi * 5.0), rel=1e-12)
+    assert "against 3.14 V/µs needed" in f.message
