@@ -11,6 +11,7 @@ import pytest
 from fixtures.rules import kit
 
 from afecheck.analysis.results import DesignAnalysis
+from afecheck.checks.headroom import output_swing
 from afecheck.checks.headroom.limits import cm_extremes, output_current, output_extremes, swing, worst_rails
 from afecheck.checks.stability import phase_margin
 from afecheck.engine.context import Context
@@ -61,3 +62,10 @@ def test_swing_limits_by_hand() -> None:
     assert (s.high_limit, s.low_limit) == (pytest.approx(4.725, rel=1e-14), pytest.approx(0.125, rel=1e-14))
     assert (s.low_required, s.high_required) == (0.5, 3.5) and s.assumed == ()
     assert swing(_ctx(kit.design()), kit.stage(vout_min=None)) is None
+
+
+def test_output_swing_without_an_output_range_is_not_evaluated() -> None:
+    # either end of the output range missing: the rule says so (never a silent pass)
+    for changes in ({"vout_min": None}, {"vout_max": None}, {"vout_min": None, "vout_max": None}):
+        (f,) = kit.run(output_swing, kit.design(), [kit.stage(**changes)])
+        assert f.confidence == "not-evaluated" and f.message.startswith("U1 output range not evaluated")
