@@ -7,7 +7,7 @@ import math
 import pytest
 from fixtures.rules import kit
 
-from afecheck.checks.distortion import class2_ceramic, slew_rate
+from afecheck.checks.distortion import class2_ceramic, common_mode_swing, slew_rate
 from afecheck.checks.distortion.class2_ceramic import classify
 from afecheck.engine.context import Context
 from afecheck.engine.finding import Severity
@@ -56,3 +56,39 @@ def test_slew_rate_exactly_at_two_and_one_times_the_requirement() -> None:
     assert f.ctx["required"] == pytest.approx(2 * math.pi * 100e3 * 5.0, rel=1e-12)
     assert f.ctx["full_power_bandwidth"] == pytest.approx(1e6 / (2 * math.pi * 5.0), rel=1e-12)
     assert "against 3.14 V/µs needed" in f.message
+
+
+def _cm_follower(**changes):
+    return kit.stage(**{"topology": "follower", "noise_gain_dc": 1.0, "vcm_min": 1.0, "vcm_max": 3.0, **changes})
+
+
+def test_common_mode_error_is_swing_over_cmrr_against_the_offset_budget() -> None:
+    # NG·ΔVcm/CMRR (Franco, 4th ed., ch. 5): 1 × 2 V / 10^5 (100 dB) = 20 µV at the output. With the budget share
+    # at 1 and a 20 µV offset budget the error equals its limit: passes; one float less budget: flagged
+    def run(offset: float, **params):
+        loaded = kit.design(budgets={"OUT": {"offset": offset}})
+        return kit.run(common_mode_swing, loaded, [_cm_follower()], params=params or None)
+
+    assert run(2e-5, budget_share=1.0) == []
+    (f,) = run(math.nextafter(2e-5, 0.0), budget_share=1.0)
+    assert f.ctx["value"] == 2e-5 and f.ctx["cm_swing_pp"] == 2.0 and f.ctx["input_error"] == 2e-5
+    # default share 25 %: a 40 µV budget allows 10 µV, so 20 µV is 10 µV over
+    (f,) = run(40e-6)
+    assert f.ctx["limit"] == pytest.approx(10e-6, rel=1e-12) and f.ctx["margin"] == pytest.approx(-10e-6, rel=1e-9)
+    assert "with CMRR 100 dB that is 20.0 µV at the input, 20.0 µV at OUT" in f.message
+    assert "25.0 % of the 40.0 µV offset budget" in f.message
+
+
+def test_common_mode_error_against_half_an_lsb_without_a_budget() -> None:
+    # 12 bits over 4.096 V: 1 mV LSB, half of it 0.5 mV; CMRR 60 dB: 2 V / 1000 = 2 mV at a follower's output
+    adc = {"OUT": {"adc": {"full_scale": 4.096, "bits": 12, "sample_rate": 1e4}}}
+    (f,) = kit.run(common_mode_swing, kit.design(part={"cmrr": 1e3}, loads=adc), [_cm_follower()])
+    assert f.ctx["limit"] == pytest.approx(0.5e-3, rel=1e-12) and f.ctx["value"] == pytest.approx(2e-3, rel=1e-12)
+    assert "0.5 LSB of the 12-bit ADC" in f.message
+    # a declared budget is what counts when there is one (1 mV budget × 25 % = 0.25 mV)
+    both = kit.design(part={"cmrr": 1e3}, loads=adc, budgets={"OUT": {"offset": 1e-3}})
+    (f,) = kit.run(common_mode_swing, both, [_cm_follower()])
+    assert f.ctx["limit"] == pytest.approx(0.25e-3, rel=1e-12)
+    # no swing at all (a constant common mode), or an inverting stage: nothing to judge
+    assert kit.run(common_mode_swing, both, [_cm_follower(vcm_max=1.0)]) == []
+    assert kit.run(common_mode_swing, both, [_cm_follower(topology="inverting")]) == []
