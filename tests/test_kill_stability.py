@@ -154,3 +154,4 @@ def test_minimum_stable_gain_names_a_feedback_capacitor_only_when_it_drops_the_n
         (f,) = kit.run(min_stable_gain, decomp, [st])
         assert ("a feedback capacitor drops it" in f.message) is blamed
         assert ("the signal gain sets it too low" in f.message) is not blamed
+        assert (f.ctx["value"], f.ctx["limit"], f.ctx["margin"]) == (2.0, 5.0, -3.0)
