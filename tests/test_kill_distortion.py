@@ -7,7 +7,7 @@ import math
 import pytest
 from fixtures.rules import kit
 
-from afecheck.checks.distortion import class2_ceramic, common_mode_swing, slew_rate
+from afecheck.checks.distortion import class2_ceramic, common_mode_swing, loop_gain_at_fmax, slew_rate
 from afecheck.checks.distortion.class2_ceramic import classify
 from afecheck.engine.context import Context
 from afecheck.engine.finding import Severity
@@ -92,3 +92,21 @@ def test_common_mode_error_against_half_an_lsb_without_a_budget() -> None:
     # no swing at all (a constant common mode), or an inverting stage: nothing to judge
     assert kit.run(common_mode_swing, both, [_cm_follower(vcm_max=1.0)]) == []
     assert kit.run(common_mode_swing, both, [_cm_follower(topology="inverting")]) == []
+
+
+def test_loop_gain_at_fmax_by_hand() -> None:
+    # |T| = 10 (20 dB) at 10 kHz: 1 − 10/√101 = 0.496 % amplitude error (single-pole loop, T = −j·|T|; Gray, Hurst,
+    # Lewis, Meyer, 5th ed.), below the 40 dB warning limit by 20 dB
+    (f,) = kit.run(loop_gain_at_fmax, kit.design(), [kit.stage(f_max=10e3, loop_gain_at_fmax=10.0)])
+    assert f.severity is Severity.WARNING and f.ctx["value"] == pytest.approx(20.0, abs=1e-12)
+    assert (f.ctx["limit"], f.ctx["margin"]) == (40.0, pytest.approx(-20.0, abs=1e-12))
+    assert f.ctx["amplitude_error"] == pytest.approx(1 - 10 / math.sqrt(101), rel=1e-12)
+    assert "reduced only 10×, amplitude error about 0.496 %" in f.message
+    # |T| = 5 (14 dB): an error against 20 dB; a complex T is judged by its magnitude
+    (f,) = kit.run(loop_gain_at_fmax, kit.design(), [kit.stage(f_max=10e3, loop_gain_at_fmax=complex(3.0, -4.0))])
+    assert f.severity is Severity.ERROR and f.ctx["loop_gain"] == 5.0 and f.ctx["limit"] == 20.0
+    # no signal frequency or no negative feedback: nothing to judge; no loop gain: not evaluated
+    assert kit.run(loop_gain_at_fmax, kit.design(), [kit.stage(f_max=0.0, loop_gain_at_fmax=5.0)]) == []
+    assert kit.run(loop_gain_at_fmax, kit.design(), [kit.stage(f_max=1e3, feedback="positive")]) == []
+    (f,) = kit.run(loop_gain_at_fmax, kit.design(), [kit.stage(f_max=1e3, loop_gain_at_fmax=None)])
+    assert f.confidence == "not-evaluated"
