@@ -7,7 +7,13 @@ import math
 import pytest
 from fixtures.rules import kit
 
-from afecheck.checks.distortion import class2_ceramic, common_mode_swing, loop_gain_at_fmax, slew_rate
+from afecheck.checks.distortion import (
+    class2_ceramic,
+    common_mode_swing,
+    loop_gain_at_fmax,
+    slew_rate,
+    transition_region,
+)
 from afecheck.checks.distortion.class2_ceramic import classify
 from afecheck.engine.context import Context
 from afecheck.engine.finding import Severity
@@ -110,3 +116,28 @@ def test_loop_gain_at_fmax_by_hand() -> None:
     assert kit.run(loop_gain_at_fmax, kit.design(), [kit.stage(f_max=1e3, feedback="positive")]) == []
     (f,) = kit.run(loop_gain_at_fmax, kit.design(), [kit.stage(f_max=1e3, loop_gain_at_fmax=None)])
     assert f.confidence == "not-evaluated"
+
+
+RRIO = {"input_stage": "rail-to-rail-complementary", "transition_below_vplus": 1.25, "transition_width": 0.25,
+        "transition_offset_step": 1e-4}
+
+
+def test_transition_region_overlap_exactly_at_its_edges() -> None:
+    # window V+ − 1.25 V ± 0.25 V on 5 V: 3.5..4.0 V (hand calculation, all exact in binary); touching an edge is
+    # not crossing the region, the next float into it is
+    loaded = kit.design(part=RRIO)
+
+    def found(lo: float, hi: float) -> list:
+        return kit.run(transition_region, loaded, [kit.stage(vcm_min=lo, vcm_max=hi, noise_gain_dc=2.0)])
+
+    assert found(3.0, 3.5) == [] and len(found(3.0, math.nextafter(3.5, 5.0))) == 1
+    assert found(4.0, 4.5) == [] and len(found(math.nextafter(4.0, 0.0), 4.5)) == 1
+    assert found(3.75, 3.75) == []  # a constant common mode inside the region never crosses it
+    # 3.0..4.0 V: 0.5 V peak; a 0.1 mV step is 2e-4 of it (−74 dB), 0.2 mV at the output at noise gain 2
+    (f,) = found(3.0, 4.0)
+    assert (f.ctx["window_low"], f.ctx["window_high"]) == (3.5, 4.0)
+    assert f.ctx["distortion"] == pytest.approx(2e-4, rel=1e-12)
+    assert f.ctx["output_step"] == pytest.approx(2e-4, rel=1e-12)
+    assert (f.ctx["value"], f.ctx["limit"], f.ctx["margin"]) == (4.0, 3.5, -0.5) and "-74 dB" in f.message
+    # a single-pair input has no transition region
+    assert kit.run(transition_region, kit.design(), [kit.stage(vcm_min=3.0, vcm_max=4.0)]) == []
