@@ -126,6 +126,7 @@ def test_a_stale_map_is_refused(mapped: tuple[Path, dict], tmp_path: Path) -> No
     pool = sorted(TESTS)
     tree = mutate.tree_hash(root, ("pkg", "tests"))
     assert mutate.load_map(saved, tree, pool)[0] is not None
+    clamp_only = mutate.tree_hash(root, ("pkg", "tests"), ["tests/test_clamp.py"])
     (root / "tests" / "test_double.py").write_text(TESTS["tests/test_double.py"] + "\n# edited\n", encoding="utf-8")
     try:
         changed = mutate.tree_hash(root, ("pkg", "tests"))
@@ -133,5 +134,26 @@ def test_a_stale_map_is_refused(mapped: tuple[Path, dict], tmp_path: Path) -> No
         cmap_again, why = mutate.load_map(saved, changed, pool)
         assert cmap_again is None and "another source tree" in why
         assert mutate.load_map(saved, tree, pool[:1])[0] is None
+        # a test module outside the pool does not make the map stale
+        assert mutate.tree_hash(root, ("pkg", "tests"), ["tests/test_clamp.py"]) == clamp_only
+        (root / "tests" / "test_other.py").write_text("def test_other():\n    pass\n", encoding="utf-8")
+        assert mutate.tree_hash(root, ("pkg", "tests"), pool) == changed
+        (root / "tests" / "test_other.py").unlink()
     finally:
         (root / "tests" / "test_double.py").write_text(TESTS["tests/test_double.py"], encoding="utf-8")
+
+
+def test_a_planted_mutant_is_run_through_the_fork_server(mapped: tuple[Path, dict]) -> None:
+    root, cmap = mapped
+    by = {(m.function, m.key.split(" | ")[2]): m for m in mutate.mutants([root / "pkg" / "mod.py"], root=root,
+                                                                          only=None)}
+    server = mutate.ForkServer(root)
+    try:
+        # x * 2 -> x / 2 breaks test_double; x < lo -> x <= lo changes nothing any test looks at (no x == 0 case)
+        killed = mutate._run_one(by[("double", "Mult->Div")], root, cmap, None, server)
+        kept = mutate._run_one(by[("clamp", "Lt->LtE")], root, cmap, None, server)
+    finally:
+        server.close()
+    assert (killed["killed"], killed["tests"]) == (True, 1)
+    assert (kept["killed"], kept["tests"]) == (False, 4)
+    assert (root / "pkg" / "mod.py").read_text(encoding="utf-8") == MODULE

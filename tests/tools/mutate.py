@@ -74,7 +74,9 @@ FIRST = {
 SLOW = ["tests/reference"]
 EQUIVALENT_FILE = ROOT / "tests" / "tools" / "equivalent_mutants.txt"
 PLUGIN = "mutate_plugin"  # tests/tools/mutate_plugin.py
+FORKS = "mutate_forks"  # tests/tools/mutate_forks.py
 MAP_VERSION = 1
+UNMAPPED = {"tests/tools/equivalent_mutants.txt", "tests/tools/mutate.py", "tests/tools/mutate_forks.py"}
 TIMEOUT_S = 300
 RECORD_TIMEOUT_S = 3600
 
@@ -325,15 +327,20 @@ def equivalent_reason(m: Mutant, same: dict[str, str]) -> str | None:
     return same.get(m.key, same.get(m.id))
 
 
-def tree_hash(root: Path, names: tuple[str, ...] = COPY) -> str:
-    """sha256 over every file the tests can see (path and bytes), so a coverage map is never used on other code."""
+def tree_hash(root: Path, names: tuple[str, ...] = COPY, pool: list[str] | None = None) -> str:
+    """sha256 over every file the mapped tests can see (path and bytes), so a coverage map is never used on other
+    code. Left out: test modules outside the pool (no test imports another's module), the runner's own files and
+    the equivalents list, none of which changes what a mapped test runs."""
     h = hashlib.sha256()
     for name in names:
         top = root / name
         paths = [top] if top.is_file() else sorted(p for p in top.rglob("*") if p.is_file())
         for p in paths:
             rel = p.relative_to(root).as_posix()
-            if "__pycache__" in p.parts or rel == "tests/tools/equivalent_mutants.txt" or p.suffix == ".pyc":
+            if "__pycache__" in p.parts or rel in UNMAPPED or p.suffix == ".pyc":
+                continue
+            if pool is not None and p.name.startswith("test_") and p.suffix == ".py" \
+                    and not any(rel == t or rel.startswith(t.rstrip("/") + "/") for t in pool):
                 continue
             h.update(rel.encode() + b"\0" + p.read_bytes() + b"\0")
     return h.hexdigest()
@@ -344,7 +351,8 @@ def _env(work: Path, **extra: str) -> dict[str, str]:
     plugin_dir = work / ".mutant-map" / "plugin"
     if not (plugin_dir / f"{PLUGIN}.py").exists():
         plugin_dir.mkdir(parents=True, exist_ok=True)
-        shutil.copy2(Path(__file__).with_name(f"{PLUGIN}.py"), plugin_dir)
+        for name in (PLUGIN, FORKS):
+            shutil.copy2(Path(__file__).with_name(f"{name}.py"), plugin_dir)
     env = dict(os.environ, **extra)
     env["PYTHONPATH"] = os.pathsep.join(p for p in (str(plugin_dir), env.get("PYTHONPATH")) if p)
     return env
@@ -461,25 +469,62 @@ def order_tests(m: Mutant, cmap: dict, ids: set[int], first_files: list[str]) ->
     return [n for n in ordered if n not in set(reference)], reference
 
 
-def _pytest(work: Path, tests: list[str], nodes: list[str] | None = None) -> bool:
+class ForkServer:
+    """A long-lived process in the copy (tests/tools/mutate_forks.py) that forks a ready pytest for each run."""
+
+    def __init__(self, work: Path) -> None:
+        self.work = work
+        env = _env(work)
+        self.proc = subprocess.Popen([sys.executable, str(work / ".mutant-map" / "plugin" / f"{FORKS}.py")],
+                                     cwd=work, env=env, stdin=subprocess.PIPE, stdout=subprocess.PIPE, text=True)
+        if json.loads(self.proc.stdout.readline() or "{}").get("ready") is not True:
+            raise SystemExit("the pytest fork server did not start")
+
+    def run(self, args: list[str], env: dict[str, str], timeout: float) -> tuple[int | None, str]:
+        """(exit status or None after a time-out, the run's output)."""
+        log = self.work / ".mutant-map" / "last-run.log"
+        self.proc.stdin.write(json.dumps({"args": args, "env": env, "timeout": timeout, "log": str(log)}) + "\n")
+        self.proc.stdin.flush()
+        code = json.loads(self.proc.stdout.readline())["code"]
+        return code, log.read_text(encoding="utf-8", errors="replace") if log.exists() else ""
+
+    def close(self) -> None:
+        self.proc.stdin.close()
+        self.proc.wait(timeout=60)
+
+
+def _pytest(work: Path, tests: list[str], nodes: list[str] | None = None, server: ForkServer | None = None) -> bool:
     """True when the tests pass (the mutant survives); ``nodes`` runs just those node ids, in that order."""
-    env = None
+    extra: dict[str, str] = {}
     if nodes is not None:
         chosen = work / ".mutant-map" / "chosen.txt"
         chosen.parent.mkdir(exist_ok=True)
         chosen.write_text("\n".join(nodes) + "\n", encoding="utf-8")
         tests = list(dict.fromkeys(n.split("::")[0] for n in nodes))
-        env = _env(work, AFECHECK_MUTANT_TESTS=str(chosen))
+        extra["AFECHECK_MUTANT_TESTS"] = str(chosen)
     tests = [t for t in tests if (work / t).exists()]
     plugin = ["-p", PLUGIN] if nodes is not None else []
-    cmd = [sys.executable, "-m", "pytest", "-x", "-q", "-p", "no:cacheprovider", *plugin, "-m", "not slow", *tests]
-    try:
-        proc = subprocess.run(cmd, cwd=work, capture_output=True, text=True, timeout=TIMEOUT_S, env=env)
-    except subprocess.TimeoutExpired:
-        return False  # a mutant that hangs is caught by any run with a time limit
-    if proc.returncode > 2:  # 3..5: pytest itself failed (usage, no tests): never count that as a kill
-        raise SystemExit(f"pytest could not run {tests}:\n{proc.stdout[-2000:]}{proc.stderr[-2000:]}")
-    return proc.returncode == 0  # 1: a test failed; 2: collection broke (the mutant does not import)
+    args = ["-x", "-q", "-p", "no:cacheprovider", *plugin, "-m", "not slow", *tests]
+    if server is not None:
+        code, output = server.run(args, extra, TIMEOUT_S)
+        if code is None:
+            return False  # a mutant that hangs is caught by any run with a time limit
+    else:
+        try:
+            proc = subprocess.run([sys.executable, "-m", "pytest", *args], cwd=work, capture_output=True, text=True,
+                                  timeout=TIMEOUT_S, env=_env(work, **extra) if extra else None)
+        except subprocess.TimeoutExpired:
+            return False
+        code, output = proc.returncode, proc.stdout + proc.stderr
+    if code > 2 or code < 0:  # 3..5: pytest itself failed (usage, no tests): never count that as a kill
+        raise SystemExit(f"pytest could not run {tests} (status {code}):\n{output[-3000:]}")
+    return code == 0  # 1: a test failed; 2: collection broke (the mutant does not import)
+
+
+def _forget_bytecode(path: Path) -> None:
+    """Drop the module's cached bytecode: two mutants of one size written within a second share an mtime."""
+    for pyc in (path.parent / "__pycache__").glob(f"{path.stem}.*.pyc"):
+        pyc.unlink(missing_ok=True)
 
 
 def _imported(path: Path, rel: str) -> set[str]:
@@ -504,9 +549,107 @@ def _with_imports(cmap: dict, work: Path, targets: tuple[str, ...]) -> dict:
     return {**cmap, "_imports": imports}
 
 
+def _stages(fast: list[str], first_files: list[str]) -> list[list[str]]:
+    """Split a mutant's tests in two runs: those in its module's own test files (or, with none, in the file of its
+    quickest test), then the rest. Most mutants die in the first, which then collects one or two files, not ten."""
+    if not fast:
+        return []
+    files = [n.split("::")[0] for n in fast]
+    own = set(first_files) & set(files) or {files[0]}
+    head = [n for n, f in zip(fast, files, strict=True) if f in own]
+    tail = [n for n, f in zip(fast, files, strict=True) if f not in own]
+    return [head, tail] if tail else [head]
+
+
+def _run_one(m: Mutant, work: Path, cmap: dict | None, tests: list[str] | None,
+             server: ForkServer | None) -> dict:
+    """Plant one mutant in the copy, run the tests that reach it, put the module back; the result record."""
+    t0 = time.monotonic()
+    if cmap is not None:
+        fast, reference = order_tests(m, cmap, covering_tests(m, cmap), _first_files(work, m.file))
+    else:
+        fast, reference = list(tests or _tests_for(work, m.file)), ([] if tests else SLOW)
+    if _area(m.file) != "afecheck/analysis":
+        reference = []  # the ngspice follow-up is for the analysis, as before the map
+    if not fast and not reference:
+        return {"id": m.id, "key": m.key, "killed": False, "covered": False, "seconds": 0.0, "tests": 0}
+    target = work / m.file
+    original = target.read_text(encoding="utf-8")
+    target.write_text(m.source, encoding="utf-8")
+    _forget_bytecode(target)
+    nodes = cmap is not None
+    try:
+        survived = True
+        for part in _stages(fast, _first_files(work, m.file)) if nodes else [fast]:
+            survived = survived and _pytest(work, part, part if nodes else None, server)
+        if survived and reference:
+            survived = _pytest(work, reference, reference if nodes else None, server)
+    finally:
+        target.write_text(original, encoding="utf-8")
+        _forget_bytecode(target)
+    return {"id": m.id, "key": m.key, "killed": not survived, "covered": True,
+            "seconds": round(time.monotonic() - t0, 1), "tests": len(fast) + len(reference)}
+
+
+def _prepare(work: Path, chosen: list[Mutant], tests: list[str] | None, use_map: bool,
+             map_file: Path | None) -> dict | None:
+    """Copy the tree, then record (or reuse) the coverage map, or check the unmutated subset when there is none."""
+    for name in COPY:
+        src = ROOT / name
+        (shutil.copytree if src.is_dir() else shutil.copy2)(src, work / name)
+    kills = sorted(p.relative_to(work).as_posix() for p in (work / "tests").glob("test_kill_*.py"))
+    pool = list(tests) if tests else list(dict.fromkeys(
+        FAST["afecheck/checks"] + FAST["afecheck/analysis"] + kills + SLOW))
+    if not use_map:
+        everything = list(dict.fromkeys(pool + [t for m in chosen for t in _tests_for(work, m.file)]))
+        if not _pytest(work, [t for t in everything if t not in SLOW]):
+            raise SystemExit("the unmutated test subset fails: fix the suite first")
+        return None
+    tree = tree_hash(ROOT, COPY, pool)
+    cmap, why = load_map(map_file, tree, pool) if map_file else (None, "")
+    if cmap is None:
+        if map_file is not None and map_file.exists():
+            print(f"{why}: recording a new one", flush=True)
+        t0 = time.monotonic()
+        cmap = record_map(work, pool, TARGETS, tree)
+        print(f"coverage pass: {len(cmap['tests'])} tests in {time.monotonic() - t0:.0f} s", flush=True)
+        if map_file:
+            map_file.write_text(json.dumps(cmap), encoding="utf-8")
+    else:
+        print(f"coverage map {map_file} reused ({len(cmap['tests'])} tests)", flush=True)
+    for name in cmap["failed"]:
+        print(f"warning: left out, fails on the unmutated tree: {name}", flush=True)
+    return _with_imports(cmap, work, TARGETS)
+
+
+def _summary(results: list[dict], t_setup: float) -> tuple[int, float]:
+    """Print the rate per area, the time per mutant and the survivors; (killed, rate)."""
+    killed = sum(r["killed"] for r in results)
+    counted = [r for r in results if "equivalent" not in r]
+    rate = killed / len(counted) if counted else 1.0
+    for area in TARGETS:
+        part = [r for r in counted if r["id"].startswith(area)]
+        print(f"{area}: {sum(r['killed'] for r in part)}/{len(part)} killed")
+    ran = [r["seconds"] for r in counted if r.get("covered")]
+    print(f"kill rate {killed}/{len(counted)} = {rate:.1%} ({len(results) - len(counted)} recorded equivalent left "
+          f"out; {killed}/{len(results)} = {killed / max(len(results), 1):.1%} counting them as survivors)")
+    print(f"time: set-up {t_setup:.0f} s, {sum(ran) / max(len(ran), 1):.1f} s per mutant run "
+          f"({len(ran)} run, {len(counted) - len(ran)} not covered)")
+    for r in counted:
+        if not r["killed"]:
+            print(f"survivor: {_survivor_line(r)}")
+    return killed, rate
+
+
+def _survivor_line(r: dict) -> str:
+    """``readable id  [file function]``, with ``(not covered)`` when no test runs the code."""
+    m_file, m_fn = r["key"].split(" | ")[:2]
+    return f"{r['id']}  [{m_file} {m_fn}]" + ("" if r.get("covered", True) else " (not covered)")
+
+
 def run(sample: int | None, seed: int, report: Path | None, ids: list[str] | None = None,
         limit: int | None = None, tests: list[str] | None = None, map_file: Path | None = None,
-        use_map: bool = True, survivors_file: Path | None = None) -> float:
+        use_map: bool = True, survivors_file: Path | None = None, forks: bool = True) -> float:
     files = sorted(p for t in TARGETS for p in (ROOT / t).rglob("*.py") if p.name != "__init__.py")
     every = mutants(files, only=set())
     chosen = stable_sample(every, seed, sample)
@@ -520,92 +663,36 @@ def run(sample: int | None, seed: int, report: Path | None, ids: list[str] | Non
     same = equivalents()
     results = []
     t_start = time.monotonic()
+    if survivors_file is not None:
+        survivors_file.write_text("", encoding="utf-8")
     with tempfile.TemporaryDirectory(prefix="afecheck-mutants-") as tmp:
         work = Path(tmp)
-        for name in COPY:
-            src = ROOT / name
-            (shutil.copytree if src.is_dir() else shutil.copy2)(src, work / name)
-        kills = sorted(p.relative_to(work).as_posix() for p in (work / "tests").glob("test_kill_*.py"))
-        pool = list(tests) if tests else list(dict.fromkeys(
-            FAST["afecheck/checks"] + FAST["afecheck/analysis"] + kills + SLOW))
-        cmap = None
-        if use_map:
-            tree = tree_hash(ROOT)
-            cmap, why = load_map(map_file, tree, pool) if map_file else (None, "")
-            if cmap is None:
-                if why and map_file.exists():
-                    print(f"{why}: recording a new one", flush=True)
-                t0 = time.monotonic()
-                cmap = record_map(work, pool, TARGETS, tree)
-                print(f"coverage pass: {len(cmap['tests'])} tests in {time.monotonic() - t0:.0f} s", flush=True)
-                if map_file:
-                    map_file.write_text(json.dumps(cmap), encoding="utf-8")
-            else:
-                print(f"coverage map {map_file} reused ({len(cmap['tests'])} tests)", flush=True)
-            for name in cmap["failed"]:
-                print(f"warning: left out, fails on the unmutated tree: {name}", flush=True)
-            cmap = _with_imports(cmap, work, TARGETS)
-        else:
-            everything = list(dict.fromkeys(pool + [t for m in chosen for t in _tests_for(work, m.file)]))
-            if not _pytest(work, [t for t in everything if t not in SLOW]):
-                raise SystemExit("the unmutated test subset fails: fix the suite first")
+        cmap = _prepare(work, chosen, tests, use_map, map_file)
+        server = ForkServer(work) if forks else None
         t_setup = time.monotonic() - t_start
-        for k, m in enumerate(chosen, 1):
-            reason = equivalent_reason(m, same)
-            where = f"{m.id} in {m.function}"
-            if reason is not None:
-                results.append({"id": m.id, "key": m.key, "killed": False, "equivalent": reason, "seconds": 0.0})
-                print(f"[{k}/{len(chosen)}] equivalent {where} ({reason})", flush=True)
-                continue
-            t0 = time.monotonic()
-            if cmap is not None:
-                fast, reference = order_tests(m, cmap, covering_tests(m, cmap), _first_files(work, m.file))
-                if _area(m.file) != "afecheck/analysis":
-                    reference = []
-            else:
-                fast, reference = list(tests or _tests_for(work, m.file)), ([] if tests else SLOW)
-            if not fast and not reference:
-                results.append({"id": m.id, "key": m.key, "killed": False, "covered": False, "seconds": 0.0})
-                print(f"[{k}/{len(chosen)}] SURVIVED {where} (not covered: no test runs this code)", flush=True)
-                continue
-            target = work / m.file
-            original = target.read_text(encoding="utf-8")
-            target.write_text(m.source, encoding="utf-8")
-            try:
-                nodes = cmap is not None
-                survived = _pytest(work, fast, fast if nodes else None) if fast else True
-                if survived and reference and _area(m.file) == "afecheck/analysis":
-                    survived = _pytest(work, reference, reference if nodes else None)
-            finally:
-                target.write_text(original, encoding="utf-8")
-            took = round(time.monotonic() - t0, 1)
-            results.append({"id": m.id, "key": m.key, "killed": not survived, "covered": True, "seconds": took,
-                            "tests": len(fast) + len(reference)})
-            print(f"[{k}/{len(chosen)}] {'killed  ' if not survived else 'SURVIVED'} {where} "
-                  f"({len(fast) + len(reference)} tests, {took:.1f} s)", flush=True)
-    killed = sum(r["killed"] for r in results)
-    counted = [r for r in results if "equivalent" not in r]
-    rate = killed / len(counted) if counted else 1.0
-    for area in TARGETS:
-        part = [r for r in counted if r["id"].startswith(area)]
-        print(f"{area}: {sum(r['killed'] for r in part)}/{len(part)} killed")
-    ran = [r["seconds"] for r in counted if r.get("covered")]
-    print(f"kill rate {killed}/{len(counted)} = {rate:.1%} ({len(results) - len(counted)} recorded equivalent left "
-          f"out; {killed}/{len(results)} = {killed / max(len(results), 1):.1%} counting them as survivors)")
-    print(f"time: set-up {t_setup:.0f} s, {sum(ran) / max(len(ran), 1):.1f} s per mutant run "
-          f"({len(ran)} run, {len(counted) - len(ran)} not covered)")
-    lines = []
-    for r in counted:
-        if not r["killed"]:
-            m_file, m_fn = r["key"].split(" | ")[:2]
-            note = "" if r.get("covered", True) else " (not covered)"
-            lines.append(f"{r['id']}  [{m_file} {m_fn}]{note}")
-            print(f"survivor: {lines[-1]}")
-    if survivors_file is not None:
-        survivors_file.write_text("".join(ln + "\n" for ln in lines), encoding="utf-8")
+        try:
+            for k, m in enumerate(chosen, 1):
+                where = f"{m.id} in {m.function}"
+                reason = equivalent_reason(m, same)
+                if reason is not None:
+                    results.append({"id": m.id, "key": m.key, "killed": False, "equivalent": reason, "seconds": 0.0})
+                    print(f"[{k}/{len(chosen)}] equivalent {where} ({reason})", flush=True)
+                    continue
+                r = _run_one(m, work, cmap, tests, server)
+                results.append(r)
+                if survivors_file is not None and not r["killed"]:  # as found, for whoever writes the kill tests
+                    with survivors_file.open("a", encoding="utf-8") as out:
+                        out.write(_survivor_line(r) + "\n")
+                verdict = "killed  " if r["killed"] else "SURVIVED"
+                how = f"{r['tests']} tests, {r['seconds']:.1f} s" if r["covered"] else "not covered: no test runs it"
+                print(f"[{k}/{len(chosen)}] {verdict} {where} ({how})", flush=True)
+        finally:
+            if server is not None:
+                server.close()
+    killed, rate = _summary(results, t_setup)
     if report is not None:
         report.write_text(json.dumps({"seed": seed, "sample": len(chosen), "total": len(every), "killed": killed,
-                                      "equivalent": len(results) - len(counted), "rate": rate,
+                                      "equivalent": sum("equivalent" in r for r in results), "rate": rate,
                                       "setup_seconds": round(t_setup, 1), "results": results},
                                      indent=1), encoding="utf-8")
     return rate
@@ -627,7 +714,8 @@ def main(argv: list[str] | None = None) -> int:
     ap.add_argument("--coverage-map", type=Path, default=None,
                     help="reuse the line-to-tests map saved here if recorded on this exact tree, else record and save")
     ap.add_argument("--no-map", action="store_true", help="run whole test files per mutant, without the coverage map")
-    ap.add_argument("--survivors", type=Path, default=None, help="write the survivors here, one a line")
+    ap.add_argument("--survivors", type=Path, default=None, help="write survivors here as found")
+    ap.add_argument("--no-fork", action="store_true", help="start a fresh pytest process for every mutant")
     args = ap.parse_args(argv)
     files = sorted(p for t in TARGETS for p in (ROOT / t).rglob("*.py") if p.name != "__init__.py")
     if args.list:
@@ -641,7 +729,7 @@ def main(argv: list[str] | None = None) -> int:
             print(f"{m.id}\n    {m.key}")
         return 0
     rate = run(args.sample, args.seed, args.json, args.ids, args.limit, args.tests, args.coverage_map,
-               not args.no_map, args.survivors)
+               not args.no_map, args.survivors, not args.no_fork)
     return 0 if rate >= args.floor else 1
 
 

@@ -7,6 +7,8 @@ Loaded with ``-p mutate_plugin`` (tests/tools on PYTHONPATH). Two modes, set by 
   asks first, so its lines are credited to every test that uses it); writes ``coverage.db`` and ``tests.json``
   (node ids in run order, seconds each, shared fixtures each uses) into the directory.
 - ``AFECHECK_MUTANT_TESTS=<file>``: keep only the node ids listed in the file (one a line) and run them in that order.
+
+In both, hypothesis runs derandomised with no deadline, so a property test sees the same examples every time.
 """
 
 from __future__ import annotations
@@ -17,10 +19,6 @@ import time
 from pathlib import Path
 
 import pytest
-
-RECORD = os.environ.get("AFECHECK_MUTANT_RECORD")
-CHOSEN = os.environ.get("AFECHECK_MUTANT_TESTS")
-SOURCES = os.environ.get("AFECHECK_MUTANT_SOURCES", "afecheck").split(os.pathsep)
 
 _cov = None
 _stack: list[str] = []
@@ -39,21 +37,33 @@ def _switch(context: str) -> None:
 
 
 def pytest_configure(config: pytest.Config) -> None:
-    """Start measuring before the tests import the package, so import-time lines are seen (context '')."""
+    """Make property-based tests repeatable (same examples in the coverage pass and under every mutant, no time
+    limit that a loaded machine or the tracer could break); then start measuring before the tests import the
+    package, so import-time lines are seen (context '')."""
     global _cov
-    if RECORD:
+    record = os.environ.get("AFECHECK_MUTANT_RECORD")
+    try:
+        from hypothesis import settings
+    except ImportError:
+        pass
+    else:
+        settings.register_profile("afecheck-mutants", deadline=None, derandomize=True, database=None)
+        settings.load_profile("afecheck-mutants")
+    if record:
         import coverage
 
-        _cov = coverage.Coverage(data_file=str(Path(RECORD) / "coverage.db"), source=SOURCES, branch=False,
+        sources = os.environ.get("AFECHECK_MUTANT_SOURCES", "afecheck").split(os.pathsep)
+        _cov = coverage.Coverage(data_file=str(Path(record) / "coverage.db"), source=sources, branch=False,
                                  config_file=False)
         _cov.start()
 
 
 def pytest_collection_modifyitems(config: pytest.Config, items: list[pytest.Item]) -> None:
     """With a chosen list, drop every other test and put the rest in the list's order."""
-    if not CHOSEN:
+    chosen = os.environ.get("AFECHECK_MUTANT_TESTS")
+    if not chosen:
         return
-    order = {nid: k for k, nid in enumerate(Path(CHOSEN).read_text(encoding="utf-8").splitlines()) if nid}
+    order = {nid: k for k, nid in enumerate(Path(chosen).read_text(encoding="utf-8").splitlines()) if nid}
     kept = sorted((i for i in items if i.nodeid in order), key=lambda i: order[i.nodeid])
     dropped = [i for i in items if i.nodeid not in order]
     if dropped:
@@ -109,4 +119,5 @@ def pytest_unconfigure(config: pytest.Config) -> None:
         return
     _cov.stop()
     _cov.save()
-    (Path(RECORD) / "tests.json").write_text(json.dumps(_tests, indent=0), encoding="utf-8")
+    out = Path(os.environ["AFECHECK_MUTANT_RECORD"]) / "tests.json"
+    out.write_text(json.dumps(_tests, indent=0), encoding="utf-8")
