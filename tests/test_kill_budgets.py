@@ -7,15 +7,18 @@ figures below are chosen so every share is exact: 1.2 mV against 1 mV is 120 %, 
 
 from __future__ import annotations
 
+from pathlib import Path
+
 import pytest
 from fixtures.rules import kit
 
 from afecheck.analysis.dc_error import DcTerm
 from afecheck.checks.budgets import gain_error_over_budget, offset_over_budget
 from afecheck.checks.budgets.offset_over_budget import terms_text
-from afecheck.checks.budgets.shared import budget_nets, over_budget, top_shares
+from afecheck.checks.budgets.shared import budget_nets, dc_error_of_budgets, over_budget, top_shares
 from afecheck.engine.context import Context
 from afecheck.engine.finding import Severity
+from afecheck.model.load import load_design
 
 BUDGETS = {"OUT": {"offset": 1e-3}, "MID": {"noise": 1e-6}, "REF": {"gain_accuracy": 0.01, "drift": 1e-3}}
 
@@ -82,3 +85,14 @@ def test_largest_offset_terms_by_magnitude_leaving_out_the_sensor() -> None:
     assert terms_text(terms, "offset", "V") == "U1 offset voltage 1.00 mV, R1 tolerance 200 µV, U1 bias current 100 µV"
     gains = [_term("R1 tolerance", "resistor", 0.0, -0.002), _term("R2 tolerance", "resistor", 0.0, 0.001)]
     assert terms_text(gains, "gain_error", "1") == "R1 tolerance 0.2 %, R2 tolerance 0.1 %"
+
+
+def test_offset_finding_points_at_the_part_behind_the_largest_circuit_term() -> None:
+    # the catalogue example: the finding names the parts of the largest term the circuit can fix (not the sensor)
+    loaded = load_design(Path(__file__).resolve().parents[1] / "rules" / "budgets" / "offset" / "bad.yaml")
+    (f,) = [x for x in kit.run(offset_over_budget, loaded, ()) if x.confidence != "not-evaluated"]
+    e = dc_error_of_budgets(Context(loaded).for_rule(offset_over_budget.META)).nets["OUT"]
+    circuit = [t for t in e.terms if t.kind != "sensor"]
+    lead = max(circuit, key=lambda t: abs(t.offset))
+    assert lead.refs and f.location.refs == lead.refs
+    assert f.ctx["value"] == pytest.approx(sum(abs(t.offset) for t in e.terms), rel=1e-12)  # linear sum

@@ -41,6 +41,7 @@ def test_a_feedback_capacitor_works_against_no_resistance_and_the_default_limit_
     cf = {"CF": {"kind": "capacitor", "value": 1e-9, "dielectric": "X7R", "pins": {"1": "OUT", "2": "INM"}}}
     (f,) = kit.run(class2_ceramic, kit.design(cf, signals=BAND), ())
     assert f.ctx["value"] == 1.0 and f.ctx["limit"] == 0.01 and f.ctx["margin"] == 0.01 - 1.0
+    assert f.ctx["frequency"] == 10.0 and f.ctx["position"] == "feedback"  # the band's lowest frequency
     assert "sits in a feedback position with 100 % of the signal across it at 10.0 Hz (limit 1.00 %)" in f.message
 
 

@@ -69,3 +69,12 @@ def test_output_swing_without_an_output_range_is_not_evaluated() -> None:
     for changes in ({"vout_min": None}, {"vout_max": None}, {"vout_min": None, "vout_max": None}):
         (f,) = kit.run(output_swing, kit.design(), [kit.stage(**changes)])
         assert f.confidence == "not-evaluated" and f.message.startswith("U1 output range not evaluated")
+
+
+def test_output_swing_clipping_by_hand_without_a_sensor_note() -> None:
+    # 1..4.8 V required on 5 V with 0.1 V drop and 50 Ω × 4.8 mA (1 kΩ load): limit 4.66 V, 0.14 V short
+    st = kit.stage(vout_min=1.0, vout_max=4.8, load_resistance=1e3)
+    (f,) = kit.run(output_swing, kit.design(), [st])
+    assert f.ctx["limit"] == pytest.approx(5.0 - 0.1 - 50 * 4.8e-3, rel=1e-12)
+    assert f.ctx["margin"] == pytest.approx(-0.14, rel=1e-9)
+    assert f.message.split(". Fix:")[0].endswith("(140 mV short): the signal clips")

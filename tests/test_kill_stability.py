@@ -8,7 +8,7 @@ import math
 import pytest
 from fixtures.rules import kit
 
-from afecheck.checks.stability import gain_margin, min_stable_gain, phase_margin
+from afecheck.checks.stability import feedback_sign, gain_margin, min_stable_gain, phase_margin
 from afecheck.checks.stability.causes import (
     STRAY_CAPACITANCE,
     input_zero,
@@ -155,3 +155,16 @@ def test_minimum_stable_gain_names_a_feedback_capacitor_only_when_it_drops_the_n
         assert ("a feedback capacitor drops it" in f.message) is blamed
         assert ("the signal gain sets it too low" in f.message) is not blamed
         assert (f.ctx["value"], f.ctx["limit"], f.ctx["margin"]) == (2.0, 5.0, -3.0)
+
+
+def test_feedback_findings_carry_the_computed_return_ratio() -> None:
+    # the value printed is T(0), the return ratio at DC (Bode, 1945); when the analysis has none it is 0
+    cap = {"C1": {"kind": "capacitor", "value": 1e-9, "pins": {"1": "INM", "2": "OUT"}}}
+    (f,) = kit.run(feedback_sign, kit.design(cap), [kit.stage(feedback="none", loop_gain_dc=2e-6)])
+    assert (f.ctx["value"], f.ctx["margin"]) == (2e-6, 2e-6) and "(T(0) = 2e-06)" in f.message
+    (f,) = kit.run(feedback_sign, kit.design(cap), [kit.stage(feedback="none", loop_gain_dc=None)])
+    assert (f.ctx["value"], f.ctx["margin"]) == (0.0, 0.0) and "T(0)" not in f.message
+    (f,) = kit.run(feedback_sign, kit.design(), [kit.stage(feedback="positive", loop_gain_dc=-3.0)])
+    assert (f.ctx["value"], f.ctx["margin"]) == (-3.0, -3.0)
+    (f,) = kit.run(feedback_sign, kit.design(), [kit.stage(feedback="none", loop_gain_dc=None)])
+    assert (f.ctx["value"], f.ctx["margin"]) == (0.0, 0.0) and "runs open loop" in f.message
