@@ -83,8 +83,10 @@ def test_largest_offset_terms_by_magnitude_leaving_out_the_sensor() -> None:
              _term("RT1 sensor", "sensor", 5e-3), _term("U1 bias current", "opamp", 0.1e-3),
              _term("R2 tolerance", "resistor", 0.05e-3)]
     assert terms_text(terms, "offset", "V") == "U1 offset voltage 1.00 mV, R1 tolerance 200 µV, U1 bias current 100 µV"
-    gains = [_term("R1 tolerance", "resistor", 0.0, -0.002), _term("R2 tolerance", "resistor", 0.0, 0.001)]
-    assert terms_text(gains, "gain_error", "1") == "R1 tolerance 0.2 %, R2 tolerance 0.1 %"
+    gains = [_term("U1 offset voltage", "opamp", 1e-3, None), _term("R1 tolerance", "resistor", 0.0, -0.002),
+             _term("R2 tolerance", "resistor", 0.0, 0.001)]
+    # a term with no gain part (an offset) counts as 0 and ranks last
+    assert terms_text(gains, "gain_error", "1") == "R1 tolerance 0.2 %, R2 tolerance 0.1 %, U1 offset voltage 0 %"
 
 
 def test_offset_finding_points_at_the_part_behind_the_largest_circuit_term() -> None:
