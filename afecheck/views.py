@@ -196,7 +196,8 @@ def _noise_panel(n: NetNoise, budget: float | None) -> NoisePanel:
 
 
 _LIMIT_UNITS = (("tolerance", "%"), ("tempco", "%"), ("offset voltage", "V"), ("offset drift", "V"),
-                ("current", "A"), ("open-loop gain", "V/V"))
+                ("current", "A"), ("open-loop gain", "V/V"), ("cold-junction compensation", "V"),
+                ("cold junction, uncompensated", "V"))
 
 
 def _term(t: DcTerm) -> ErrorTerm:

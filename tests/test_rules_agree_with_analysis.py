@@ -75,6 +75,24 @@ def _check_whole_chain(finding, analysis, loaded) -> None:
         assert c["value"] in options
 
 
+def _check_cold_junction(finding, loaded) -> None:
+    """The thermocouple's cold-junction figures, and the term the DC-error analysis solved at the budgeted net."""
+    from afecheck.analysis.dc_error import analyse_dc_error
+    from afecheck.sensors.cold_junction import cold_junction_error
+
+    c, ref = finding.ctx, finding.location.refs[0]
+    cj = cold_junction_error(ref, loaded.sensors[ref])
+    assert (c["emf_error_v"], c["hot_junction_c"], c["seebeck_hot_v_per_c"]) == (
+        cj.emf_v, cj.at_hot_c, cj.seebeck_hot_v_per_c)
+    if c["unit"] == "V":
+        net = finding.location.nets[0]
+        terms = analyse_dc_error(loaded, [net]).nets[net].terms
+        (term,) = [t for t in terms if t.hot_junction_c is not None and t.refs == (ref,)]
+        assert c["value"] == abs(term.offset)
+    else:
+        assert c["value"] == cj.at_hot_c
+
+
 def _check(finding, stages, analysis, loaded) -> None:
     c, rule = finding.ctx, finding.rule
     if rule.split(".")[0] in ("budgets", "adc", "limits"):
@@ -85,6 +103,9 @@ def _check(finding, stages, analysis, loaded) -> None:
 
         h = self_heating(loaded, finding.location.refs[0])
         assert (c["value"], c["power_w"], c["accuracy_k"]) == (h.rise_k, h.power_w, h.accuracy_k)
+        return
+    if rule == "dc-accuracy.cold-junction":
+        _check_cold_junction(finding, loaded)
         return
     s = _stage(stages, finding)
     if rule == "loading.inverting-input":
@@ -157,4 +178,4 @@ def test_every_printed_number_equals_its_analysis_quantity() -> None:
         "budgets.noise", "budgets.offset", "budgets.gain-error", "budgets.drift", "budgets.nonlinearity",
         "adc.range", "adc.anti-alias",
         "adc.settling", "adc.kick-back", "limits.supply-range", "limits.input-current",
-        "limits.capacitive-load", "dc-accuracy.sensor-self-heating"}, checked
+        "limits.capacitive-load", "dc-accuracy.sensor-self-heating", "dc-accuracy.cold-junction"}, checked

@@ -24,12 +24,12 @@ from dataclasses import dataclass
 import numpy as np
 
 from afecheck.analysis.channel import Channel, channel_key, channel_netlist, find_channels
-from afecheck.analysis.measurands import swept_refs
 from afecheck.analysis.mna import solve_ac
 from afecheck.analysis.netlist import CurrentSource, Netlist
 from afecheck.analysis.results import DesignAnalysis
 from afecheck.errors import AnalysisError, InputError, SingularCircuitError
 from afecheck.model.loaded import LoadedDesign
+from afecheck.sensors.measurand import swept_refs
 
 IDEAL_SNR_OFFSET_DB = 1.76
 DB_PER_BIT = 6.02

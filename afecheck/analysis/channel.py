@@ -12,9 +12,9 @@ from collections.abc import Callable, Iterable, Mapping
 from dataclasses import dataclass
 from typing import Any, TypeVar
 
-from afecheck.analysis.measurands import value_key
 from afecheck.analysis.netlist import Netlist, NetlistOptions, netlist_from_design
 from afecheck.model.loaded import LoadedDesign
+from afecheck.sensors.measurand import value_key
 
 SUPPLY_PINS = ("v+", "v-")
 

@@ -6,14 +6,17 @@ tolerance, each rail's and reference's tolerance; and, as a systematic term, eac
 output with the declared A0 against A0 a million times larger). Each term is the change of the net's voltage
 when that quantity alone moves to its limit, found by a DC solve of the whole channel (exact for the linear
 circuit, first order in the product of two tolerances), at both ends of the declared range (every signal and every
-sensor of any kind, :mod:`afecheck.analysis.measurands`, at its low end, then at its high end). The straight line
+sensor of any kind, :mod:`afecheck.sensors.measurand`, at its low end, then at its high end). The straight line
 through the two ends splits each term into an offset (its error at zero scale, where the ideal output crosses
 0 V, if the range holds that point, else at mid-scale) and a gain error (the change of its error across the span
 over the ideal span); how far the nominal output strays from that line in between is the nonlinearity
 (:mod:`afecheck.analysis.nonlinearity`). A channel driven by neither a signal nor a sensor (a reference alone)
 has no span: its offset is the term's larger error at the two ends and no gain error is given. A sensor's own
 tolerance (an NTC's or bridge's ``tolerance``, an RTD's tolerance class) is the sensor's accuracy, not the
-electronics': it is listed (kind ``sensor``) but left out of the totals.
+electronics': it is listed (kind ``sensor``) but left out of the totals. A thermocouple's cold-junction error
+(:mod:`afecheck.sensors.cold_junction`: the compensation's ±``cjc_accuracy`` times the Seebeck coefficient at the
+cold junction, or without compensation the whole E(t_cold)) is a shift of its terminal voltage, counted like any
+other term, with its size in °C at the hot junction beside it.
 
 Totals: worst case is the linear sum Σ|term|, statistical the root-sum-square √Σ term² (treating each limit as
 the same confidence bound, common practice). The exact worst case is also solved: every quantity at the limit
@@ -28,9 +31,9 @@ import math
 from collections.abc import Iterable, Mapping
 from dataclasses import dataclass, replace
 from functools import partial
+from typing import Any
 
 from afecheck.analysis.channel import Channel, per_channel
-from afecheck.analysis.measurands import has_sensor, own_tolerance, point_options
 from afecheck.analysis.mna import solve_dc
 from afecheck.analysis.netlist import (
     GROUND,
@@ -45,8 +48,12 @@ from afecheck.analysis.netlist import (
 from afecheck.analysis.nonlinearity import Nonlinearity, channel_nonlinearity
 from afecheck.errors import AnalysisError, InputError, SingularCircuitError
 from afecheck.model.loaded import LoadedDesign
+from afecheck.sensors.cold_junction import cold_junction_error
+from afecheck.sensors.measurand import has_sensor, own_tolerance, point_options
 from afecheck.sensors.resistive import SWEPT_KINDS
 
+COLD_JUNCTION = "cold junction"
+"""Kind of a thermocouple's cold-junction term: counted in the totals (the reading's error, not the sensor's)."""
 REFERENCE_C = 25.0
 IDEAL_GAIN_FACTOR = 1e6
 ASSUMED_RESISTOR_TOLERANCE = 0.01  # a resistor with no declared tolerance: 1 %, the common chip-resistor grade
@@ -62,7 +69,10 @@ class Quantity:
     limit: float
     element: str
     how: str
-    """``scale`` (resistor or source value × (1 + x)), ``vos`` (core offset = x), ``ib``/``ios`` (pin currents)"""
+    """``scale`` (resistor or source value × (1 + x)), ``shift`` (source value + x), ``vos`` (core offset = x),
+    ``ib``/``ios`` (pin currents)"""
+    hot_junction_c: float | None = None
+    """a thermocouple's cold-junction term: its limit as °C at the hot junction"""
 
 
 @dataclass(frozen=True)
@@ -77,6 +87,8 @@ class DcTerm:
     error_high: float
     offset: float
     gain_error: float | None
+    hot_junction_c: float | None = None
+    """a thermocouple's cold-junction term: its limit as °C at the hot junction (first order)"""
 
 
 @dataclass(frozen=True)
@@ -143,6 +155,10 @@ def quantities(loaded: LoadedDesign, netlist: Netlist, drift: bool = False) -> t
                 assumed.append(f"{e.name}.tolerance")
             if tol > 0:
                 out.append(Quantity(f"{e.name} tolerance", "resistor", (e.name,), tol, e.name, "scale"))
+        elif isinstance(e, VoltageSource) and getattr(loaded.sensors.get(e.name), "kind", None) == "thermocouple":
+            q = None if drift else cold_junction_quantity(e.name, loaded.sensors[e.name])
+            if q is not None and q.limit > 0:
+                out.append(q)
         elif isinstance(e, VoltageSource) and e.dc != 0.0:
             base = e.name.split("#")[0]
             src = d.rails.get(base) if e.name.endswith("#rail") else d.components.get(e.name)
@@ -171,6 +187,14 @@ def quantities(loaded: LoadedDesign, netlist: Netlist, drift: bool = False) -> t
     return out, assumed
 
 
+def cold_junction_quantity(ref: str, comp: Any) -> Quantity:
+    """A thermocouple's cold-junction error as a quantity: ± its terminal-voltage error added to its source
+    (:mod:`afecheck.sensors.cold_junction`), named for what the reading does about the cold junction."""
+    cj = cold_junction_error(ref, comp)
+    name = f"{ref} cold-junction compensation" if cj.compensated else f"{ref} cold junction, uncompensated"
+    return Quantity(name, COLD_JUNCTION, (ref,), cj.emf_v, ref, "shift", cj.at_hot_c)
+
+
 def _delta_t(loaded: LoadedDesign) -> float:
     rng = loaded.design.operating_temperature
     if not rng:
@@ -189,6 +213,9 @@ def perturbed(netlist: Netlist, moves: Iterable[tuple[Quantity, float]]) -> Netl
                 by_name[e.name] = replace(e, value=e.value * (1.0 + x))
             elif isinstance(e, VoltageSource):
                 by_name[e.name] = replace(e, dc=e.dc * (1.0 + x))
+        elif q.how == "shift":
+            assert isinstance(e, VoltageSource)
+            by_name[e.name] = replace(e, dc=e.dc + x)
         elif q.how == "vos":
             assert isinstance(e, OpAmpCore)
             by_name[e.name] = replace(e, vos=e.vos + x)
@@ -267,7 +294,7 @@ def channel_dc_error(loaded: LoadedDesign, channel: Channel, nets: Iterable[str]
         terms = []
         for q, m in zip(qs, moved, strict=True):
             off, gain = _split(lo_i, hi_i, m[0][n], m[1][n], linear)
-            terms.append(DcTerm(q.name, q.kind, q.refs, q.limit, m[0][n], m[1][n], off, gain))
+            terms.append(DcTerm(q.name, q.kind, q.refs, q.limit, m[0][n], m[1][n], off, gain, q.hot_junction_c))
         for ref, op in ends[0].opamps.items():
             g = gain_terms[0]
             off, gain = _split(lo_i, hi_i, g[0][n], g[1][n], linear)

@@ -15,7 +15,7 @@ the gain from the channel's declared signal to the net.
 Temperature: resistors at the top of the design's declared operating range (thermal noise grows with T, so
 that is the worst case), else 25 °C (298.15 K), the temperature part data are stated at; a thermometer (NTC, RTD)
 at the temperature its resistance is taken at, the middle of its own declared range (a bridge arm, at ambient, as
-any resistor; :mod:`afecheck.analysis.measurands`). A thermocouple is its loop resistance's thermal noise.
+any resistor; :mod:`afecheck.sensors.measurand`). A thermocouple is its loop resistance's thermal noise.
 """
 
 from __future__ import annotations
@@ -27,11 +27,11 @@ from dataclasses import dataclass
 import numpy as np
 
 from afecheck.analysis.channel import Channel, channel_netlist, per_channel
-from afecheck.analysis.measurands import sensor_noise_kelvin
 from afecheck.analysis.mna import check_connectivity, system_of
 from afecheck.analysis.netlist import GROUND, ZERO_C_K, Inductor, OpAmpCore, Resistor
 from afecheck.errors import AnalysisError, InputError, SingularCircuitError
 from afecheck.model.loaded import LoadedDesign
+from afecheck.sensors.measurand import sensor_noise_kelvin
 
 BOLTZMANN = 1.380649e-23  # J/K, exact since the 2019 SI redefinition
 DEFAULT_TEMPERATURE_C = 25.0

@@ -24,10 +24,10 @@ from collections.abc import Sequence
 from dataclasses import dataclass
 
 from afecheck.analysis.channel import Channel
-from afecheck.analysis.measurands import has_sensor, point_options, swept_refs, thermocouple_refs
 from afecheck.analysis.mna import solve_dc
 from afecheck.analysis.netlist import GROUND, netlist_from_design
 from afecheck.model.loaded import LoadedDesign
+from afecheck.sensors.measurand import has_sensor, point_options, swept_refs, thermocouple_refs
 from afecheck.sensors.resistive import sweep_key, sweep_range
 
 POINTS = 17

@@ -23,7 +23,7 @@ from afecheck.checks.budgets import (
     nonlinearity_over_budget,
     offset_over_budget,
 )
-from afecheck.checks.dc_accuracy import sensor_self_heating
+from afecheck.checks.dc_accuracy import cold_junction, sensor_self_heating
 from afecheck.checks.distortion import (
     class2_ceramic,
     common_mode_swing,
@@ -63,6 +63,7 @@ _BUILTIN_MODULES: tuple[ModuleType, ...] = (
     supply_range, input_current, capacitive_load,
     nonlinearity_over_budget,
     sensor_self_heating,
+    cold_junction,
 )
 
 BUILTIN_RULES: tuple[Rule, ...] = tuple(Rule(m.META, m.check) for m in _BUILTIN_MODULES)

@@ -242,14 +242,17 @@ class Rtd(_Component):
 class Thermocouple(_Component):
     """Thermocouple (type E J K N T) between ``p`` and ``n``: a voltage source E(hot) − E(cold) over the hot- and
     cold-junction ranges (ITS-90 reference functions), behind its lead resistance. With ``compensated`` the
-    reading is corrected for the cold junction to within ``cjc_accuracy`` °C."""
+    reading is corrected for the cold junction to within ``cjc_accuracy`` °C (an error of cjc_accuracy × S(cold) at
+    the terminals); without, it is short by E(cold) (rule dc-accuracy.cold-junction, the DC-error worksheet)."""
 
     kind: Literal["thermocouple"]
     type: Literal["E", "J", "K", "N", "T"]
     hot: tuple[Celsius, Celsius]
     cold: tuple[Celsius, Celsius] = (25.0, 25.0)
-    compensated: bool = True
-    cjc_accuracy: Q("K") = Field(default=0.0, ge=0, description="cold-junction compensation error, ± °C")
+    compensated: bool = Field(default=True, description="the reading adds E(t_cold) back from a sensor at the "
+                                                         "terminals; false: it reads the table as if they were at 0 °C")
+    cjc_accuracy: Q("K") = Field(default=0.0, ge=0, description="cold-junction compensation error, ± °C at the "
+                                                                "terminals (the compensation sensor's accuracy)")
     lead_resistance: Ohm = Field(default=0.0, ge=0, description="loop resistance of the thermocouple and leads")
 
     @model_validator(mode="after")

@@ -54,6 +54,8 @@ def render_worksheet(ws: Any) -> str:
                          + f"; total error at the worst corners {_v(e.corner_low)}..{_v(e.corner_high)}")
             lines.append("            top: " + _top(sorted(counted, key=lambda t: -abs(t.offset)),
                                                   lambda t: f"{t.name} {_v(abs(t.offset))}"))
+            lines += [f"            {t.name}: ±{_v(t.limit)} at {t.refs[0]}'s terminals, {_v(abs(t.offset))} here, "
+                      f"{t.hot_junction_c:.3g} °C at its hot junction" for t in counted if t.hot_junction_c is not None]
             if e.gain_error_worst is not None:
                 lines.append(f"    gain    {_pct(e.gain_error_worst)} worst, {_pct(e.gain_error_rss or 0.0)} RSS"
                              + _against(e.gain_error_worst, budget.get("gain_accuracy"), _pct))

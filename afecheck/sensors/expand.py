@@ -2,8 +2,8 @@
 
 A ``thermocouple`` becomes a signal source over E(hot) − E(cold) behind its lead resistance; a ``bridge`` becomes
 its four arms (``bridge_arm``, each following the bridge's measurand so they move together). RTDs and NTCs stay as
-they are (swept resistors, :mod:`afecheck.sensors.resistive`). :func:`sensor_views` gives each sensor's source
-figures for findings: range, Thevenin resistance, common mode and the measurand-to-volt slope.
+they are (swept resistors, :mod:`afecheck.sensors.resistive`). :func:`thermocouple_view` and :func:`bridge_view` give a
+sensor's source figures for findings: range, Thevenin resistance, common mode and the measurand-to-volt slope.
 """
 
 from __future__ import annotations

@@ -1,4 +1,4 @@
-"""Thermocouple voltages from the ITS-90 reference functions (types E, J, K, N, T) and cold-junction compensation.
+"""Thermocouple voltages from the ITS-90 reference functions (types E, J, K, N, T), and their Seebeck coefficients.
 
 E(t) = Σ c_i·t^i (+ a0·exp(a1·(t − a2)²) for type K above 0 °C), t in °C, E in mV. Coefficients are the
 published reference-function coefficients of NIST Monograph 175 (1993), "Temperature-Electromotive Force Reference
@@ -88,13 +88,18 @@ def span_c(tc_type: str) -> tuple[float, float]:
     return pieces[0][0], pieces[-1][1]
 
 
-def emf_mv(tc_type: str, t_c: float) -> float:
-    """Thermoelectric voltage in mV of a ``tc_type`` thermocouple with its reference junction at 0 °C."""
+def _piece(tc_type: str, t_c: float) -> tuple[tuple[float, ...], tuple[float, float, float] | None]:
+    """The coefficients and exponential term of the reference function's piece that holds ``t_c``."""
     pieces = _FUNCTIONS[tc_type]
     lo, hi = span_c(tc_type)
     if not lo <= t_c <= hi:
         raise ValueError(f"type {tc_type} is defined from {lo:g} °C to {hi:g} °C; {t_c:g} °C is outside")
-    coeffs, gauss = next((c, g) for _, high, c, g in pieces if t_c <= high or high == hi)
+    return next((c, g) for _, high, c, g in pieces if t_c <= high or high == hi)
+
+
+def emf_mv(tc_type: str, t_c: float) -> float:
+    """Thermoelectric voltage in mV of a ``tc_type`` thermocouple with its reference junction at 0 °C."""
+    coeffs, gauss = _piece(tc_type, t_c)
     value = 0.0
     for c in reversed(coeffs):
         value = value * t_c + c
@@ -105,10 +110,16 @@ def emf_mv(tc_type: str, t_c: float) -> float:
 
 
 def seebeck_uv_per_c(tc_type: str, t_c: float) -> float:
-    """dE/dt in µV/°C at ``t_c`` (central difference over ±0.01 °C, one-sided at the ends of the range)."""
-    lo, hi = span_c(tc_type)
-    a, b = max(lo, t_c - 0.01), min(hi, t_c + 0.01)
-    return (emf_mv(tc_type, b) - emf_mv(tc_type, a)) / (b - a) * 1000.0
+    """The Seebeck coefficient S = dE/dt in µV/°C at ``t_c``: the reference function differentiated term by term
+    (Σ i·c_i·t^(i−1), plus 2·a1·(t − a2)·a0·exp(a1·(t − a2)²) for type K above 0 °C)."""
+    coeffs, gauss = _piece(tc_type, t_c)
+    value = 0.0
+    for i in range(len(coeffs) - 1, 0, -1):
+        value = value * t_c + i * coeffs[i]
+    if gauss is not None:
+        a0, a1, a2 = gauss
+        value += 2.0 * a1 * (t_c - a2) * a0 * math.exp(a1 * (t_c - a2) ** 2)
+    return value * 1000.0
 
 
 def temperature_c(tc_type: str, e_mv: float) -> float:
