@@ -18,8 +18,8 @@ from pathlib import Path
 import pytest
 
 ROOT = Path(__file__).resolve().parents[1]
-SAMPLE = 16
-FLOOR = 0.55  # placeholder until measured on this runner's sample
+SAMPLE = 60  # 631 s of mutant runs plus a 309 s coverage pass on the shared machine at load 14 to 17 (2026-12-03)
+FLOOR = 0.78  # 47/60 = 78.3 % on main of 2026-12-03 17:19 UTC with this runner (docs/MUTATION.md); issue 18 asks 90 %
 
 
 @pytest.mark.slow

@@ -493,7 +493,8 @@ class ForkServer:
         self.proc.wait(timeout=60)
 
 
-def _pytest(work: Path, tests: list[str], nodes: list[str] | None = None, server: ForkServer | None = None) -> bool:
+def _pytest(work: Path, tests: list[str], nodes: list[str] | None = None, server: ForkServer | None = None,
+            timeout: float = TIMEOUT_S) -> bool:
     """True when the tests pass (the mutant survives); ``nodes`` runs just those node ids, in that order."""
     extra: dict[str, str] = {}
     if nodes is not None:
@@ -506,13 +507,13 @@ def _pytest(work: Path, tests: list[str], nodes: list[str] | None = None, server
     plugin = ["-p", PLUGIN] if nodes is not None else []
     args = ["-x", "-q", "-p", "no:cacheprovider", *plugin, "-m", "not slow", *tests]
     if server is not None:
-        code, output = server.run(args, extra, TIMEOUT_S)
+        code, output = server.run(args, extra, timeout)
         if code is None:
             return False  # a mutant that hangs is caught by any run with a time limit
     else:
         try:
             proc = subprocess.run([sys.executable, "-m", "pytest", *args], cwd=work, capture_output=True, text=True,
-                                  timeout=TIMEOUT_S, env=_env(work, **extra) if extra else None)
+                                  timeout=timeout, env=_env(work, **extra) if extra else None)
         except subprocess.TimeoutExpired:
             return False
         code, output = proc.returncode, proc.stdout + proc.stderr
@@ -561,6 +562,15 @@ def _stages(fast: list[str], first_files: list[str]) -> list[list[str]]:
     return [head, tail] if tail else [head]
 
 
+def _limit(cmap: dict | None, nodes: list[str]) -> float:
+    """Time allowed for a run: 60 s plus ten times what its tests took in the coverage pass (itself slowed by the
+    tracer), at most TIMEOUT_S; a mutant past it hangs, and counts as killed."""
+    if cmap is None:
+        return TIMEOUT_S
+    took = dict(zip(cmap["tests"], cmap["seconds"], strict=True))
+    return min(TIMEOUT_S, 60.0 + 10.0 * sum(took.get(n, 0.0) for n in nodes))
+
+
 def _run_one(m: Mutant, work: Path, cmap: dict | None, tests: list[str] | None,
              server: ForkServer | None) -> dict:
     """Plant one mutant in the copy, run the tests that reach it, put the module back; the result record."""
@@ -581,9 +591,9 @@ def _run_one(m: Mutant, work: Path, cmap: dict | None, tests: list[str] | None,
     try:
         survived = True
         for part in _stages(fast, _first_files(work, m.file)) if nodes else [fast]:
-            survived = survived and _pytest(work, part, part if nodes else None, server)
+            survived = survived and _pytest(work, part, part if nodes else None, server, _limit(cmap, part))
         if survived and reference:
-            survived = _pytest(work, reference, reference if nodes else None, server)
+            survived = _pytest(work, reference, reference if nodes else None, server, _limit(cmap, reference))
     finally:
         target.write_text(original, encoding="utf-8")
         _forget_bytecode(target)
