@@ -119,3 +119,16 @@ def test_a_dc_signal_is_read_just_above_dc(tmp_path):
     f_rc = 1 / (2 * math.pi * 100 * 1e-9)
     expected = 10 * math.log10((1 + (1e5 / f_rc) ** 2) * (1 + (1e5 / 1e6) ** 2))
     assert a.attenuation_db == pytest.approx(expected, abs=2e-3)
+
+
+def test_the_ac_peak_widens_the_range_at_both_ends(tmp_path):
+    # A 0.2 V peak on top of the 0.5..2.5 V DC range (follower, no band limit in the way): the converter sees
+    # 0.3..2.7 V, margins 0.3 V and 4.096 − 2.7 = 1.396 V, codes used 2.4/4.096 (hand calculation)
+    path = tmp_path / "d.yaml"
+    path.write_text(DRIVER.format(band=", ac_amplitude: 0.2 V, band: [10 Hz, 100 Hz]", reference="", fs="100 kHz",
+                                  extra=""), encoding="utf-8")
+    loaded = load_design(path)
+    a = analyse_adc(loaded, analyse(loaded)).nets["ADC"]
+    assert (a.signal_low, a.signal_high) == (pytest.approx(0.3, rel=1e-4), pytest.approx(2.7, rel=1e-4))
+    assert a.margin_low == pytest.approx(0.3, rel=1e-4) and a.margin_high == pytest.approx(1.396, rel=1e-4)
+    assert a.codes_used == pytest.approx(2.4 / 4.096, rel=1e-4)

@@ -23,8 +23,8 @@ parts:
     input_resistance_cm: 1e15
     offset_voltage: {vos}
     offset_drift: 2 uV/K
-    bias_current: 0
-    offset_current: 0
+    bias_current: {ib}
+    offset_current: {ios}
 rails: {{VP: {{voltage: 15 V}}, VN: {{voltage: -15 V}}}}
 signals:
   IN: {{dc: [{lo}, {hi}]}}
@@ -36,9 +36,10 @@ components:
 
 
 def _stage(tmp_path, *, lo="0 V", hi="1 V", vos="0", rf_tol="tolerance: 1%, ",
-           temperature="operating_temperature: [-15 °C, 65 °C]"):
+           temperature="operating_temperature: [-15 °C, 65 °C]", ib="0", ios="0"):
     path = tmp_path / "d.yaml"
-    path.write_text(STAGE.format(lo=lo, hi=hi, vos=vos, rf_tol=rf_tol, temperature=temperature), encoding="utf-8")
+    path.write_text(STAGE.format(lo=lo, hi=hi, vos=vos, rf_tol=rf_tol, temperature=temperature, ib=ib, ios=ios),
+                    encoding="utf-8")
     return analyse_dc_error(load_design(path), ["OUT"], nonlinearity=False).nets["OUT"]
 
 
@@ -118,3 +119,15 @@ def test_totals_are_the_linear_sum_and_the_root_sum_square(tmp_path):
     # together give ±(0.09 × 0.75 + 0.010) = ±0.0775 V, shifted by the finite gain's −G/A0 × 7.5 V = −0.75 mV
     assert res.corner_high == pytest.approx(0.0775 - 0.00075, rel=2e-3)
     assert res.corner_low == pytest.approx(-0.0775 - 0.00075, rel=2e-3)
+
+
+def test_bias_and_offset_currents_at_the_inverting_input(tmp_path):
+    # in+ sits on the 0 Ω signal, so only the current into in− matters: it is drawn through RF from OUT (RG's
+    # current is set by V(FB) = Vin), so Vout moves by +Ib·RF = 10 nA × 9 kΩ = +90 µV (Kirchhoff, hand calculation);
+    # the offset current enters in− as −Ios/2 (Ib− = Ib − Ios/2, Franco as above, ch. 5), −1 nA × 9 kΩ = −9 µV
+    res = _stage(tmp_path, ib="10 nA", ios="2 nA")
+    terms = {t.name: t for t in res.terms}
+    assert terms["U1 bias current"].limit == pytest.approx(10e-9)
+    assert terms["U1 bias current"].offset == pytest.approx(90e-6, rel=1e-3)
+    assert terms["U1 offset current"].limit == pytest.approx(1e-9)
+    assert terms["U1 offset current"].offset == pytest.approx(-9e-6, rel=1e-3)

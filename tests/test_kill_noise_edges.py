@@ -54,6 +54,7 @@ def test_a_one_ohm_winding_resistance_is_a_johnson_source(tmp_path):
     res = _noise(tmp_path, front=WINDING).nets["OUT"]
     by = {c.name: c for c in res.contributors}
     assert by["L1 winding thermal"].output_density_top == pytest.approx(math.sqrt(4 * BOLTZMANN * 300.0), rel=1e-6)
+    assert by["L1 winding thermal"].refs == ("L1",)  # the part a finding names
     assert res.output_rms == pytest.approx(math.sqrt(4 * BOLTZMANN * 300.0 * (1e4 - 10)), rel=1e-6)
 
 

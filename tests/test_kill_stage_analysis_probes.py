@@ -70,3 +70,19 @@ components:
     # a 10 GHz part keeps its full A0 = 1e5 at 1 kHz: loop gain 1e5/11 (noise gain 1 + 1 nF/100 pF), so the gain
     # is within 11/1e5 = 1.1e-4 of ideal; read at 2 kHz instead it would be 2/√5 of 1/CF, 26 % higher
     assert inp.gain == pytest.approx(-1e10 / math.sqrt(2), rel=2e-4)
+
+
+def test_charge_amplifier_band_gain_over_a_band_ending_at_1_hz(tmp_path):
+    # The same charge amplifier (bleed corner 1 kHz) over a declared band of 0.1..1 Hz: |V/Q| = ωRF/√(1 + (ωRF·CF)²)
+    # rises across the band, so the band's largest gain is at 1 Hz: (1/CF)·(1 Hz/1 kHz)/√(1 + 1e-6) ≈ 1.0e7 V/C
+    # (hand calculation, Franco as above); a band ending at exactly 1 Hz is a band like any other
+    rf = 1 / (2 * math.pi * 1e3 * 100e-12)
+    stage = _stage(tmp_path, f"""signals:
+  KNOCK: {{kind: charge, charge: 10 pC, capacitance: 1n, band: [0.1 Hz, 1 Hz]}}
+components:
+  U1: {{kind: opamp, part: P, pins: {{in+: GND, in-: KNOCK, out: OUT, v+: VP, v-: VN}}}}
+  CF: {{kind: capacitor, value: 100p, pins: {{1: OUT, 2: KNOCK}}}}
+  RF: {{kind: resistor, value: {rf!r}, pins: {{1: OUT, 2: KNOCK}}}}
+""", gbw="10 GHz", pole2="1e12")
+    (inp,) = stage.inputs
+    assert inp.band_gain == pytest.approx(1e10 * 1e-3 / math.sqrt(1 + 1e-6), rel=2e-4)
