@@ -98,3 +98,23 @@ def test_offset_finding_points_at_the_part_behind_the_largest_circuit_term() -> 
     lead = max(circuit, key=lambda t: abs(t.offset))
     assert lead.refs and f.location.refs == lead.refs
     assert f.ctx["value"] == pytest.approx(sum(abs(t.offset) for t in e.terms), rel=1e-12)  # linear sum
+
+
+def test_gain_error_finding_by_the_dc_error_analysis() -> None:
+    # the catalogue example: the value is the analysis's worst-case (linear-sum) gain error, the RSS is quoted, and
+    # the finding points at the parts of the largest term the circuit can fix
+    loaded = load_design(Path(__file__).resolve().parents[1] / "rules" / "budgets" / "gain-error" / "bad.yaml")
+    (f,) = [x for x in kit.run(gain_error_over_budget, loaded, ()) if x.confidence != "not-evaluated"]
+    net = f.location.nets[0]
+    e = dc_error_of_budgets(Context(loaded).for_rule(gain_error_over_budget.META)).nets[net]
+    lead = max((t for t in e.terms if t.kind != "sensor"), key=lambda t: abs(t.gain_error or 0.0))
+    assert lead.refs and f.location.refs == lead.refs
+    assert f.ctx["value"] == e.gain_error_worst and f.ctx["rss"] == e.gain_error_rss
+    budget = loaded.design.budgets[net].gain_accuracy
+    share = 1.0 if f.severity is Severity.ERROR else 0.8  # the rule page's 100 % and 80 % of the budget
+    assert f.ctx["limit"] == pytest.approx(share * budget, rel=1e-12)
+    # the default warning share is 80 %: a budget of worst/0.9 puts the error at 90 % of it, a warning
+    wider = e.gain_error_worst / 0.9
+    g = over_budget(Context(loaded).for_rule(gain_error_over_budget.META), net, "gain_accuracy",
+                    e.gain_error_worst, wider, "1", "gain error", "")
+    assert g.severity is Severity.WARNING and g.ctx["limit"] == pytest.approx(0.8 * wider, rel=1e-12)
