@@ -169,6 +169,8 @@ def test_noise_finding_equals_the_noise_analysis() -> None:
     assert f.ctx["limit"] == pytest.approx(_share(f) * 60e-6, rel=1e-12)
     assert (f.ctx["band_low_hz"], f.ctx["band_high_hz"]) == tuple(nn.band)
     assert f.ctx["top_contributors"] == top_shares(nn.contributors)
+    # the input-referred figure is quoted only when the analysis has one
+    assert nn.input_rms is not None and f.ctx["input_rms"] == nn.input_rms
 
 
 def test_drift_finding_equals_the_dc_error_analysis(tmp_path) -> None:
