@@ -193,3 +193,12 @@ def test_nonlinearity_finding_equals_the_dc_error_analysis() -> None:
     nl = dc_error_of_budgets(Context(loaded).for_rule(nonlinearity_over_budget.META)).nets["OUT"].nonlinearity
     assert f.ctx["value"] == nl.fraction and f.ctx["deviation"] == nl.worst and f.location.refs == nl.refs
     assert f.ctx["limit"] == pytest.approx(_share(f) * 0.01, rel=1e-12)
+
+
+def test_nonlinearity_of_an_output_that_does_not_move_is_not_evaluated(tmp_path) -> None:
+    # the thermistor held at one temperature: the output has no span to be straight or curved over
+    def hold(text: str) -> str:
+        return text.replace("temperature: [-20 °C, 80 °C]", "temperature: [25 °C, 25 °C]")
+    loaded = _example("nonlinearity", hold, tmp_path)
+    (f,) = kit.run(nonlinearity_over_budget, loaded, ())
+    assert f.confidence == "not-evaluated" and "does not move across the declared range" in f.message
