@@ -158,3 +158,14 @@ def test_range_of_a_bipolar_converter_is_plus_minus_half_full_scale(tmp_path) ->
     assert f.ctx["limit"] == pytest.approx(0.2 * 4.096, rel=1e-12)
     # equal margins: the low end is the one named (the rule's documented tie order, its first end)
     assert "at the low end" in f.message and "-2.048..2.048 V range" in f.message
+
+
+def test_a_short_margin_that_does_not_clip_gets_no_clipped_measurand_note() -> None:
+    # the Pt1000 probe sample leaves 0.870 V at the top of its 4.096 V range; asking 30 % (1.23 V) of margin flags
+    # it, but nothing clips, so no share of the sensor's range is said to be lost
+    loaded = load_design(Path(__file__).resolve().parents[1] / "sample_designs" / "pt1000_process_probe.yaml")
+    analysis = analyse(loaded)
+    a = analyse_adc(loaded, analysis).nets["OUT"]
+    assert 0.0 < a.margin_high < 1.0 and a.margin_high < a.margin_low
+    (f,) = _run(range_fill, loaded, analysis, {"min_margin": 0.3})
+    assert f.message.split(". Fix:")[0].endswith("readings clip there") and "measurand_value" not in f.ctx

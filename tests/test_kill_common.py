@@ -52,7 +52,7 @@ def test_percentages_keep_three_significant_figures() -> None:
     assert pct(0.01) == "1.00 %"
     assert pct(-0.05) == "-5.00 %"
     assert pct(1.5) == "150 %"
-    assert pct(12.345) == "1234 %"
+    assert pct(12.3456) == "1235 %"
     assert pct(0.0) == "0 %"
     # 0.01 % itself is still printed with fixed decimals; below it the general format takes over
     assert pct(1e-4) == "0.0100 %"

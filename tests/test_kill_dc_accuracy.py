@@ -88,3 +88,13 @@ def test_a_sensor_with_no_accuracy_is_not_evaluated_and_one_without_dissipation_
     path = tmp_path / "quiet.yaml"
     path.write_text(DESIGN.format(extra="class: B, ").replace("dissipation: 2 mW/K, ", ""), encoding="utf-8")
     assert _run(load_design(path)) == []
+
+
+def test_self_heating_past_the_whole_accuracy_is_an_error(tmp_path) -> None:
+    # δ = 0.5 mW/K: 174.2 µW / 0.5 mW/K = 0.348 °C, past class B's whole ±0.30 °C (the default error share, 100 %)
+    path = tmp_path / "hot.yaml"
+    path.write_text(DESIGN.format(extra="class: B, ").replace("dissipation: 2 mW/K", "dissipation: 0.5 mW/K"),
+                    encoding="utf-8")
+    (f,) = _run(load_design(path))
+    assert f.severity is Severity.ERROR and f.ctx["limit"] == pytest.approx(0.30, rel=1e-12)
+    assert f.ctx["value"] == pytest.approx(1000.0 * (2.5 / 5990.0) ** 2 / 0.5e-3, rel=1e-8)

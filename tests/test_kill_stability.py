@@ -168,3 +168,36 @@ def test_feedback_findings_carry_the_computed_return_ratio() -> None:
     assert (f.ctx["value"], f.ctx["margin"]) == (-3.0, -3.0)
     (f,) = kit.run(feedback_sign, kit.design(), [kit.stage(feedback="none", loop_gain_dc=None)])
     assert (f.ctx["value"], f.ctx["margin"]) == (0.0, 0.0) and "runs open loop" in f.message
+
+
+def test_causes_that_are_not_poles_carry_no_frequency() -> None:
+    # a noise gain below the part's minimum and a missing feedback capacitor are not poles or zeros: the finding
+    # gives 0 Hz for them (only a load pole or input zero has a frequency, 1/(2π·R·C))
+    decomp = kit.design(part={"min_stable_gain": 5.0})
+    (f,) = kit.run(phase_margin, decomp, [kit.stage(phase_margin_deg=30.0, noise_gain_at_crossover=2.0)])
+    assert f.ctx["cause"] == "below-minimum-gain" and f.ctx["cause_hz"] == 0.0
+    tia = kit.stage(topology="transimpedance", phase_margin_deg=30.0, feedback_capacitance_for_margin=2e-12)
+    (f,) = kit.run(phase_margin, kit.design(), [tia])
+    assert f.ctx["cause"] == "sensor-capacitance" and f.ctx["cause_hz"] == 0.0
+    # with no noise-gain figure at all the second-pole text assumes unity
+    cause = second_pole(_ctx(kit.design()), kit.stage(noise_gain_at_crossover=None, noise_gain_dc=None))
+    assert "noise gain 1 at crossover" in cause.text
+
+
+def test_minimum_stable_gain_applies_above_unity_only() -> None:
+    # a unity-gain-stable part (minimum 1) has nothing to judge, even without a crossover figure
+    assert kit.run(min_stable_gain, kit.design(part={"min_stable_gain": 1.0}),
+                   [kit.stage(noise_gain_at_crossover=None)]) == []
+    # a part stable from a gain of 2: a noise gain of 1.5 is below it
+    (f,) = kit.run(min_stable_gain, kit.design(part={"min_stable_gain": 2.0}),
+                   [kit.stage(noise_gain_at_crossover=1.5)])
+    assert f.ctx["limit"] == 2.0 and f.ctx["value"] == 1.5
+
+
+def test_feedback_findings_limit_is_zero() -> None:
+    # negative feedback means T(0) > 0: the limit the findings print is 0 (Bode's return ratio sign)
+    cap = {"C1": {"kind": "capacitor", "value": 1e-9, "pins": {"1": "INM", "2": "OUT"}}}
+    (f,) = kit.run(feedback_sign, kit.design(cap), [kit.stage(feedback="none", loop_gain_dc=None)])
+    assert f.ctx["limit"] == 0.0
+    (f,) = kit.run(feedback_sign, kit.design(), [kit.stage(feedback="positive", loop_gain_dc=-3.0)])
+    assert f.ctx["limit"] == 0.0
