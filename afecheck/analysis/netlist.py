@@ -195,8 +195,8 @@ class Netlist:
         return tuple(seen)
 
     def with_elements(self, *extra: Element) -> Netlist:
-        """A copy with ``extra`` elements appended."""
-        return replace(self, elements=self.elements + tuple(extra))
+        """A copy with ``extra`` elements appended (built directly: every stage's netlist passes here)."""
+        return Netlist(self.elements + tuple(extra), self.opamps)
 
     def without(self, *names: str) -> Netlist:
         """A copy without the named elements."""
