@@ -48,7 +48,8 @@ class _Parser(argparse.ArgumentParser):
 
 
 def build_parser(argv: list[str]) -> tuple[argparse.ArgumentParser, object | None]:
-    """Parser with every command; only the chosen command's module is imported."""
+    """Parser with the chosen command only (with every command when none or an unknown one is named, so that
+    help and the "invalid choice" error list them all); only the chosen command's module is imported."""
     epilog = "exit status:\n" + "\n".join(f"  {code:<4}{meaning}" for code, meaning in EXIT_STATUSES)
     parser = _Parser(prog="afecheck", description="Pre-layout review of analog front-end schematics.", epilog=epilog,
                      formatter_class=argparse.RawDescriptionHelpFormatter)
@@ -57,6 +58,8 @@ def build_parser(argv: list[str]) -> tuple[argparse.ArgumentParser, object | Non
     chosen = next((a for a in argv if not a.startswith("-")), None)
     module = None
     for name, help_text in COMMANDS.items():
+        if chosen in COMMANDS and name != chosen:
+            continue  # each sub-parser costs start-up time (argparse looks up translations for its texts)
         p = sub.add_parser(name, help=help_text, description=help_text)
         if name == chosen:
             module = importlib.import_module(f"afecheck.commands.{name}")

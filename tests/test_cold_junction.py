@@ -240,3 +240,18 @@ def test_dc_error_term_through_the_stage_matches_ngspice() -> None:
     text, _ = run_ngspice(KILN_DECK.format(v0=v0, v1=v0 + term.limit, a0=loaded.part("U1").open_loop_gain))
     before, after = (float(x) for x in re.findall(r"v\(out\)\s*=\s*(\S+)", text))
     assert term.error_low == pytest.approx(after - before, rel=1e-5)
+
+
+def test_channel_keys_tell_cold_junction_compensation_apart(tmp_path: Path) -> None:
+    # two kiln channels alike but for the compensation's accuracy are not the same channel for any cached result
+    from afecheck.analysis.channel import channel_key, find_channels
+
+    data = yaml.safe_load(KILN.read_text(encoding="utf-8"))
+    keys = []
+    for name, accuracy in (("a", "0.5 K"), ("b", "1 K"), ("c", "0.5 K")):
+        data["components"]["TC1"]["cjc_accuracy"] = accuracy
+        path = tmp_path / f"{name}.yaml"
+        path.write_text(yaml.safe_dump(data, allow_unicode=True), encoding="utf-8")
+        loaded = load_design(path)
+        keys.append(channel_key(loaded, find_channels(loaded)["OUT"], "OUT"))
+    assert keys[0] != keys[1] and keys[0] == keys[2]

@@ -133,9 +133,39 @@ def test_benchmark_script_runs_on_one_channel() -> None:
     assert proc.returncode == 0, proc.stderr
     lines = proc.stdout.splitlines()
     assert sum(1 for line in lines if line.startswith("| 1 | 12 | ")) == 2, proc.stdout  # size row and phase row
-    phase = next(line for line in lines if line.startswith("| 1 | ") and line.count("|") == 8)
+    phase = next(line for line in lines if line.startswith("| 1 | ") and line.count("|") == 9)
     # the generated design is clean; its one finding is the info that its ADC sample rate and part supply and
     # capacitive-load limits are declared but not checked yet (coverage.declared-not-checked)
-    assert phase.split("|")[7].strip() == "0", phase  # the generated design is clean
+    assert phase.split("|")[8].strip() == "0", phase  # the generated design is clean
     assert not any("afecheck exit" in line for line in lines), proc.stdout
     assert any(line.startswith("| 2 designs in one run") for line in lines)
+
+
+def test_varied_channels_are_all_different_circuits_of_e96_values() -> None:
+    """``vary``: no two channels of the same kind share their resistor values (so sharing solves between
+    repeated circuits cannot flatter a benchmark run on it), every value is an E96 value (IEC 60063 table, from
+    memory: 1.00 1.02 1.05 ... 9.76 per decade), and the design still validates."""
+    data = generate_design(400, vary=True)
+    Design.model_validate(data)
+    comps = data["components"]
+    seen: set[tuple] = set()
+    e96_sample = {1.00, 1.02, 1.05, 1.65, 1.69, 2.49, 3.01, 7.50, 7.68, 9.09, 9.53, 9.76}
+    for c in range(1, 401):
+        values = tuple(_ohm(comps[f"R{c * 100 + k}"]["value"]) for k in (2, 3, 4, 5))
+        seen.add((c % 2, values))
+        for v in values:
+            mantissa = round(v / 10 ** math.floor(math.log10(v)), 2)
+            assert 1.0 <= mantissa < 10.0
+            if mantissa in e96_sample:
+                continue
+            assert round(10 ** (round(96 * math.log10(mantissa)) / 96), 2) == mantissa
+    assert len(seen) == 400
+    plain = generate_design(4)
+    assert plain["components"]["R102"]["value"] == "3.01k"  # without vary: the benchmark's channel, unchanged
+
+
+def test_a_varied_design_is_clean(tmp_path: Path) -> None:
+    path = write_design(tmp_path / "varied.json", 6, vary=True)
+    out, err = io.StringIO(), io.StringIO()
+    assert main(["check", "--format", "json", str(path)], stdout=out, stderr=err) == 0, err.getvalue()
+    assert json.loads(out.getvalue())["findings"] == []

@@ -46,3 +46,18 @@ def test_a_record_refuses_assignment(record):
     field = dataclasses.fields(record)[0].name
     with pytest.raises(dataclasses.FrozenInstanceError):
         setattr(instance, field, None)
+
+
+# Records that hold numpy arrays: value equality of arrays is ambiguous (an array comparison is not one truth value)
+# and arrays are unhashable, so these compare and hash by identity (numpy's documented behaviour; common practice)
+BY_IDENTITY = ["loop.LoopGain", "loop.LoopProbe", "mna.MnaSystem", "mna._Reduction", "mna.DcSolution",
+               "mna.AcSolution", "affine.SweptForm", "corners.UnitGrid", "ranges.DcForms"]
+
+
+@pytest.mark.parametrize("name", BY_IDENTITY)
+def test_an_array_record_compares_and_hashes_by_identity(name):
+    module, _, cls = name.partition(".")
+    record = getattr(importlib.import_module(f"afecheck.analysis.{module}"), cls)
+    one, other = object.__new__(record), object.__new__(record)
+    assert one == one and one != other  # never field by field (no field is even read)
+    assert {one: 1}[one] == 1 and hash(one) != hash(other)

@@ -112,6 +112,9 @@ def test_a_segment_with_a_zero_end_is_integrated_as_a_trapezoid():
     assert band_rms(np.array([1.0, 3.0]), np.array([4.0, 0.0])) == pytest.approx(2.0)  # falling to zero: the same
     # and the power-law segments themselves: a white 1e-18 V²/Hz from 1 to 100 Hz is 99e-18 V² (hand calculation)
     assert band_rms(np.array([1.0, 10.0, 100.0]), np.full(3, 1e-18)) == pytest.approx(math.sqrt(99e-18), rel=1e-12)
+    # a density rising as f (a power law of exponent 1): ∫ from 1 to 3 Hz of f df = (9 − 1)/2 = 4 V² (hand
+    # calculation), RMS 2 V, exact for a power-law segment
+    assert band_rms(np.array([1.0, 3.0]), np.array([1.0, 3.0])) == pytest.approx(2.0, rel=1e-12)
     # a tiny total (1e-30 V²) stays tiny: nothing in the integral floors it
     assert band_rms(np.array([1.0, 2.0]), np.full(2, 1e-30)) == pytest.approx(1e-15, rel=1e-12)
 

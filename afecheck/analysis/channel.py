@@ -106,7 +106,8 @@ def channel_key(loaded: LoadedDesign, channel: Channel, *nets: str) -> tuple:
     key: list[object] = [tuple(num(n) for n in nets)]
     for ref in channel.refs:
         comp = d.components[ref]
-        key.append((comp.kind, value_key(comp), tuple((p, num(n)) for p, n in comp.pins.items())))
+        declared = loaded.sensors.get(ref, comp)  # a thermocouple as declared: its compensation is a value too
+        key.append((comp.kind, value_key(declared), tuple((p, num(n)) for p, n in comp.pins.items())))
     for net in channel.nets:
         if net in d.signals or net in d.loads:
             key.append((num(net), d.signals.get(net), d.loads.get(net)))

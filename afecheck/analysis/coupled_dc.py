@@ -19,11 +19,12 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from afecheck.analysis import solve_memo
 from afecheck.analysis.affine import SweptForm
 from afecheck.analysis.corners import Corners
-from afecheck.analysis.mna import assemble, check_connectivity
 from afecheck.analysis.ranges import solve_forms
 from afecheck.analysis.results import StageResult
+from afecheck.analysis.solve_memo import numeric_key, unit_system
 from afecheck.analysis.stage_analysis import MAX_LOCAL_PARTS, _node, _unit_netlist, _unit_sources
 from afecheck.errors import AnalysisError, InputError
 from afecheck.graph.build import Circuit
@@ -60,10 +61,11 @@ def solve_with_neighbours(circuit: Circuit, plan: StagePlan, unit: tuple[str, ..
         netlist, _inputs, notes, sources, ntcs = _unit_netlist(circuit, group, results, corners, forms, cache)
         if notes:
             return None
-        check_connectivity(netlist, dc=True)
-        system = assemble(netlist)
+        # a repeated channel's coupled circuit is the same up to names: its arrays and solves are shared
+        key = numeric_key(netlist) if cache is not None and solve_memo.MEMOISE else None
+        system = unit_system(netlist, key, cache)
         source_forms, varying, grid = _unit_sources(circuit, netlist, system, corners, sources, ntcs)
-        dc = solve_forms(system, source_forms, varying, grid)
+        dc = solve_forms(system, source_forms, varying, grid, memo=None if key is None else (cache, key))
     except (InputError, AnalysisError, np.linalg.LinAlgError, ValueError, ArithmeticError):
         return None
     own = sorted(set().union(*(set(s.nets) for s in stages)) - set(circuit.fixed))

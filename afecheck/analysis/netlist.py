@@ -12,13 +12,16 @@ from __future__ import annotations
 import math
 from collections.abc import Iterable, Mapping, Sequence
 from dataclasses import dataclass, field, replace
-from typing import Union
+from typing import TYPE_CHECKING, Union
 
 import numpy as np
 
 from afecheck.errors import InputError, Problem
 from afecheck.sensors.resistive import SWEPT_KINDS, sweep_range
 from afecheck.sensors.resistive import resistance as swept_resistance
+
+if TYPE_CHECKING:
+    from afecheck.analysis.macromodel import MacroModel
 
 GROUND = "0"
 T25_K = 298.15
@@ -286,6 +289,30 @@ class _VoltageTree:
         self.parent[self.find(a)] = self.find(b)
 
 
+def placed(template: Sequence[Element], ref: str, pins: Mapping[str, str]) -> list[Element]:
+    """An op-amp's macromodel elements made from its part's template (built on nodes ``in+ in- out``, names
+    ``#...``): each element renamed ``ref#...`` and put on the op-amp's nodes, values untouched (the numbers a
+    fresh build gives, without deriving every parameter again for each of a design's op-amps)."""
+    def at(node: str) -> str:
+        if node in pins:
+            return pins[node]
+        return ref + node if node.startswith("#") else node
+
+    out: list[Element] = []
+    for e in template:
+        t = type(e)
+        if t is Resistor or t is Capacitor:
+            out.append(t(ref + e.name, at(e.a), at(e.b), e.value))
+        elif t is OpAmpCore:
+            out.append(OpAmpCore(ref + e.name, at(e.pos), at(e.neg), at(e.cpos), at(e.cneg), e.a0, e.fp1, e.fp2,
+                                 e.vos))
+        elif t is CurrentSource:
+            out.append(CurrentSource(ref + e.name, at(e.pos), at(e.neg), dc=e.dc, ac=e.ac))
+        else:
+            raise TypeError(f"no placement for a {t.__name__} in a macromodel template")
+    return out
+
+
 def netlist_from_design(
     loaded,
     components: Iterable[str] | None = None,
@@ -315,7 +342,7 @@ def netlist_from_design(
     opamps: dict[str, OpAmpInstance] = {}
     vtree = _VoltageTree()
     # the export's subcircuit bodies, one per part: kept on the loaded design, so per-stage netlists share them
-    templates: dict[tuple[str, bool], tuple[Element, ...]] = loaded.__dict__.setdefault("_macromodel_templates", {})
+    templates: dict[tuple[str, bool], MacroModel] = loaded.__dict__.setdefault("_macromodel_templates", {})
     touched: dict[str, None] = {}
     problems: list[Problem] = []
 
@@ -381,14 +408,16 @@ def netlist_from_design(
                 file, line, col = loaded.position("components", ref, "part")
                 problems.append(Problem(file, line, col, f"components.{ref}.part", f"unknown part {comp.part!r}"))
                 continue
-            mm = opamp_macromodel(ref, pin(ref, "in+"), pin(ref, "in-"), pin(ref, "out"), model,
-                                  include_offsets=opts.include_offsets)
-            elements.extend(mm.elements)
             key = (comp.part, opts.include_offsets)
             if key not in templates:
-                templates[key] = opamp_macromodel("", "in+", "in-", "out", model, opts.include_offsets).elements
+                templates[key] = opamp_macromodel("", "in+", "in-", "out", model, opts.include_offsets)
+            template = templates[key]
+            ip, im, out = pin(ref, "in+"), pin(ref, "in-"), pin(ref, "out")
+            elements.extend(placed(template.elements, ref, {"in+": ip, "in-": im, "out": out}))
             supplies = tuple(node(comp.pins[p]) if p in comp.pins else GROUND for p in ("v+", "v-"))
-            opamps[ref] = replace(mm.instance, part=comp.part, supplies=supplies, template=templates[key])
+            opamps[ref] = replace(template.instance, refdes=ref, in_plus=ip, in_minus=im, out=out,
+                                  loop_element=f"{ref}{template.instance.loop_element}", part=comp.part,
+                                  supplies=supplies, template=template.elements)
             for p in ("v+", "v-"):
                 if p in comp.pins:
                     touched.setdefault(comp.pins[p], None)

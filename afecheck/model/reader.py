@@ -15,6 +15,7 @@ import math
 import os
 import re
 import stat
+import zlib
 from collections.abc import Callable
 from functools import lru_cache, partial
 from itertools import accumulate
@@ -613,7 +614,17 @@ def _flow_nesting_beyond_limit_on_one_line(text: str) -> bool:
 def _read_yaml(text: str, file: str) -> Document:
     """The data of YAML ``text``; its positions are found by reading it again when first asked for."""
     builder = _parse_yaml(text, file, record=False)
-    return Document(file, builder.root, index=partial(_yaml_index, text, file))
+    return Document(file, builder.root, index=partial(_index_later, _yaml_index, _packed(text), file))
+
+
+def _packed(text: str) -> bytes:
+    """The text kept for finding positions later, compressed (a design file shrinks about tenfold, in about 3 ms
+    a MiB): it stays alive as long as the loaded design, through the whole analysis (docs/BENCHMARK.md, memory)."""
+    return zlib.compress(text.encode("utf-8"), 1)
+
+
+def _index_later(build: Callable[[str, str], PositionIndex], packed: bytes, file: str) -> PositionIndex:
+    return build(zlib.decompress(packed).decode("utf-8"), file)
 
 
 def _yaml_index(text: str, file: str) -> PositionIndex:
@@ -716,7 +727,7 @@ def _read_json(text: str, file: str) -> Document:
         _, _, problems = _json_positions(text, file)
         if problems:
             raise InputError(problems)
-    return Document(file, data, index=partial(_json_index, text, file))
+    return Document(file, data, index=partial(_index_later, _json_index, _packed(text), file))
 
 
 def _deepest(data: Any) -> int:

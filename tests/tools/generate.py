@@ -9,6 +9,11 @@ inside the rails and the converter's full scale, so the design is meant to be cl
 Usable as a script::
 
     python tests/tools/generate.py 1000 -o /tmp/afe1000.json
+    python tests/tools/generate.py 1000 --vary -o /tmp/afe1000v.json   # every channel its own values
+
+Without ``--vary`` the channels are identical apart from their names, which flatters any sharing of work between
+repeated circuits; with it, each channel's gain and filter resistors are other E96 values, chosen from the channel
+number (deterministic), so no two channels of the same kind are the same circuit (up to 12 000 channels).
 """
 
 from __future__ import annotations
@@ -60,45 +65,80 @@ BENCH_PART: dict[str, Any] = {
 PART_NAME = "BENCH-PREC2"
 
 
-def _ntc_channel(c: int) -> tuple[dict[str, Any], dict[str, Any], dict[str, Any]]:
-    """Channel ``c``: NTC divider from the reference, gain 1.301, 10.7 Hz filter, sampled at 1 kHz."""
+def e96(lo: float, hi: float) -> list[float]:
+    """E96 values from ``lo`` to ``hi`` (IEC 60063: 10^(i/96) rounded to three significant figures)."""
+    out = []
+    for decade in range(-1, 8):
+        for i in range(96):
+            v = round(10 ** (i / 96), 2) * 10.0**decade
+            if lo * (1 - 1e-9) <= v <= hi * (1 + 1e-9):
+                out.append(v)
+    return out
+
+
+def _ohms(v: float) -> str:
+    """An E96 resistance written as the format reads it: 3.01k, 100k, 1.00M."""
+    for scale, suffix in ((1e6, "M"), (1e3, "k"), (1.0, "")):
+        if v >= scale:
+            return f"{v / scale:.3g}{suffix}"
+    return f"{v:.3g}"
+
+
+def _pick(index: int, *choices: list[float]) -> list[str]:
+    """One value from each list, by ``index`` written in mixed radix: distinct indices give distinct picks
+    (while ``index`` is below the product of the lists' lengths)."""
+    picked = []
+    for values in choices:
+        index, k = divmod(index, len(values))
+        picked.append(_ohms(values[k]))
+    return picked
+
+
+def _ntc_channel(c: int, vary: bool = False) -> tuple[dict[str, Any], dict[str, Any], dict[str, Any]]:
+    """Channel ``c``: NTC divider from the reference, gain 1.301, 10.7 Hz filter, sampled at 1 kHz (varied: gain
+    1.16..1.31 and filter resistors 90.9k..110k)."""
     b, n = c * 100, f"CH{c}_"
+    r_gain, r_gnd, r_fa, r_fb = _pick(c // 2, e96(1.65e3, 3.01e3), e96(9.76e3, 10.2e3), e96(90.9e3, 110e3),
+                                      e96(90.9e3, 110e3)) if vary else ("3.01k", "10.0k", "100k", "100k")
     comps = {
         f"R{b + 1}": {"kind": "resistor", "value": "10.0k", "tolerance": "0.1%", "pins": {1: "VREF", 2: n + "TH"}},
         f"RT{b + 1}": {"kind": "ntc", "r25": "10k", "beta": "3950 K", "temperature": ["-30 °C", "10 °C"],
                        "tolerance": "1%", "pins": {1: n + "TH", 2: "GND"}},
         f"U{b + 1}": {"kind": "opamp", "part": PART_NAME,
                       "pins": {"in+": n + "TH", "in-": n + "FB", "out": n + "AMP", "v+": "VCC", "v-": "GND"}},
-        f"R{b + 2}": {"kind": "resistor", "value": "3.01k", "tolerance": "0.1%", "pins": {1: n + "AMP", 2: n + "FB"}},
-        f"R{b + 3}": {"kind": "resistor", "value": "10.0k", "tolerance": "0.1%", "pins": {1: n + "FB", 2: "GND"}},
+        f"R{b + 2}": {"kind": "resistor", "value": r_gain, "tolerance": "0.1%", "pins": {1: n + "AMP", 2: n + "FB"}},
+        f"R{b + 3}": {"kind": "resistor", "value": r_gnd, "tolerance": "0.1%", "pins": {1: n + "FB", 2: "GND"}},
     }
-    comps.update(_filter(b, n, "100k"))
+    comps.update(_filter(b, n, r_fa, r_fb))
     adc = {"capacitance": "20 pF", "adc": {"full_scale": "3.3 V", "bits": 12, "sample_rate": "1 kHz"}}
     return comps, {}, {n + "ADC": adc}
 
 
-def _sensor_channel(c: int) -> tuple[dict[str, Any], dict[str, Any], dict[str, Any]]:
-    """Channel ``c``: 0.5..1.5 V sensor (1 kΩ) with a 1 MΩ pull-down, gain 2, 32 Hz filter, 10 kHz sampling."""
+def _sensor_channel(c: int, vary: bool = False) -> tuple[dict[str, Any], dict[str, Any], dict[str, Any]]:
+    """Channel ``c``: 0.5..1.5 V sensor (1 kΩ) with a 1 MΩ pull-down, gain 2, 32 Hz filter, 10 kHz sampling
+    (varied: gain 1.62..2 and filter resistors 30.1k..36.5k)."""
     b, n = c * 100, f"CH{c}_"
+    r_fb, r_gnd, r_fa, r_fb2 = _pick(c // 2, e96(7.5e3, 10e3), e96(10e3, 12.1e3), e96(30.1e3, 36.5e3),
+                                     e96(30.1e3, 36.5e3)) if vary else ("10.0k", "10.0k", "33.2k", "33.2k")
     comps = {
         f"S{b + 1}": {"kind": "signal_source", "dc": ["0.5 V", "1.5 V"], "ac_amplitude": "10 mV",
                       "band": ["0.1 Hz", "10 Hz"], "source_resistance": "1k", "pins": {"p": n + "SENS", "n": "GND"}},
         f"R{b + 1}": {"kind": "resistor", "value": "1.00M", "tolerance": "1%", "pins": {1: n + "SENS", 2: "GND"}},
         f"U{b + 1}": {"kind": "opamp", "part": PART_NAME,
                       "pins": {"in+": n + "SENS", "in-": n + "FB", "out": n + "AMP", "v+": "VCC", "v-": "GND"}},
-        f"R{b + 2}": {"kind": "resistor", "value": "10.0k", "tolerance": "0.1%", "pins": {1: n + "AMP", 2: n + "FB"}},
-        f"R{b + 3}": {"kind": "resistor", "value": "10.0k", "tolerance": "0.1%", "pins": {1: n + "FB", 2: "GND"}},
+        f"R{b + 2}": {"kind": "resistor", "value": r_fb, "tolerance": "0.1%", "pins": {1: n + "AMP", 2: n + "FB"}},
+        f"R{b + 3}": {"kind": "resistor", "value": r_gnd, "tolerance": "0.1%", "pins": {1: n + "FB", 2: "GND"}},
     }
-    comps.update(_filter(b, n, "33.2k"))
+    comps.update(_filter(b, n, r_fa, r_fb2))
     adc = {"capacitance": "20 pF", "adc": {"full_scale": "3.3 V", "bits": 12, "sample_rate": "10 kHz"}}
     return comps, {}, {n + "ADC": adc}
 
 
-def _filter(b: int, n: str, r: str) -> dict[str, Any]:
+def _filter(b: int, n: str, r: str, r2: str) -> dict[str, Any]:
     """Unity-gain Sallen-Key low-pass (Q ≈ 0.74), its op-amp's decoupling, and a 100 Ω ADC isolation resistor."""
     return {
         f"R{b + 4}": {"kind": "resistor", "value": r, "tolerance": "0.1%", "pins": {1: n + "AMP", 2: n + "SK1"}},
-        f"R{b + 5}": {"kind": "resistor", "value": r, "tolerance": "0.1%", "pins": {1: n + "SK1", 2: n + "SK2"}},
+        f"R{b + 5}": {"kind": "resistor", "value": r2, "tolerance": "0.1%", "pins": {1: n + "SK1", 2: n + "SK2"}},
         f"C{b + 1}": {"kind": "capacitor", "value": "220n", "tolerance": "5%", "dielectric": "film",
                       "pins": {1: n + "SK1", 2: n + "OUT"}},
         f"C{b + 2}": {"kind": "capacitor", "value": "100n", "tolerance": "5%", "dielectric": "film",
@@ -111,15 +151,16 @@ def _filter(b: int, n: str, r: str) -> dict[str, Any]:
     }
 
 
-def generate_design(channels: int, name: str | None = None) -> dict[str, Any]:
-    """A plain-data design (ready for JSON or YAML) with ``channels`` channels, 12 parts each."""
+def generate_design(channels: int, name: str | None = None, vary: bool = False) -> dict[str, Any]:
+    """A plain-data design (ready for JSON or YAML) with ``channels`` channels, 12 parts each (``vary``: each
+    channel with its own resistor values)."""
     if channels < 1:
         raise ValueError("channels must be at least 1")
     components: dict[str, Any] = {}
     signals: dict[str, Any] = {}
     loads: dict[str, Any] = {}
     for c in range(1, channels + 1):
-        comps, sigs, lds = (_ntc_channel if c % 2 else _sensor_channel)(c)
+        comps, sigs, lds = (_ntc_channel if c % 2 else _sensor_channel)(c, vary)
         components.update(comps)
         signals.update(sigs)
         loads.update(lds)
@@ -148,10 +189,10 @@ def _jsonable(data: Any) -> Any:
     return data
 
 
-def write_design(path: str | Path, channels: int) -> Path:
+def write_design(path: str | Path, channels: int, vary: bool = False) -> Path:
     """Write a generated design to ``path``: JSON if it ends in .json, else YAML."""
     path = Path(path)
-    data = generate_design(channels)
+    data = generate_design(channels, vary=vary)
     if path.suffix == ".json":
         path.write_text(json.dumps(_jsonable(data), indent=1, ensure_ascii=False) + "\n", encoding="utf-8")
     else:
@@ -164,13 +205,15 @@ def main(argv: list[str] | None = None) -> int:
     p = argparse.ArgumentParser(description="Generate an N-channel analog front-end design.")
     p.add_argument("channels", type=int)
     p.add_argument("-o", "--output", help="output file (.json or .yaml); default: YAML on stdout")
+    p.add_argument("--vary", action="store_true", help="give every channel its own resistor values")
     args = p.parse_args(argv)
     if args.channels < 1:
         p.error("channels must be at least 1")
     if args.output:
-        write_design(args.output, args.channels)
+        write_design(args.output, args.channels, args.vary)
     else:
-        sys.stdout.write(yaml.safe_dump(generate_design(args.channels), sort_keys=False, allow_unicode=True))
+        sys.stdout.write(yaml.safe_dump(generate_design(args.channels, vary=args.vary), sort_keys=False,
+                                        allow_unicode=True))
     return 0
 
 
