@@ -56,6 +56,17 @@ FAST = {
         "tests/test_vs_ngspice.py",
     ],
 }
+# Sensor, budget, memo and coverage tests reach both areas; with the coverage map a mutant runs only those of
+# them that execute its line, so the pool holds every default-suite file that drives analysis or rule code.
+SHARED = [
+    "tests/test_budget_sensors.py", "tests/test_cold_junction.py", "tests/test_declared_fields.py",
+    "tests/test_edge_cases.py", "tests/test_nonlinearity.py", "tests/test_norton_spice_import.py",
+    "tests/test_samples.py", "tests/test_sensor_kinds.py", "tests/test_sensor_measurand.py",
+    "tests/test_sensor_self_heating.py", "tests/test_sensor_topologies.py", "tests/test_sensors.py",
+    "tests/test_solve_memo.py", "tests/test_spice_inductors_currents.py", "tests/test_macromodel_placement.py",
+]
+for _area in FAST.values():
+    _area.extend(SHARED)
 # Tests that exercise a module most directly run first, so a mutant there fails fast under ``-x``; every
 # tests/test_kill_<stem>*.py joins its module's list by name. Keys are module stems or checks/ sub-packages.
 FIRST = {
@@ -70,6 +81,9 @@ FIRST = {
     "budgets": ["tests/test_noise.py", "tests/test_dc_error.py", "tests/test_rules_agree_with_analysis.py"],
     "adc": ["tests/test_adc_drive.py", "tests/test_rules_agree_with_analysis.py"],
     "limits": ["tests/test_supply_limits.py", "tests/test_rules_boundaries.py"],
+    "dc_accuracy": ["tests/test_sensor_self_heating.py", "tests/test_cold_junction.py"],
+    "declared": ["tests/test_declared_fields.py"], "solve_memo": ["tests/test_solve_memo.py"],
+    "nonlinearity": ["tests/test_nonlinearity.py"],
 }
 SLOW = ["tests/reference"]
 EQUIVALENT_FILE = ROOT / "tests" / "tools" / "equivalent_mutants.txt"
