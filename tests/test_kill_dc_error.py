@@ -131,3 +131,19 @@ def test_bias_and_offset_currents_at_the_inverting_input(tmp_path):
     assert terms["U1 bias current"].offset == pytest.approx(90e-6, rel=1e-3)
     assert terms["U1 offset current"].limit == pytest.approx(1e-9)
     assert terms["U1 offset current"].offset == pytest.approx(-9e-6, rel=1e-3)
+
+
+@pytest.mark.parametrize("a0", [1e5, 1e6, 1e7])
+def test_the_finite_gain_term_keeps_its_sign_and_size_for_high_gain_parts(tmp_path, a0):
+    # Closed-loop output G·Vin/(1 + G/A0) (Franco, as above): the finite gain moves the 7.5 V end by
+    # −7.5 × (G/A0)/(1 + G/A0) with G = 10, i.e. −0.75 mV, −75 µV and −7.5 µV. A single solve at A0 × 1e6 as the
+    # ideal reference lost those digits (at A0 = 1e7: +0.44 mV, the wrong sign); 1 % covers the solver's rounding
+    # at A0 = 1e7, where the whole term is one part in a million of the output.
+    path = tmp_path / "d.yaml"
+    path.write_text(STAGE.replace("open_loop_gain: 1e5", f"open_loop_gain: {a0:g}").format(
+        lo="0 V", hi="0.75 V", vos="0", rf_tol="tolerance: 0, ", temperature="", ib="0", ios="0"), encoding="utf-8")
+    res = analyse_dc_error(load_design(path), ["OUT"], nonlinearity=False).nets["OUT"]
+    term = {t.name: t for t in res.terms}["U1 finite open-loop gain"]
+    g = 10.0
+    assert term.error_high == pytest.approx(-7.5 * (g / a0) / (1 + g / a0), rel=1e-2)
+    assert term.gain_error == pytest.approx(-(g / a0) / (1 + g / a0), rel=1e-2)

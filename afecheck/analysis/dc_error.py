@@ -56,6 +56,9 @@ COLD_JUNCTION = "cold junction"
 """Kind of a thermocouple's cold-junction term: counted in the totals (the reading's error, not the sensor's)."""
 REFERENCE_C = 25.0
 IDEAL_GAIN_FACTOR = 1e6
+IDEAL_STEPS = (10.0, 100.0)
+"""Open-loop gains (times A0) the ideal-amplifier reference is extrapolated from: one solve at A0 x 1e6 loses the
+digits the finite-gain term lives in (at A0 = 1e7 it came out +0.44 mV instead of -7.5 uV at 7.5 V)."""
 ASSUMED_RESISTOR_TOLERANCE = 0.01  # a resistor with no declared tolerance: 1 %, the common chip-resistor grade
 
 
@@ -231,18 +234,26 @@ def perturbed(netlist: Netlist, moves: Iterable[tuple[Quantity, float]]) -> Netl
     return Netlist(tuple(by_name[e.name] for e in netlist.elements) + tuple(extra), netlist.opamps)
 
 
-def ideal(netlist: Netlist) -> Netlist:
-    """The netlist with every op-amp's open-loop gain a million times larger (the ideal-amplifier reference)."""
+def ideal(netlist: Netlist, factor: float = IDEAL_GAIN_FACTOR) -> Netlist:
+    """The netlist with every op-amp's open-loop gain ``factor`` times larger (a near-ideal amplifier)."""
     out = netlist
     for op in netlist.opamps.values():
         core = out.element(op.loop_element)
         assert isinstance(core, OpAmpCore)
-        out = out.replaced(replace(core, a0=core.a0 * IDEAL_GAIN_FACTOR))
+        out = out.replaced(replace(core, a0=core.a0 * factor))
     return out
 
 
 def _v(netlist: Netlist, node: str) -> float:
     return solve_dc(netlist).voltage(node)
+
+
+def ideal_voltages(netlist: Netlist, nodes: dict[str, str]) -> dict[str, float]:
+    """Each net's voltage with ideal op-amps: V(k) = V_inf + c/k + O(1/k^2) for every open-loop gain scaled by k, so
+    two well-conditioned solves at k1 < k2 give V_inf = (k2 V(k2) - k1 V(k1)) / (k2 - k1) (Richardson extrapolation)."""
+    k1, k2 = IDEAL_STEPS
+    s1, s2 = solve_dc(ideal(netlist, k1)), solve_dc(ideal(netlist, k2))
+    return {n: (k2 * s2.voltage(node) - k1 * s1.voltage(node)) / (k2 - k1) for n, node in nodes.items()}
 
 
 def _split(ideal_low: float, ideal_high: float, low: float, high: float,
@@ -268,7 +279,7 @@ def channel_dc_error(loaded: LoadedDesign, channel: Channel, nets: Iterable[str]
     ends = [netlist_from_design(loaded, channel.refs, _end_options(loaded, channel, k)) for k in (0, 1)]
     qs, assumed = quantities(loaded, ends[0])
     dqs, dassumed = quantities(loaded, ends[0], drift=True)
-    ideal_v = [{n: _v(ideal(nl), node) for n, node in targets} for nl in ends]
+    ideal_v = [ideal_voltages(nl, dict(targets)) for nl in ends]
     base_v = [{n: _v(nl, node) for n, node in targets} for nl in ends]
     results: dict[str, NetDcError] = {}
 
