@@ -11,6 +11,7 @@ from afecheck.checks.distortion import (
     class2_ceramic,
     common_mode_swing,
     loop_gain_at_fmax,
+    output_near_limit,
     slew_rate,
     transition_region,
 )
@@ -142,3 +143,19 @@ def test_transition_region_overlap_exactly_at_its_edges() -> None:
     assert (f.ctx["value"], f.ctx["limit"], f.ctx["margin"]) == (4.0, 3.5, -0.5) and "-74 dB" in f.message
     # a single-pair input has no transition region
     assert kit.run(transition_region, kit.design(), [kit.stage(vcm_min=3.0, vcm_max=4.0)]) == []
+
+
+def test_near_swing_limit_measures_the_low_end_inward_from_its_limit() -> None:
+    # distortion.near-swing-limit at the low end. KIT-AMP on 0..5 V with a 0.1 V output drop and no load current
+    # (docs/FORMAT.md's drop + Rsat·I swing model): the lowest output is 0.1 V. Hand calculation: an output down to
+    # 0.15 V is 0.05 V inside it, under the 0.1 V band (a warning quoting 50 mV); down to 0.25 V it is 0.15 V inside
+    # (no finding); exactly at 0.1 V the margin is zero and still a warning (clipping is headroom.output-swing's).
+    loaded = kit.design()
+    (near,) = kit.run(output_near_limit, loaded, [kit.stage(vout_min=0.15, vout_max=2.0, iout_peak=0.0)])
+    assert near.severity == Severity.WARNING
+    assert near.ctx["margin"] == pytest.approx(0.05, abs=1e-12)
+    assert near.ctx["limit"] == pytest.approx(0.1, abs=1e-12)
+    assert "lowest swing limit" in near.message
+    assert kit.run(output_near_limit, loaded, [kit.stage(vout_min=0.25, vout_max=2.0, iout_peak=0.0)]) == []
+    (edge,) = kit.run(output_near_limit, loaded, [kit.stage(vout_min=0.1, vout_max=2.0, iout_peak=0.0)])
+    assert edge.ctx["margin"] == pytest.approx(0.0, abs=1e-12)
