@@ -176,3 +176,20 @@ def test_which_inputs_the_bias_rule_judges() -> None:
     minus = stage(topology="follower", inputs=(stage_input("in-", source("SIG", 20e6, 20e6)),))
     assert run(bias_current_offset, d, [minus]) == []
     assert run(bias_current_offset, design(part={"offset_voltage": 0.0}), [_follower(20e6)]) == []
+
+
+def test_input_divider_quotes_the_limit_of_the_grade_it_gives() -> None:
+    # The loss 1 − |H| of the divider Rs against the input's Rcm ∥ Cin is graded against warn_fraction (1e-3) and
+    # error_fraction (1e-2) and the finding quotes the limit of the grade it gives (the rule page's table). A source
+    # five times the rule's own largest resistance for 1 % loses more than 1 % (an error quoting 1e-2); one at 1.5x
+    # its bound for 0.1 % but under the 1 % bound loses between the two (a warning quoting 1e-3).
+    def found(rs: float) -> list:
+        src = source("SIG", rs, rs, f_max=100e3)
+        return run(input_divider_error, design(), [stage(topology="follower", inputs=(stage_input("in+", src),))])
+
+    (probe,) = found(10e6)
+    r_cm, c_in = probe.ctx["input_resistance_cm"], probe.ctx["input_capacitance"]
+    r_err, r_warn = (max_source_resistance(r_cm, c_in, 100e3, x) for x in (1e-2, 1e-3))
+    assert r_warn < 1.5 * r_warn < r_err
+    assert [(f.severity, f.ctx["limit"]) for f in found(5 * r_err)] == [(Severity.ERROR, 1e-2)]
+    assert [(f.severity, f.ctx["limit"]) for f in found(1.5 * r_warn)] == [(Severity.WARNING, 1e-3)]
