@@ -193,3 +193,12 @@ def test_input_divider_quotes_the_limit_of_the_grade_it_gives() -> None:
     assert r_warn < 1.5 * r_warn < r_err
     assert [(f.severity, f.ctx["limit"]) for f in found(5 * r_err)] == [(Severity.ERROR, 1e-2)]
     assert [(f.severity, f.ctx["limit"]) for f in found(1.5 * r_warn)] == [(Severity.WARNING, 1e-3)]
+
+
+def test_a_zero_ohm_input_resistor_is_no_divider_for_the_source() -> None:
+    # With Ri = 0 the source drives the virtual ground itself: the stage is then a transimpedance connection, which
+    # this rule leaves alone as it does the transimpedance topology (Rs/(Rs + Ri) = 100 % would be a false error);
+    # the smallest positive Ri is judged as usual: 100 Ω into 1 Ω loses 100/101 (Ohm's law).
+    assert run(inverting_source_loading, design(), [_inverting(100.0, 100.0, ri=0.0)]) == []
+    (f,) = run(inverting_source_loading, design(), [_inverting(100.0, 100.0, ri=1.0)])
+    assert f.ctx["value"] == pytest.approx(100 / 101, rel=1e-12)
