@@ -11,10 +11,11 @@ import pytest
 from fixtures.rules import kit
 
 from afecheck.analysis.results import DesignAnalysis
-from afecheck.checks.headroom import floating_input, output_swing, supply_rail
+from afecheck.checks.headroom import floating_input, input_common_mode, output_swing, supply_rail
 from afecheck.checks.headroom.limits import cm_extremes, output_current, output_extremes, swing, worst_rails
 from afecheck.checks.stability import phase_margin
 from afecheck.engine.context import Context
+from afecheck.engine.finding import Severity
 
 SPLIT = {"U1": {**kit.OPAMP, "pins": {**kit.OPAMP["pins"], "v-": "VEE"}}}
 
@@ -124,3 +125,14 @@ def test_a_floating_inverting_input_is_left_to_the_feedback_rule_or_a_switching_
     assert f.ctx["pin"] == "in-"
     comparator = cf | {"U1": {**kit.OPAMP, "role": "comparator"}}
     assert kit.run(floating_input, kit.design(comparator), [kit.stage(feedback="negative")]) == []
+
+
+def test_input_common_mode_low_limit_is_the_negative_rail_plus_the_parts_headroom() -> None:
+    # headroom.input-common-mode at the low end: a part whose inputs must stay 0.2 V above V− (input_cm_low 0.2 V)
+    # on a 0..5 V supply has its lowest common mode at 0 + 0.2 = 0.2 V (docs/FORMAT.md's headroom model, by hand);
+    # a common mode down to 0.1 V is 0.1 V beyond it, an error quoting that limit and margin.
+    loaded = kit.design(part={"input_cm_low": 0.2})
+    (f,) = kit.run(input_common_mode, loaded, [kit.stage(vcm_min=0.1, vcm_max=2.0)])
+    assert f.severity == Severity.ERROR
+    assert f.ctx["limit"] == pytest.approx(0.2, abs=1e-12)
+    assert f.ctx["margin"] == pytest.approx(-0.1, abs=1e-12)

@@ -86,6 +86,9 @@ FIRST = {
     "nonlinearity": ["tests/test_nonlinearity.py"],
 }
 SLOW = ["tests/reference"]
+# Tests that judge the package's class definitions themselves (a record's frozen and eq flags): what they execute
+# is dataclass-generated code outside the mutated file, so coverage never credits them to a decorator's line.
+RECORD_TESTS = {"tests/test_kill_frozen_records.py"}
 EQUIVALENT_FILE = ROOT / "tests" / "tools" / "equivalent_mutants.txt"
 PLUGIN = "mutate_plugin"  # tests/tools/mutate_plugin.py
 FORKS = "mutate_forks"  # tests/tools/mutate_forks.py
@@ -466,6 +469,7 @@ def covering_tests(m: Mutant, cmap: dict) -> set[int]:
         found = whole(m.file)
         for other in _importers(cmap, m.file):
             found |= whole(other)
+        found |= {k for k, name in enumerate(cmap["tests"]) if name.split("::")[0] in RECORD_TESTS}
     found.discard(-1)
     return found
 
