@@ -1,0 +1,37 @@
+"""A notch that dips through |T| = 1 between two frequencies of a sparse, caller-given grid, inside the first step of
+the extremum search's sub-grid above the lower of them: the search must keep that first step in its interval.
+Reference: the twin-T loop of test_loop_crossings, written out by nodal analysis with numpy and bisected; nothing
+of afecheck's solver or grid."""
+
+from __future__ import annotations
+
+import numpy as np
+import pytest
+from ngspice_harness import opamp_elements
+from test_loop_crossings import A0, DETUNE, FP1, C, R, bisect, notch_loop
+
+from afecheck.analysis.loop import loop_gain
+from afecheck.analysis.netlist import Capacitor, Netlist, Resistor
+
+# 990 Hz, then 1000.3 Hz (just above the notch, |T| = 1.6), then 1262 Hz: the search between 990 and 1262 Hz
+# samples 24 points a ln(1262/990)/23 step apart, the second at 1000.5 Hz (|T| = 2.6), above the notch near 1000 Hz
+GRID = np.array([100.0, 300.0, 990.0, 1000.3, 1262.0, 3000.0, 1e4])
+
+
+def test_a_notch_in_the_first_step_of_the_search_interval_is_found() -> None:
+    els, inst = opamp_elements("U1", "0", "N", "OUT", a0=A0, gbw=A0 * FP1)
+    net = Netlist(els + (Resistor("R1", "OUT", "A", R), Resistor("R2", "A", "N", R), Capacitor("C3", "A", "0", 2 * C),
+                         Capacitor("C1", "OUT", "B", C), Capacitor("C2", "B", "N", C),
+                         Resistor("R3", "B", "0", R / 2 * (1 + DETUNE))), {"U1": inst})
+    assert np.all(np.abs(notch_loop(GRID)) > 1.0)  # no grid point is inside the notch
+    second = 990.0 * (1262.0 / 990.0) ** (1 / 23)
+    assert abs(notch_loop(np.array([second]))[0]) > 1.0  # nor the search's second sample
+    # the notch's two edges, where |T| falls through 1 and rises back, bisected on the written-out loop
+    fine = np.geomspace(990.0, 1010.0, 20001)
+    m = np.abs(notch_loop(fine))
+    bottom = fine[m.argmin()]
+    assert m.min() < 0.3 and 990.0 < bottom < second
+    h = lambda x: np.log(np.abs(notch_loop(np.atleast_1d(x))))[0]  # noqa: E731
+    fall, rise = bisect(h, 995.0, bottom), bisect(h, bottom, 1000.3)
+    lg = loop_gain(net, "U1", GRID)
+    assert lg.crossovers_hz == pytest.approx((fall, rise), rel=1e-6)
