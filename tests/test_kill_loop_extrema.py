@@ -35,3 +35,25 @@ def test_a_notch_in_the_first_step_of_the_search_interval_is_found() -> None:
     fall, rise = bisect(h, 995.0, bottom), bisect(h, bottom, 1000.3)
     lg = loop_gain(net, "U1", GRID)
     assert lg.crossovers_hz == pytest.approx((fall, rise), rel=1e-6)
+
+
+# The mirror case: 790 Hz, then 999.7 Hz (just below the notch, |T| = 1.4), then 1000.5 Hz (|T| = 2.6): the
+# notch lies in the search's last sub-step, between its sample at 990.3 Hz (|T| = 49) and 1000.5 Hz itself
+MIRROR = np.array([100.0, 300.0, 790.0, 999.7, 1000.5, 3000.0, 1e4])
+
+
+def test_a_notch_in_the_last_step_of_the_search_interval_is_found() -> None:
+    els, inst = opamp_elements("U1", "0", "N", "OUT", a0=A0, gbw=A0 * FP1)
+    net = Netlist(els + (Resistor("R1", "OUT", "A", R), Resistor("R2", "A", "N", R), Capacitor("C3", "A", "0", 2 * C),
+                         Capacitor("C1", "OUT", "B", C), Capacitor("C2", "B", "N", C),
+                         Resistor("R3", "B", "0", R / 2 * (1 + DETUNE))), {"U1": inst})
+    assert np.all(np.abs(notch_loop(MIRROR)) > 1.0)
+    last_but_one = 1000.5 / (1000.5 / 790.0) ** (1 / 23)
+    fine = np.geomspace(990.0, 1010.0, 20001)
+    m = np.abs(notch_loop(fine))
+    bottom = fine[m.argmin()]
+    assert last_but_one < 999.7 < bottom < 1000.5
+    h = lambda x: np.log(np.abs(notch_loop(np.atleast_1d(x))))[0]  # noqa: E731
+    fall, rise = bisect(h, 999.7, bottom), bisect(h, bottom, 1000.5)
+    lg = loop_gain(net, "U1", MIRROR)
+    assert lg.crossovers_hz == pytest.approx((fall, rise), rel=1e-6)
