@@ -12,11 +12,10 @@ from __future__ import annotations
 import numpy as np
 import pytest
 import test_loop_crossings
-from ngspice_harness import opamp_elements
-from test_loop_crossings import A0, FP1, C, R, bisect, notch_loop
+from test_kill_loop_extrema import notch_edges, notch_net
+from test_loop_crossings import notch_loop
 
 from afecheck.analysis.loop import default_loop_grid, loop_gain
-from afecheck.analysis.netlist import Capacitor, Netlist, Resistor
 
 SHALLOW = 7.988e-4  # the shunt resistor 0.08 % off R/2: |T| bottoms out at 0.9985 near 1 kHz
 OFFSETS = 8  # the grid slid through one of its steps in eighths
@@ -24,18 +23,11 @@ OFFSETS = 8  # the grid slid through one of its steps in eighths
 
 def test_a_notch_dipping_just_under_unity_is_found_at_every_position_between_grid_points(monkeypatch) -> None:
     monkeypatch.setattr(test_loop_crossings, "DETUNE", SHALLOW)
-    els, inst = opamp_elements("U1", "0", "N", "OUT", a0=A0, gbw=A0 * FP1)
-    net = Netlist(els + (Resistor("R1", "OUT", "A", R), Resistor("R2", "A", "N", R), Capacitor("C3", "A", "0", 2 * C),
-                         Capacitor("C1", "OUT", "B", C), Capacitor("C2", "B", "N", C),
-                         Resistor("R3", "B", "0", R / 2 * (1 + SHALLOW))), {"U1": inst})
-    fine = np.geomspace(999.0, 1001.0, 200001)
-    m = np.abs(notch_loop(fine))
-    bottom = fine[m.argmin()]
-    h = lambda x: np.log(np.abs(notch_loop(np.atleast_1d(x))))[0]  # noqa: E731
-    fall, rise = bisect(h, 999.0, bottom), bisect(h, bottom, 1001.0)
-    assert 0.998 < m.min() < 0.999
+    net = notch_net(SHALLOW)
+    _, lowest, fall, rise = notch_edges(999.0, 1001.0)
+    assert 0.998 < lowest < 0.999
     assert 2e-5 < np.log(rise / fall) < 2.4e-5  # twice the search's last sample spacing
-    base = default_loop_grid(inst)
+    base = default_loop_grid(net.opamps["U1"])
     for k in range(OFFSETS):
         grid = base * 10 ** (k / (12 * OFFSETS))
         near = grid[(grid > 500.0) & (grid < 2000.0)]
