@@ -48,10 +48,16 @@ def _expected(rs: float) -> tuple[float, float]:
 def test_a_bias_current_through_the_source_resistance_reaches_the_other_follower(tmp_path):
     # found by this test: the neighbour pass skipped every declared voltage signal's net as if an ideal source
     # held it, so U2 kept 0.499995 V while U3, on the same net, saw 0.495..0.505 V
-    nets = _nets(tmp_path, "signals:\n  X: {dc: [1 V, 1 V], source_resistance: 10k}")
+    path = tmp_path / "d.yaml"
+    path.write_text(DESIGN.format(source="signals:\n  X: {dc: [1 V, 1 V], source_resistance: 10k}", extra=""),
+                    encoding="utf-8")
+    a = analyse(load_design(path))
     lo, hi = _expected(10e3)
     for out in ("O2", "O3"):
-        assert (nets[out].dc_min, nets[out].dc_max) == (pytest.approx(lo, rel=1e-9), pytest.approx(hi, rel=1e-9))
+        assert (a.nets[out].dc_min, a.nets[out].dc_max) == (pytest.approx(lo, rel=1e-9), pytest.approx(hi, rel=1e-9))
+    # the stages' own output ranges take the same figures
+    for s in a.stages:
+        assert (s.vout_min, s.vout_max) == (pytest.approx(lo, rel=1e-9), pytest.approx(hi, rel=1e-9))
 
 
 def test_an_ideal_source_holds_its_net_against_the_bias_current(tmp_path):
