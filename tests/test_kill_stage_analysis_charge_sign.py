@@ -9,14 +9,13 @@ import pytest
 
 from afecheck.analysis import analyse
 from afecheck.model.load import load_design
+from tests.hand_part import template_part
 
 DESIGN = """
 afecheck: 1
 name: charge amplifier
 parts:
-  P: {{gbw: 1 MHz, open_loop_gain: 1e5, second_pole: 1e12, output_resistance: 0, input_resistance_diff: 1e15,
-      input_resistance_cm: 1e15, input_capacitance_diff: 0, input_capacitance_cm: 0, offset_voltage: 0,
-      bias_current: 0, offset_current: 0}}
+""" + template_part("P") + """
 rails: {{VP: {{voltage: 5 V}}, VN: {{voltage: -5 V}}}}
 signals:
   KN: {{kind: charge, {charge}capacitance: 1n, leakage_resistance: 10G, band: [10 Hz, 1 kHz]}}

@@ -10,6 +10,7 @@ import pytest
 
 from afecheck.analysis import analyse
 from afecheck.model.load import load_design
+from tests.hand_part import part
 
 GBW, A0 = 1e6, 1e5
 
@@ -25,9 +26,7 @@ DESIGN = """
 afecheck: 1
 name: two channels
 parts:
-  P: {gbw: 1 MHz, open_loop_gain: 1e5, second_pole: 1e12, output_resistance: 0, input_resistance_diff: 1e15,
-      input_resistance_cm: 1e15, input_capacitance_diff: 0, input_capacitance_cm: 0, offset_voltage: 0,
-      bias_current: 0, offset_current: 0}
+""" + part("P") + """
 rails: {VP: {voltage: 5 V}, VN: {voltage: -5 V}}
 components:""" + CHANNEL.format(c="A", rs="1k") + CHANNEL.format(c="B", rs="100k") + """
 loads: {QA: {resistance: 10k}, QB: {resistance: 10k}}

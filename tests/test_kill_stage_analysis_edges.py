@@ -9,14 +9,13 @@ import pytest
 
 from afecheck.analysis import analyse
 from afecheck.model.load import load_design
+from tests.hand_part import part
 
 COMPARATOR = """
 afecheck: 1
 name: comparator into a logic input
 parts:
-  P: {gbw: 1 MHz, open_loop_gain: 1e5, second_pole: 1e12, output_resistance: 0, input_resistance_diff: 1e15,
-      input_resistance_cm: 1e15, input_capacitance_diff: 0, input_capacitance_cm: 0, offset_voltage: 0,
-      bias_current: 0, offset_current: 0}
+""" + part("P") + """
 rails: {VP: {voltage: 5 V}, VN: {voltage: -5 V}, VREF: {voltage: 1 V}}
 signals:
   IN: {dc: [0.5 V, 1.5 V], ac_amplitude: 0.1 V, band: [10 Hz, 1 kHz]}

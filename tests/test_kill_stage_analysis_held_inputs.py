@@ -8,15 +8,11 @@ import pytest
 
 from afecheck.analysis import analyse
 from afecheck.model.load import load_design
+from tests.hand_part import part
 
 PARTS = """
 parts:
-  HIZ: {gbw: 1 MHz, open_loop_gain: 1e5, second_pole: 1e12, output_resistance: 0, input_resistance_diff: 1e15,
-        input_resistance_cm: 1e15, input_capacitance_diff: 0, input_capacitance_cm: 0, offset_voltage: 0,
-        bias_current: 0, offset_current: 0}
-  LOZ: {gbw: 1 MHz, open_loop_gain: 1e5, second_pole: 1e12, output_resistance: 0, input_resistance_diff: 1e15,
-        input_resistance_cm: 10k, input_capacitance_diff: 0, input_capacitance_cm: 0, offset_voltage: 0,
-        bias_current: 0, offset_current: 0}
+""" + part("HIZ") + "\n" + part("LOZ", rcm="10k") + """
 rails: {VP: {voltage: 5 V}, VN: {voltage: -5 V}}
 """
 

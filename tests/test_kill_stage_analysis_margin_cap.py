@@ -11,6 +11,7 @@ import pytest
 
 from afecheck.analysis import analyse, stage_analysis
 from afecheck.model.load import load_design
+from tests.hand_part import template_part
 
 GBW, A0, FP2 = 10e6, 1e5, 1e12
 
@@ -18,9 +19,7 @@ DESIGN = """
 afecheck: 1
 name: photodiode amplifier
 parts:
-  FAST: {{gbw: 10 MHz, open_loop_gain: 1e5, second_pole: 1e12, output_resistance: 0, input_resistance_diff: 1e15,
-         input_resistance_cm: 1e15, input_capacitance_diff: 0, input_capacitance_cm: 0, offset_voltage: 0,
-         bias_current: 0, offset_current: 0}}
+""" + template_part("FAST", gbw="10 MHz") + """
 rails: {{VP: {{voltage: 5 V}}, VN: {{voltage: -5 V}}}}
 signals:
   PD: {{kind: current, current: [0 A, 1 pA], ac_current: 1 pA, band: [10 Hz, 1 kHz], capacitance: {cs}}}
