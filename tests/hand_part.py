@@ -4,6 +4,12 @@ and no offsets unless a test asks for them, so the hand formula sees the whole m
 
 from __future__ import annotations
 
+from pathlib import Path
+
+from afecheck.analysis import analyse
+from afecheck.analysis.results import StageResult
+from afecheck.model.load import load_design
+
 
 def part(name: str, *, gbw: str = "1 MHz", ro: str = "0", rcm: str = "1e15", vos: str = "0", ib: str = "0",
          ios: str = "0") -> str:
@@ -16,3 +22,10 @@ def part(name: str, *, gbw: str = "1 MHz", ro: str = "0", rcm: str = "1e15", vos
 def template_part(name: str, **fields: str) -> str:
     """The same entry for a design written as a ``str.format`` template (its braces doubled)."""
     return part(name, **fields).replace("{", "{{").replace("}", "}}")
+
+
+def stages_of(tmp_path: Path, text: str) -> dict[str, StageResult]:
+    """Each op-amp's stage result for the design ``text``, written to a file under ``tmp_path`` and analysed."""
+    path = tmp_path / "d.yaml"
+    path.write_text(text, encoding="utf-8")
+    return {s.opamp: s for s in analyse(load_design(path)).stages}

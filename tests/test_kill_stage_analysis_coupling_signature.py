@@ -8,9 +8,7 @@ import math
 
 import pytest
 
-from afecheck.analysis import analyse
-from afecheck.model.load import load_design
-from tests.hand_part import part
+from tests.hand_part import part, stages_of
 
 GBW, A0 = 1e6, 1e5
 
@@ -50,9 +48,7 @@ def _crossover(rs: float) -> float:
 
 
 def test_each_channel_keeps_the_crossover_of_its_own_source(tmp_path):
-    path = tmp_path / "d.yaml"
-    path.write_text(DESIGN, encoding="utf-8")
-    stages = {s.opamp: s for s in analyse(load_design(path)).stages}
+    stages = stages_of(tmp_path, DESIGN)
     # about GBW·β: 524 kHz behind 1 kΩ, 917 kHz behind 100 kΩ
     assert stages["UA"].crossover_hz == pytest.approx(_crossover(1e3), rel=1e-5)
     assert stages["UB"].crossover_hz == pytest.approx(_crossover(100e3), rel=1e-5)

@@ -6,9 +6,7 @@ from __future__ import annotations
 
 import pytest
 
-from afecheck.analysis import analyse
-from afecheck.model.load import load_design
-from tests.hand_part import part
+from tests.hand_part import part, stages_of
 
 CHANNEL = """
   VS{c}: {{kind: signal_source, dc: [0, 0], ac_amplitude: 10 mV, band: [10 Hz, 1 kHz], pins: {{p: S{c}, n: GND}}}}
@@ -41,9 +39,7 @@ def _rout(rw: float) -> float:
 
 
 def test_each_weak_driver_keeps_its_own_output_resistance(tmp_path):
-    path = tmp_path / "d.yaml"
-    path.write_text(DESIGN, encoding="utf-8")
-    stages = {s.opamp: s for s in analyse(load_design(path)).stages}
+    stages = stages_of(tmp_path, DESIGN)
     # 322.8 Ω at unity gain (RW = 1 Ω), 780.1 Ω at gain 11 (RW = 10 kΩ); B's virtual ground is 1e-5 of R2 off 0 Ω
     assert stages["WA"].output_resistance == pytest.approx(_rout(1.0), rel=1e-4)
     assert stages["WB"].output_resistance == pytest.approx(_rout(10e3), rel=1e-4)
