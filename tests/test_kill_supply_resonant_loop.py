@@ -39,3 +39,33 @@ def test_the_isolation_margin_is_the_worst_crossing_of_the_loop() -> None:
     hand = loop_gain(_follower(riso), "U1")
     assert pm == min(hand.phase_margins_deg)
     assert pm >= 60.0 - 1e-9  # the 60° target (common practice) is met
+
+
+def _nanopower_follower(riso: float | None) -> Netlist:
+    """A 10 kHz follower with 500 kΩ open-loop output resistance (a nanopower archetype) into 200 pF of cable."""
+    els, inst = opamp_elements("U1", "IN", "OUT", "OUT", a0=1e5, gbw=1e4, ro=500e3)
+    load = (Capacitor("CL", "OUT", "0", 200e-12),) if riso is None else (
+        Resistor("RISO", "OUT", "ISO", riso), Capacitor("CL", "ISO", "0", 200e-12))
+    return Netlist(els + (VoltageSource("VIN", "IN", "0", dc=0.0),) + load, {"U1": inst})
+
+
+def test_no_isolation_resistor_is_offered_beyond_the_100_kilohm_search() -> None:
+    # By the loop rebuilt by hand: 100 kΩ before the 200 pF leaves well under 60° of margin (the load pole and the
+    # resistor's zero both sit near the 10 kHz crossover), 200 kΩ would give 60°; the analysis searches up to
+    # 100 kΩ, as its note says ("no isolation resistor up to 100 kΩ"), and so offers none.
+    assert min(loop_gain(_nanopower_follower(1e5), "U1").phase_margins_deg) < 50.0
+    assert min(loop_gain(_nanopower_follower(2e5), "U1").phase_margins_deg) > 60.0
+    assert isolation_resistor(_nanopower_follower(None), "U1", "OUT", frozenset({"IN"})) == (None, None)
+
+
+def test_a_loop_that_never_reaches_unity_needs_no_isolation_resistor() -> None:
+    # Non-inverting gain 1 + 1 GΩ/1 kΩ ≈ 1e6 on an op-amp of A0 = 1e5: T(0) = A0·β ≈ 0.1 (hand), and |T| only falls
+    # from there, so there is no crossing and no margin to restore: the search ends at its 0.01 Ω floor, where the
+    # margin counts as the full 180°.
+    els, inst = opamp_elements("U1", "IN", "FB", "OUT", a0=1e5, gbw=1e6, ro=100.0)
+    net = Netlist(els + (VoltageSource("VIN", "IN", "0", dc=0.0), Resistor("RF", "OUT", "FB", 1e9),
+                         Resistor("RG", "FB", "0", 1e3), Capacitor("CL", "OUT", "0", 1e-6)), {"U1": inst})
+    lg = loop_gain(net, "U1")
+    assert lg.crossovers_hz == () and abs(lg.t[0]) == pytest.approx(1e5 * 1e3 / (1e9 + 1e3), rel=1e-3)
+    riso, pm = isolation_resistor(net, "U1", "OUT", frozenset({"IN"}))
+    assert pm == 180.0 and riso is not None and riso < 0.01 * 1.002
