@@ -74,7 +74,10 @@ def _rekeyed(key: str, names: Mapping[str, str]) -> str:
 def unit_key(circuit: Circuit, stages: list[Stage], done: Mapping[str, StageResult], forms: Mapping[str, SweptForm],
              corners: Any, input_loads: Mapping[str, tuple], loop_signature: tuple | None, cache: dict
              ) -> UnitKey | None:
-    """The key of a unit (None when it is not to be shared: too many parts on its nets, or an awkward name)."""
+    """The key of a unit (None when it is not to be shared: too many parts on its nets, an awkward name, or the
+    memo already full, as in a design of all-different units, where keys would only cost)."""
+    if cache.get(_KEPT, 0) >= MAX_KEPT:
+        return None
     d = circuit.loaded.design
     fixed = circuit.fixed
     nets: set[str] = set()
