@@ -12,9 +12,13 @@ are never kept.
 
 from __future__ import annotations
 
+import hashlib
+import weakref
 from collections.abc import Mapping
 from dataclasses import dataclass
 from typing import Any
+
+import numpy as np
 
 from afecheck.analysis.affine import SweptForm
 from afecheck.analysis.results import NetSignal, StageInput, StageResult
@@ -26,6 +30,7 @@ MAX_PARTS = 64
 MAX_KEPT = 400
 """Most unit results kept per design (a design of all-different units gains nothing and must not hold them all)."""
 _KEPT = "#unit-memo-kept"
+_FORMS = "#unit-forms"
 _VSOURCE = frozenset({"vsource"})
 _PROSE = frozenset({"pins", "description", "waive"})
 _FLAT = frozenset({str, int, bool, type(None)})
@@ -49,15 +54,20 @@ def _value(comp: Any) -> Any:
 
 
 def _form_parts(cache: dict, f: SweptForm) -> tuple:
-    """A form's quantity kinds, the names its quantities and sweeps are about, and its numbers as bytes (kept per
-    form object for the design)."""
-    memo = cache.setdefault("#unit-forms", {})
-    kept = memo.get(id(f))
-    if kept is None or kept[0] is not f:
+    """A form's quantity kinds, the names its quantities and sweeps are about, and a digest of its numbers (kept
+    while the form lives: a 128-bit BLAKE2 digest stands for the arrays, so the memo holds no copy of them)."""
+    memo = cache.get(_FORMS)
+    if memo is None:
+        memo = cache[_FORMS] = weakref.WeakKeyDictionary()
+    kept = memo.get(f)
+    if kept is None:
+        digest = hashlib.blake2b(digest_size=16)
+        for a in (f.lo, f.hi, f.nominal, f.gains):
+            digest.update(repr(a.shape).encode())
+            digest.update(np.ascontiguousarray(a, dtype=float).tobytes())
         heads = tuple(k.partition(":")[0] if ":" in k else None for k in f.keys)
-        numbers = (f.lo.tobytes(), f.hi.tobytes(), f.step, f.nominal.tobytes(), f.gains.shape, f.gains.tobytes())
-        kept = memo[id(f)] = (f, heads, tuple(_named(k) for k in f.keys), f.swept, numbers)
-    return kept[1:]
+        kept = memo[f] = (heads, tuple(_named(k) for k in f.keys), f.swept, (f.step, digest.digest()))
+    return kept
 
 
 def _named(key: str) -> str:
