@@ -103,17 +103,29 @@ def _solve_group(circuit: Circuit, stages: list[Stage], group: list[Stage], unit
 
 
 def downstream(circuit: Circuit, unit: tuple[str, ...], stages: list[Stage]) -> list[str]:
-    """Op-amps outside the unit whose inputs sit on the unit's nets (not on a fixed net or a declared voltage or
-    charge signal's net: a current signal's net takes the voltage its neighbours give it).
+    """Op-amps outside the unit whose inputs sit on the unit's nets (not on a fixed net, a charge signal's net or a
+    voltage source's own net with no source resistance: a current signal's net, or one behind a source
+    resistance, takes the voltage its neighbours give it).
 
     Only these change the unit's DC values: an upstream stage drives the unit through its DC Thevenin
     equivalent (its output form behind its closed-loop output resistance), which is exact at DC."""
     near: dict[str, None] = {}
     for s in stages:
         for net in sorted(s.nets):
-            if net in circuit.fixed or (net in circuit.signal_nets and net not in circuit.norton_nets):
+            if net in circuit.fixed or (net in circuit.signal_nets and net not in circuit.norton_nets
+                                        and not _behind_resistance(circuit, net)):
                 continue
             for ref, pin in circuit.net_pins.get(net, ()):
                 if pin in ("in+", "in-") and circuit.kinds[ref] == "opamp" and ref not in unit:
                     near.setdefault(ref, None)
     return list(near)
+
+
+def _behind_resistance(circuit: Circuit, net: str) -> bool:
+    """Whether the voltage signal or signal source on ``net`` drives it through a source resistance (so a
+    neighbour's input current moves the net)."""
+    ref = circuit.signal_nets[net]
+    if ref == "signal":
+        sig = circuit.loaded.design.signals[net]
+        return sig.kind == "voltage" and sig.source_resistance > 0
+    return circuit.loaded.design.components[ref].source_resistance > 0
