@@ -22,7 +22,7 @@ SourceKind = Literal["signal", "signal-source", "divider", "ntc-divider", "rail"
 GainUnit = Literal["V/V", "V/A", "V/C"]
 
 
-@dataclass(frozen=True, slots=True)
+@dataclass(frozen=True)
 class SourceEquivalent:
     """Thevenin equivalent of what drives one stage input, over the declared range.
 
@@ -42,7 +42,7 @@ class SourceEquivalent:
     f_max: float = 0.0
 
 
-@dataclass(frozen=True, slots=True)
+@dataclass(frozen=True)
 class StageInput:
     """One signal input of a stage: its source, the parts between it and the op-amp pin, gain and loading.
 
@@ -65,7 +65,7 @@ class StageInput:
     gain_unit: GainUnit = "V/V"
 
 
-@dataclass(frozen=True, slots=True)
+@dataclass(frozen=True)
 class StageResult:
     """Everything computed for one op-amp stage (or one op-amp of a stage group solved together)."""
 
