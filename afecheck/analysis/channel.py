@@ -29,12 +29,6 @@ class Channel:
     """(signal name, netlist source element) for each declared signal or signal source driving the channel."""
 
 
-def signal_nets(loaded: LoadedDesign, ref: str) -> tuple[str, ...]:
-    """The nets a part's signal pins sit on (an op-amp's supply pins left out)."""
-    comp = loaded.design.components[ref]
-    return tuple(n for p, n in comp.pins.items() if not (comp.kind == "opamp" and p in SUPPLY_PINS))
-
-
 def find_channels(loaded: LoadedDesign) -> Mapping[str, Channel]:
     """Every non-fixed net mapped to its channel (union-find over the signal pins of every part); found once per
     loaded design and kept with it (designs are immutable)."""

@@ -53,7 +53,7 @@ FAST = {
         "tests/test_worst_cases.py", "tests/test_loop_crossings.py", "tests/test_stage_order.py",
         "tests/test_sensor_circuits.py", "tests/test_rules_loading.py", "tests/test_rules_stability.py",
         "tests/test_rules_headroom.py", "tests/test_rules_distortion.py", "tests/test_worst_cases_vs_ngspice.py",
-        "tests/test_vs_ngspice.py",
+        "tests/test_vs_ngspice.py", "tests/test_unit_memo.py", "tests/test_loop_extend_batch.py",
     ],
 }
 # Sensor, budget, memo and coverage tests reach both areas; with the coverage map a mutant runs only those of
@@ -83,7 +83,7 @@ FIRST = {
     "limits": ["tests/test_supply_limits.py", "tests/test_rules_boundaries.py"],
     "dc_accuracy": ["tests/test_sensor_self_heating.py", "tests/test_cold_junction.py"],
     "declared": ["tests/test_declared_fields.py"], "solve_memo": ["tests/test_solve_memo.py"],
-    "nonlinearity": ["tests/test_nonlinearity.py"],
+    "nonlinearity": ["tests/test_nonlinearity.py"], "unit_memo": ["tests/test_unit_memo.py"],
 }
 SLOW = ["tests/reference"]
 # Tests that judge the package's class definitions themselves (a record's frozen and eq flags): what they execute
