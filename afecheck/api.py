@@ -65,9 +65,9 @@ def _section(markdown: str, title: str) -> str:
 
 def rule_catalogue(metas: Sequence[RuleMeta]) -> tuple[RuleInfo, ...]:
     """RuleInfo for each rule: metadata plus the text of ``rules/<id>-<slug>/rule.md`` when it ships."""
-    from importlib import resources
+    from afecheck.catalogue_files import catalogue_root
 
-    root = resources.files("afecheck._catalogue")
+    root = catalogue_root()
     out = []
     for m in sorted(metas, key=lambda m: m.id):
         doc = root.joinpath(m.folder, "rule.md")

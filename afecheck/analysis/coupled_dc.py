@@ -19,13 +19,13 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from afecheck.analysis import solve_memo
+from afecheck.analysis import solve_memo, unit_memo
 from afecheck.analysis.affine import SweptForm
 from afecheck.analysis.corners import Corners
 from afecheck.analysis.ranges import solve_forms
 from afecheck.analysis.results import StageResult
 from afecheck.analysis.solve_memo import numeric_key, unit_system
-from afecheck.analysis.stage_analysis import MAX_LOCAL_PARTS, _node, _unit_netlist, _unit_sources
+from afecheck.analysis.stage_analysis import MAX_LOCAL_PARTS, _input_loads, _node, _unit_netlist, _unit_sources
 from afecheck.errors import AnalysisError, InputError
 from afecheck.graph.build import Circuit
 from afecheck.graph.stages import Stage, StagePlan
@@ -57,6 +57,31 @@ def solve_with_neighbours(circuit: Circuit, plan: StagePlan, unit: tuple[str, ..
     held = set().union(*(s.output_region.boundary for s in group))
     if len(passives) + len(held) + len(group) > MAX_LOCAL_PARTS:
         return None
+    ukey = None
+    if cache is not None and solve_memo.MEMOISE:
+        ukey = unit_memo.unit_key(circuit, group, results, forms, corners, _input_loads(circuit, cache), None, cache)
+        if ukey is not None:
+            ukey = unit_memo.UnitKey((len(unit), ukey.key), ukey.names)
+            hit = unit_memo.remembered(cache, "coupled", ukey)
+            if hit is not None:
+                return _renamed(*hit)
+    coupled = _solve_group(circuit, stages, group, unit, results, forms, corners, cache)
+    if coupled is not None and ukey is not None:
+        unit_memo.keep(cache, "coupled", ukey, coupled, [*coupled.nets, *coupled.currents],
+                       [*(f for f, _, _ in coupled.nets.values()), *coupled.currents.values()])
+    return coupled
+
+
+def _renamed(coupled: CoupledDc, names: unit_memo.Renamer) -> CoupledDc:
+    """A kept group's values under the names of another group with the same key."""
+    return CoupledDc({names.names[n]: (names.form(f), lo, hi) for n, (f, lo, hi) in coupled.nets.items()},
+                     {names.names[r]: names.form(f) for r, f in coupled.currents.items()})
+
+
+def _solve_group(circuit: Circuit, stages: list[Stage], group: list[Stage], unit: tuple[str, ...],
+                 results: Mapping[str, StageResult], forms: Mapping[str, SweptForm], corners: Corners,
+                 cache: dict | None) -> CoupledDc | None:
+    """Solve the unit with its neighbours ``group`` (None when the circuit cannot be built or solved)."""
     try:
         netlist, _inputs, notes, sources, ntcs = _unit_netlist(circuit, group, results, corners, forms, cache)
         if notes:
@@ -78,17 +103,29 @@ def solve_with_neighbours(circuit: Circuit, plan: StagePlan, unit: tuple[str, ..
 
 
 def downstream(circuit: Circuit, unit: tuple[str, ...], stages: list[Stage]) -> list[str]:
-    """Op-amps outside the unit whose inputs sit on the unit's nets (not on a fixed net or a declared voltage or
-    charge signal's net: a current signal's net takes the voltage its neighbours give it).
+    """Op-amps outside the unit whose inputs sit on the unit's nets (not on a fixed net, a charge signal's net or a
+    voltage source's own net with no source resistance: a current signal's net, or one behind a source
+    resistance, takes the voltage its neighbours give it).
 
     Only these change the unit's DC values: an upstream stage drives the unit through its DC Thevenin
     equivalent (its output form behind its closed-loop output resistance), which is exact at DC."""
     near: dict[str, None] = {}
     for s in stages:
         for net in sorted(s.nets):
-            if net in circuit.fixed or (net in circuit.signal_nets and net not in circuit.norton_nets):
+            if net in circuit.fixed or (net in circuit.signal_nets and net not in circuit.norton_nets
+                                        and not _behind_resistance(circuit, net)):
                 continue
             for ref, pin in circuit.net_pins.get(net, ()):
                 if pin in ("in+", "in-") and circuit.kinds[ref] == "opamp" and ref not in unit:
                     near.setdefault(ref, None)
     return list(near)
+
+
+def _behind_resistance(circuit: Circuit, net: str) -> bool:
+    """Whether the voltage signal or signal source on ``net`` drives it through a source resistance (so a
+    neighbour's input current moves the net)."""
+    ref = circuit.signal_nets[net]
+    if ref == "signal":
+        sig = circuit.loaded.design.signals[net]
+        return sig.kind == "voltage" and sig.source_resistance > 0
+    return circuit.loaded.design.components[ref].source_resistance > 0

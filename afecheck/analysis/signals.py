@@ -97,7 +97,7 @@ def propagate(circuit: Circuit, plan: StagePlan, circuits: dict | None = None) -
     for net, dv in find_dividers(circuit, rest, frozenset(circuit.kinds)).items():
         if len(circuit.net_pins[net]) == len(dv.legs):
             legs = [(r, circuit.other_pin_net(r, net) or "") for r in dv.legs]
-            grid = corners.grid({r for r in dv.legs if r in corners.thermistors})
+            grid = corners.grid({corners.key(r) for r in dv.legs} & corners.thermistors.keys())
             _rth, form = corners.divider_form(legs, grid)
             if form is None:
                 eq = dv.equivalent()

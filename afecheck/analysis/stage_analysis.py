@@ -20,7 +20,7 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from afecheck.analysis import solve_memo
+from afecheck.analysis import solve_memo, unit_memo
 from afecheck.analysis.affine import SweptForm, constant_form
 from afecheck.analysis.corners import Corners, UnitGrid
 from afecheck.analysis.loop import loop_gain
@@ -314,15 +314,28 @@ def analyse_unit(circuit: Circuit, plan: StagePlan, unit: tuple[str, ...],
                   "shares a network with too many parts to analyse stage by stage; check it by simulation "
                   "(afecheck spice)")
         return UnitResult(tuple(_empty_result(s, circuit, (reason,)) for s in stages), ())
+    loop_netlist = LoopCircuit(circuit, plan, stages, done, corners, None, cache)
+    ukey = None
+    if cache is not None and circuits is None:
+        ukey = unit_memo.unit_key(circuit, stages, done, forms, corners, _input_loads(circuit, cache),
+                                  loop_netlist.signature, cache)
+        hit = None if ukey is None else unit_memo.remembered(cache, "unit", ukey)
+        if hit is not None:
+            return hit[1].unit(hit[0])
     try:
         netlist, inputs, notes, sources, ntcs = _unit_netlist(circuit, stages, done, corners, forms, cache)
     except InputError as exc:
         return UnitResult(tuple(_empty_result(s, circuit, tuple(p.message for p in exc.problems)) for s in stages), ())
     if circuits is not None:
         circuits.update({r: (netlist, {i.source.net: i.branch for i in inputs}) for r in unit})
-    loop_netlist = LoopCircuit(circuit, plan, stages, done, corners, netlist, cache)
+    loop_netlist.own = netlist
     try:
-        return _solve_unit(circuit, stages, netlist, inputs, notes, cache, corners, sources, ntcs, loop_netlist)
+        result = _solve_unit(circuit, stages, netlist, inputs, notes, cache, corners, sources, ntcs, loop_netlist)
+        names = None if ukey is None else unit_memo.unit_names(result)
+        if names is not None:
+            unit_memo.keep(cache, "unit", ukey, result, names,  # type: ignore[arg-type]
+                           [*result.forms.values(), *result.output_currents.values()])
+        return result
     except SingularCircuitError as exc:
         reason = f"singular circuit: {exc}"
     except (AnalysisError, np.linalg.LinAlgError, ValueError, ArithmeticError) as exc:
@@ -386,10 +399,11 @@ class LoopCircuit:
     netlist when it has no neighbours). Built only when asked for; ``signature`` identifies it without building."""
 
     def __init__(self, circuit: Circuit | None, plan: StagePlan | None, stages: list[Stage],
-                 done: Mapping[str, StageResult], corners: Corners | None, netlist: Netlist,
+                 done: Mapping[str, StageResult], corners: Corners | None, netlist: Netlist | None,
                  cache: dict | None = None) -> None:
         self.unit = tuple(s.opamp for s in stages)
-        self._own = netlist
+        self.own = netlist
+        """The unit's own netlist (may be given after the signature is read, once it is built)."""
         self._built: Netlist | None = None
         self._group: list[Stage] = []
         self.signature: tuple | None = None
@@ -409,13 +423,13 @@ class LoopCircuit:
     def netlist(self) -> Netlist:
         """The coupled netlist (built once), or the unit's own."""
         if not self._group:
-            return self._own
+            return self.own  # type: ignore[return-value]
         if self._built is None:
             circuit, done, corners, cache = self._args
             try:  # the design cache shares the per-net input-load sums (else each build walks every op-amp)
                 self._built = _unit_netlist(circuit, self._group, done, corners, {}, cache)[0]
             except (InputError, ValueError):
-                self._built = self._own
+                self._built = self.own
         return self._built
 
 

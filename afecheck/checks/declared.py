@@ -2,9 +2,10 @@
 
 from __future__ import annotations
 
-from collections.abc import Iterator
+from collections.abc import Callable, Iterator, Mapping
+from typing import Any
 
-from afecheck.engine.consumers import UNCHECKED, consumer, declared_fields, pattern_of
+from afecheck.engine.consumers import UNCHECKED, consumer, declared_fields, may_hold_models, pattern_of
 from afecheck.engine.context import Context
 from afecheck.engine.finding import Finding, Severity
 from afecheck.engine.rule import RuleMeta
@@ -27,16 +28,23 @@ def unchecked_paths(ctx: Context) -> list[tuple[str | int, ...]]:
     d = loaded.design
     found: list[tuple[str | int, ...]] = []
     verdicts: dict[tuple, bool] = {}  # by the path with its instance key (net, refdes) replaced by the kind
-    for path in declared_fields(d):
-        if path[0] == "parts":
-            continue  # walked below, once per part the design uses
-        kind = d.components[path[1]].kind if path[0] == "components" and len(path) > 2 else None
+
+    def unchecked(path: tuple[str | int, ...], kind: str | None = None) -> bool:
         shape = (path[0], kind, path[2:]) if len(path) > 2 and path[0] in _KEYED else path
-        unchecked = verdicts.get(shape)
-        if unchecked is None:
-            unchecked = verdicts[shape] = consumer(pattern_of(path, kind)) is UNCHECKED
-        if unchecked:
-            found.append(path)
+        verdict = verdicts.get(shape)
+        if verdict is None:
+            verdict = verdicts[shape] = consumer(pattern_of(path, kind)) is UNCHECKED
+        return verdict
+
+    for name in sorted(d.model_fields_set):  # the order of declared_fields(d)
+        if name == "parts":
+            continue  # walked below, once per part the design uses
+        if unchecked((name,)):
+            found.append((name,))
+        if name == "components":
+            found += _unchecked_components(d.components, unchecked)
+        else:
+            found += [p for p in declared_fields(getattr(d, name), (name,)) if unchecked(p)]
     for ref, comp in loaded.sensors.items():  # thermocouples and bridges as declared, before they became parts
         found += [p for p in declared_fields(comp, ("components", ref))
                   if consumer(pattern_of(p, comp.kind)) is UNCHECKED]
@@ -47,6 +55,25 @@ def unchecked_paths(ctx: Context) -> list[tuple[str | int, ...]]:
         for path in declared_fields(loaded.parts[name], ("parts", name)):
             if consumer(pattern_of(path)) is UNCHECKED:
                 found.append(path)
+    return found
+
+
+def _unchecked_components(components: Mapping[str, Any],
+                          unchecked: Callable[..., bool]) -> list[tuple[str | int, ...]]:
+    """The unchecked declared fields of every component, in the walk's order; a component whose declared fields
+    hold no model (no waivers) is judged by its kind and field names, once for all components of that shape."""
+    found: list[tuple[str | int, ...]] = []
+    flat: dict[tuple[str, frozenset[str]], tuple[str, ...]] = {}
+    for ref, comp in components.items():
+        fields = comp.model_fields_set
+        if fields & may_hold_models(type(comp)):
+            found += [p for p in declared_fields(comp, ("components", ref)) if unchecked(p, comp.kind)]
+            continue
+        key = (comp.kind, frozenset(fields))
+        names = flat.get(key)
+        if names is None:
+            names = flat[key] = tuple(n for n in sorted(fields) if unchecked(("components", ref, n), comp.kind))
+        found += [("components", ref, n) for n in names]
     return found
 
 

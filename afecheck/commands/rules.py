@@ -17,9 +17,9 @@ def add_arguments(p: argparse.ArgumentParser) -> None:
 
 def rule_page(folder: str) -> str | None:
     """The text of ``rules/<folder>/rule.md`` read through the installed package, or None."""
-    from importlib import resources
+    from afecheck.catalogue_files import catalogue_root
 
-    page = resources.files("afecheck._catalogue").joinpath(folder, "rule.md")
+    page = catalogue_root().joinpath(folder, "rule.md")
     return page.read_text(encoding="utf-8") if page.is_file() else None
 
 

@@ -24,11 +24,11 @@ class Retired:
 @functools.lru_cache(maxsize=1)
 def retired() -> tuple[Retired, ...]:
     """Every entry of the catalogue's ``retired.yaml`` (a shipped file, read once)."""
-    from importlib import resources
-
     import yaml
 
-    text = resources.files("afecheck._catalogue").joinpath("retired.yaml").read_text(encoding="utf-8")
+    from afecheck.catalogue_files import catalogue_root
+
+    text = catalogue_root().joinpath("retired.yaml").read_text(encoding="utf-8")
     loader = getattr(yaml, "CSafeLoader", yaml.SafeLoader)  # libyaml when built with it: the same data, faster
     data = yaml.load(text, Loader=loader) or []
     out = []

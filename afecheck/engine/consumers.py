@@ -17,8 +17,12 @@ people,
 
 from __future__ import annotations
 
+import typing
 from collections.abc import Iterator
 from typing import Any
+
+from pydantic import AfterValidator, BeforeValidator, PlainValidator, WithJsonSchema, WrapValidator
+from pydantic.fields import FieldInfo
 
 UNCHECKED: None = None
 TEXT = "text for people"
@@ -163,16 +167,44 @@ def declared_fields(data: Any, path: tuple[str | int, ...] = ()) -> Iterator[tup
 _LEAVES = (str, int, float, bool, type(None))
 
 
+def may_hold_models(model: type) -> frozenset[str]:
+    """Names of ``model``'s fields whose type can hold a pydantic model (or anything: ``Any``): only those need a
+    walk below them, since a path is recorded for model fields alone (pins, values and bands are leaves)."""
+    known = _MAY_HOLD.get(model)
+    if known is None:
+        fields = getattr(model, "model_fields", {})
+        known = _MAY_HOLD[model] = frozenset(n for n, f in fields.items() if _can_hold_model(f.annotation))
+    return known
+
+
+_MAY_HOLD: dict[type, frozenset[str]] = {}
+
+
+def _can_hold_model(ann: Any) -> bool:
+    if ann is Any or ann is object or isinstance(ann, (str, typing.ForwardRef)):
+        return True  # anything at all, or a type not resolved: walk it
+    if isinstance(ann, type) and hasattr(ann, "model_fields_set"):
+        return True
+    if typing.get_origin(ann) is typing.Literal:
+        return False
+    return any(_can_hold_model(a) for a in typing.get_args(ann) if not isinstance(a, _METADATA))
+
+
+_METADATA = (FieldInfo, BeforeValidator, AfterValidator, PlainValidator, WrapValidator, WithJsonSchema)
+
+
 def _walk(data: Any, path: tuple[str | int, ...], found: list[tuple[str | int, ...]]) -> None:
     """Append the declared key paths under ``data`` to ``found`` (one call per node, no generator chain)."""
     if isinstance(data, _LEAVES):
         return
     fields = getattr(data, "model_fields_set", None)
     if fields is not None:
+        deeper = may_hold_models(type(data))
         for name in sorted(fields):
             sub = (*path, name)
             found.append(sub)
-            _walk(getattr(data, name), sub, found)
+            if name in deeper:
+                _walk(getattr(data, name), sub, found)
     elif isinstance(data, dict):
         for key, value in data.items():
             _walk(value, (*path, str(key)), found)

@@ -177,8 +177,26 @@ def split_tolerance_code(text: str, unit: str) -> tuple[str, float] | None:
     return code, TOLERANCE_LETTERS[text[-1]]
 
 
+_MEMO_SIZE = 4096
+"""Texts remembered per reader (a design repeats the same few values across its channels); cleared when full."""
+_quantities: dict[tuple[str, str], float] = {}
+_tolerances: dict[str, float] = {}
+
+
 def parse_quantity(value: object, unit: str) -> float:
     """Read ``value`` (number or string) as a quantity in ``unit``; return an SI float or raise UnitError."""
+    if type(value) is not str:
+        return _parse_quantity(value, unit)
+    known = _quantities.get((value, unit))
+    if known is None:
+        known = _parse_quantity(value, unit)  # a text that is refused raises here, and is never remembered
+        if len(_quantities) >= _MEMO_SIZE:
+            _quantities.clear()
+        _quantities[(value, unit)] = known
+    return known
+
+
+def _parse_quantity(value: object, unit: str) -> float:
     if unit not in UNITS:
         raise ValueError(f"unknown unit key {unit!r}")
     if isinstance(value, bool) or value is None:
@@ -233,6 +251,18 @@ def parse_quantity(value: object, unit: str) -> float:
 
 def parse_tolerance(value: object) -> float:
     """Read a tolerance (``1%``, ``±0.1 %``, ``50 ppm``, ``0.01``, IEC 60062 letter ``F``) as a fraction."""
+    if type(value) is not str:
+        return _parse_tolerance(value)
+    known = _tolerances.get(value)
+    if known is None:
+        known = _parse_tolerance(value)
+        if len(_tolerances) >= _MEMO_SIZE:
+            _tolerances.clear()
+        _tolerances[value] = known
+    return known
+
+
+def _parse_tolerance(value: object) -> float:
     if isinstance(value, bool) or value is None:
         raise UnitError(f"read {value!r}; expected {_TOLERANCE_HELP}")
     if isinstance(value, int):

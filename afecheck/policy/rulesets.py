@@ -14,9 +14,9 @@ import math
 import re
 from collections.abc import Mapping, Sequence
 from dataclasses import dataclass, field
-from importlib import resources
 from pathlib import Path
 
+from afecheck.catalogue_files import catalogue_root
 from afecheck.engine.aliases import current_id
 from afecheck.engine.finding import Severity
 from afecheck.engine.rule import RuleMeta
@@ -260,7 +260,7 @@ def read_policy_file(path: Path, version_key: str, allowed: set[str], what: str,
 
 def builtin_ruleset_names() -> tuple[str, ...]:
     """Names of the rule sets shipped in the catalogue (rules/sets/*.yaml)."""
-    folder = resources.files("afecheck._catalogue").joinpath("sets")
+    folder = catalogue_root().joinpath("sets")
     return tuple(sorted(p.name[:-5] for p in folder.iterdir() if p.name.endswith(".yaml")))
 
 
@@ -271,7 +271,7 @@ def find_ruleset(name: str, base_dir: Path | None) -> tuple[Path | None, str]:
     a file outside it raises PathRefusedError.
     """
     if name in builtin_ruleset_names():
-        ref = resources.files("afecheck._catalogue").joinpath("sets", f"{name}.yaml")
+        ref = catalogue_root().joinpath("sets", f"{name}.yaml")
         return Path(str(ref)), name
     if not name.endswith((".yaml", ".yml", ".json")):
         return None, name
