@@ -8,6 +8,7 @@ Each command lives in ``afecheck/commands/<name>.py`` with ``HELP``, ``add_argum
 from __future__ import annotations
 
 import argparse
+import gc
 import importlib
 import os
 import sys
@@ -37,6 +38,10 @@ EXIT_STATUSES = (
     (EXIT_BROKEN_PIPE, "the program reading standard output stopped reading (as with `| head`)"),
 )
 DEBUG_VARIABLE = "AFECHECK_DEBUG"
+PLUGINS_VARIABLE = "PYDANTIC_DISABLE_PLUGINS"
+START_UP_THRESHOLD = 20_000
+"""New objects between two collections of the youngest generation while afecheck runs (Python's default is
+700): start-up imports build long-lived modules, classes and validators with no garbage to find (docs/SCALE.md)."""
 
 
 class _Parser(argparse.ArgumentParser):
@@ -72,6 +77,19 @@ def main(argv: list[str] | None = None, stdout: TextIO | None = None, stderr: Te
     argv = list(sys.argv[1:] if argv is None else argv)
     stdout = stdout or sys.stdout
     stderr = stderr or sys.stderr
+    # afecheck uses no pydantic plugin: without this, building the first model reads the entry points of every
+    # installed distribution to look for one (start-up; a value the user set is kept)
+    os.environ.setdefault(PLUGINS_VARIABLE, "__all__")
+    threshold = gc.get_threshold()
+    gc.set_threshold(max(threshold[0], START_UP_THRESHOLD), *threshold[1:])
+    try:
+        return _guarded(argv, stdout, stderr)
+    finally:
+        gc.set_threshold(*threshold)
+
+
+def _guarded(argv: list[str], stdout: TextIO, stderr: TextIO) -> int:
+    """The command's exit status; every failure turned into its status and a message (see EXIT_STATUSES)."""
     from afecheck.errors import InputError
     from afecheck.io import OutputError
 

@@ -130,11 +130,11 @@ def build_circuit(loaded: LoadedDesign) -> Circuit:
     d = loaded.design
     ground = d.ground
     kinds: dict[str, str] = {}
-    pins: dict[str, dict[str, str]] = {}
+    pins: dict[str, Mapping[str, str]] = {}
     net_pins: dict[str, list[tuple[str, str]]] = {}
     for ref, comp in d.components.items():
         kinds[ref] = comp.kind
-        pins[ref] = dict(comp.pins)
+        pins[ref] = comp.pins  # the validated model's own mapping, never changed: no copy per part (memory)
         for pin, net in comp.pins.items():
             net_pins.setdefault(net, []).append((ref, pin))
     for net in (ground, *d.rails, *d.signals, *d.loads):

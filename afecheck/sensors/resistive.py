@@ -7,9 +7,12 @@ and the resistance at given values of it.
 
 from __future__ import annotations
 
-import numpy as np
+from typing import TYPE_CHECKING
 
 from afecheck.sensors import rtd, thermistor
+
+if TYPE_CHECKING:
+    import numpy as np
 
 SWEPT_KINDS = frozenset({"ntc", "rtd", "bridge_arm"})
 
@@ -42,6 +45,8 @@ def ntc_coefficients(comp) -> tuple[float, float, float] | None:  # noqa: ANN001
 
 def resistance(comp, values: np.ndarray | float) -> np.ndarray:  # noqa: ANN001
     """Resistance of ``comp`` at each value of its quantity (°C, or fraction of full scale for a bridge arm)."""
+    import numpy as np  # on first use: the rule set is imported by commands that solve nothing (start-up)
+
     v = np.atleast_1d(np.asarray(values, dtype=float))
     if comp.kind == "bridge_arm":
         return float(comp.r) * (1.0 + float(comp.x0) + float(comp.k) * v)

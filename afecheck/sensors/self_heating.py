@@ -17,12 +17,12 @@ from collections.abc import Callable
 from dataclasses import dataclass, replace
 from typing import TYPE_CHECKING
 
-import numpy as np
-
 from afecheck.sensors import rtd
 from afecheck.sensors.resistive import lead_ohm, resistance
 
 if TYPE_CHECKING:
+    import numpy as np
+
     from afecheck.analysis.netlist import Netlist
     from afecheck.model.loaded import LoadedDesign
 
@@ -51,6 +51,8 @@ class SelfHeating:
 def accuracy_k(comp, t_c: np.ndarray) -> tuple[np.ndarray | None, str]:  # noqa: ANN001 - an ntc or rtd component
     """The sensor's own accuracy ±°C at each temperature: the RTD class (IEC 60751), else the resistance tolerance
     over |dlnR/dT| (the sensor's slope, central difference over ±0.01 °C); None without either."""
+    import numpy as np  # on first use: the rule set is imported by commands that solve nothing (start-up)
+
     if comp.kind == "rtd" and comp.tolerance_class is not None:
         return (np.array([rtd.tolerance_c(comp.tolerance_class, float(t)) for t in t_c]),
                 f"class {comp.tolerance_class} (IEC 60751)")
@@ -90,6 +92,8 @@ def _source_ranges(loaded: LoadedDesign, netlist: Netlist) -> list[tuple[str, fl
 
 def self_heating(loaded: LoadedDesign, ref: str) -> SelfHeating:
     """The worst self-heating point of NTC or RTD ``ref`` (which must declare ``dissipation``) over its range."""
+    import numpy as np
+
     from afecheck.analysis.channel import find_channels
     from afecheck.analysis.mna import solve_dc
     from afecheck.analysis.netlist import NetlistOptions, Resistor, netlist_from_design
