@@ -37,6 +37,9 @@ def test_a_two_resistor_path_counts_both_and_names_the_first(tmp_path) -> None:
     z_in = 1e12 / complex(1.0, 2 * math.pi * 1e5 * 1e12 * 10e-12)
     loss = 1 - abs(z_in / (21e3 + z_in))
     assert math.isclose(f.ctx["value"], loss, rel_tol=1e-9) and f.ctx["source_resistance"] == 21e3
+    # 0.86 %: past the 0.1 % warning share, inside the 1 % error share (the rule's parameters); margin = limit − loss
+    assert f.severity.name == "WARNING" and f.ctx["limit"] == 1e-3
+    assert math.isclose(f.ctx["margin"], 1e-3 - loss, rel_tol=1e-12)
     # the refs (part of the waiver and baseline fingerprint, engine/finding.py) are those the loading family uses:
     # the series part at the source end of the path and the op-amp, so a waiver written for one stays put
     assert f.location.refs == ("R1", "U1")

@@ -49,7 +49,7 @@ def check(ctx: Context) -> Iterator[Finding]:
             if inp.pin != "in+" or ac_coupled(ctx.loaded, inp):
                 continue
             r_plus = plus_source_resistance(ctx.loaded, inp)
-            if r_plus <= 0 or not math.isfinite(r_plus):
+            if r_plus < 0 or not math.isfinite(r_plus):
                 continue
             ib, a1 = part_value(ctx, stage.opamp, "bias_current")
             ios, a2 = part_value(ctx, stage.opamp, "offset_current")
