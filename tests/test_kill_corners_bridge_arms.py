@@ -9,6 +9,7 @@ import pytest
 
 from afecheck.analysis import analyse
 from afecheck.model.load import load_design
+from tests.hand_part import part
 
 # a 2.5 V excitation buffer (a follower on a reference rail) driving a 350 Ω full bridge; the bridge outputs leave
 # the board into 1 TΩ (negligible: 1.25 V / 1 TΩ is 1.7e-10 of the excitation current)
@@ -16,9 +17,7 @@ DESIGN = """
 afecheck: 1
 name: bridge excitation buffer
 parts:
-  BUF: {gbw: 1 MHz, open_loop_gain: 1e5, second_pole: 1e12, output_resistance: 0, input_resistance_diff: 1e15,
-        input_resistance_cm: 1e15, input_capacitance_diff: 0, input_capacitance_cm: 0, offset_voltage: 0,
-        bias_current: 0, offset_current: 0}
+""" + part("BUF") + """
 rails: {VP: {voltage: 5 V}, VN: {voltage: -5 V}, VREF: {voltage: 2.5 V}}
 components:
   U1: {kind: opamp, part: BUF, pins: {in+: VREF, in-: EXC, out: EXC, v+: VP, v-: VN}}

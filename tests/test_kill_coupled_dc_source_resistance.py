@@ -7,17 +7,13 @@ import pytest
 
 from afecheck.analysis import analyse
 from afecheck.model.load import load_design
+from tests.hand_part import part, template_part
 
 DESIGN = """
 afecheck: 1
 name: two followers on one source
 parts:
-  HIZ: {{gbw: 1 MHz, open_loop_gain: 1e5, second_pole: 1e12, output_resistance: 0, input_resistance_diff: 1e15,
-        input_resistance_cm: 1e15, input_capacitance_diff: 0, input_capacitance_cm: 0, offset_voltage: 0,
-        bias_current: 0, offset_current: 0}}
-  LEAKY: {{gbw: 1 MHz, open_loop_gain: 1e5, second_pole: 1e12, output_resistance: 0, input_resistance_diff: 1e15,
-          input_resistance_cm: 10k, input_capacitance_diff: 0, input_capacitance_cm: 0, offset_voltage: 0,
-          bias_current: 1u, offset_current: 0}}
+""" + template_part("HIZ") + "\n" + template_part("LEAKY", rcm="10k", ib="1u") + """
 rails: {{VP: {{voltage: 5 V}}, VN: {{voltage: -5 V}}}}
 {source}
 components:
@@ -48,10 +44,16 @@ def _expected(rs: float) -> tuple[float, float]:
 def test_a_bias_current_through_the_source_resistance_reaches_the_other_follower(tmp_path):
     # found by this test: the neighbour pass skipped every declared voltage signal's net as if an ideal source
     # held it, so U2 kept 0.499995 V while U3, on the same net, saw 0.495..0.505 V
-    nets = _nets(tmp_path, "signals:\n  X: {dc: [1 V, 1 V], source_resistance: 10k}")
+    path = tmp_path / "d.yaml"
+    path.write_text(DESIGN.format(source="signals:\n  X: {dc: [1 V, 1 V], source_resistance: 10k}", extra=""),
+                    encoding="utf-8")
+    a = analyse(load_design(path))
     lo, hi = _expected(10e3)
     for out in ("O2", "O3"):
-        assert (nets[out].dc_min, nets[out].dc_max) == (pytest.approx(lo, rel=1e-9), pytest.approx(hi, rel=1e-9))
+        assert (a.nets[out].dc_min, a.nets[out].dc_max) == (pytest.approx(lo, rel=1e-9), pytest.approx(hi, rel=1e-9))
+    # the stages' own output ranges take the same figures
+    for s in a.stages:
+        assert (s.vout_min, s.vout_max) == (pytest.approx(lo, rel=1e-9), pytest.approx(hi, rel=1e-9))
 
 
 def test_an_ideal_source_holds_its_net_against_the_bias_current(tmp_path):
@@ -130,10 +132,7 @@ def test_an_ideal_source_shared_by_many_readers_leaves_the_real_neighbour_in(tmp
               "  U4: {kind: opamp, part: OFFS, pins: {in+: GND, in-: M4, out: O4, v+: VP, v-: VN}}")
     text = DESIGN.format(source=source, extra=extra)
     text = text.replace("  U3: {kind: opamp, part: LEAKY, pins: {in+: X, in-: O3, out: O3, v+: VP, v-: VN}}\n", "")
-    text = text.replace("rails:", "  OFFS: {gbw: 1 MHz, open_loop_gain: 1e5, second_pole: 1e12, output_resistance: 0,\n"
-                                  "         input_resistance_diff: 1e15, input_resistance_cm: 1e15,\n"
-                                  "         input_capacitance_diff: 0, input_capacitance_cm: 0, offset_voltage: 1m,\n"
-                                  "         bias_current: 0, offset_current: 0}\nrails:")
+    text = text.replace("rails:", part("OFFS", vos="1m") + "\nrails:")
     text = text.replace(", O3: {resistance: 1T}", "")
     path = tmp_path / "d.yaml"
     path.write_text(text, encoding="utf-8")

@@ -14,6 +14,7 @@ from afecheck.analysis.mna import assemble
 from afecheck.analysis.netlist import GROUND, Netlist, Resistor, VoltageSource
 from afecheck.analysis.ranges import solve_forms
 from afecheck.model.load import load_design
+from tests.hand_part import part
 
 
 def test_a_source_without_a_form_keeps_its_netlist_value():
@@ -37,15 +38,8 @@ DESIGN = """
 afecheck: 1
 name: three followers on one photodiode
 parts:
-  A: {gbw: 1 MHz, open_loop_gain: 1e5, second_pole: 1e12, output_resistance: 0, input_resistance_diff: 1e15,
-      input_resistance_cm: 1e15, input_capacitance_diff: 0, input_capacitance_cm: 0, offset_voltage: 0,
-      bias_current: 0.1n, offset_current: 0.03n}
-  B: {gbw: 1 MHz, open_loop_gain: 1e5, second_pole: 1e12, output_resistance: 0, input_resistance_diff: 1e15,
-      input_resistance_cm: 1e15, input_capacitance_diff: 0, input_capacitance_cm: 0, offset_voltage: 0,
-      bias_current: 0.7n, offset_current: 0.011n}
-  C: {gbw: 1 MHz, open_loop_gain: 1e5, second_pole: 1e12, output_resistance: 0, input_resistance_diff: 1e15,
-      input_resistance_cm: 1e15, input_capacitance_diff: 0, input_capacitance_cm: 0, offset_voltage: 0,
-      bias_current: 0.3n, offset_current: 0.017n}
+""" + "\n".join((part("A", ib="0.1n", ios="0.03n"), part("B", ib="0.7n", ios="0.011n"),
+                 part("C", ib="0.3n", ios="0.017n"))) + """
 rails: {VP: {voltage: 5 V}, VN: {voltage: -5 V}}
 signals:
   X: {kind: current, current: [0.1 nA, 0.3 nA], shunt_resistance: 1M}

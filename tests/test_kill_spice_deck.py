@@ -64,3 +64,35 @@ def test_the_loop_break_source_adds_no_dc(tmp_path) -> None:
     raw = read_raw(work / "ac.raw")
     f = raw["frequency"].real
     assert np.allclose(-raw[deck.vector(node)], a0 / (1 + 1j * f * a0 / gbw), rtol=1e-9)
+
+
+def test_a_clashing_name_takes_the_next_free_number_from_two() -> None:
+    # The deck's node map (its "* node names" comments) reads naturally: the first of a name keeps it, the next
+    # one spelt the same but for case is <name>_2, the third <name>_3.
+    deck = spice_deck(_ladder(), "case")
+    assert [deck.nodes[n] for n in ("out", "OUT", "Out")] == ["out", "OUT_2", "Out_3"]
+    assert "*   OUT -> OUT_2" in deck.text.splitlines()
+
+
+def test_two_part_names_differing_only_in_case_get_two_subcircuits(tmp_path) -> None:
+    from afecheck.analysis.netlist import netlist_from_design
+    from afecheck.model.load import load_design
+
+    part = ("{gbw: 1 MHz, open_loop_gain: 1e5, output_resistance: 0, input_resistance_diff: 1e15, "
+            "input_resistance_cm: 1e15, offset_voltage: 0, bias_current: 0, offset_current: 0}")
+    path = tmp_path / "d.yaml"
+    path.write_text(f"""afecheck: 1
+name: two followers
+parts:
+  amp: {part}
+  AMP: {part}
+rails: {{VP: {{voltage: 5 V}}, VN: {{voltage: -5 V}}}}
+signals:
+  IN: {{dc: [0 V, 1 V]}}
+components:
+  U1: {{kind: opamp, part: amp, pins: {{in+: IN, in-: A, out: A, v+: VP, v-: VN}}}}
+  U2: {{kind: opamp, part: AMP, pins: {{in+: A, in-: B, out: B, v+: VP, v-: VN}}}}
+""", encoding="utf-8")
+    text = spice_deck(netlist_from_design(load_design(path)), "two").text
+    assert ".subckt amp in+ in- out v+ v-" in text and ".subckt AMP_2 in+ in- out v+ v-" in text
+    assert any(line.startswith("XU2 ") and line.endswith(" AMP_2") for line in text.splitlines())

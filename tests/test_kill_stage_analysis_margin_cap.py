@@ -11,6 +11,7 @@ import pytest
 
 from afecheck.analysis import analyse, stage_analysis
 from afecheck.model.load import load_design
+from tests.hand_part import template_part
 
 GBW, A0, FP2 = 10e6, 1e5, 1e12
 
@@ -18,9 +19,7 @@ DESIGN = """
 afecheck: 1
 name: photodiode amplifier
 parts:
-  FAST: {{gbw: 10 MHz, open_loop_gain: 1e5, second_pole: 1e12, output_resistance: 0, input_resistance_diff: 1e15,
-         input_resistance_cm: 1e15, input_capacitance_diff: 0, input_capacitance_cm: 0, offset_voltage: 0,
-         bias_current: 0, offset_current: 0}}
+""" + template_part("FAST", gbw="10 MHz") + """
 rails: {{VP: {{voltage: 5 V}}, VN: {{voltage: -5 V}}}}
 signals:
   PD: {{kind: current, current: [0 A, 1 pA], ac_current: 1 pA, band: [10 Hz, 1 kHz], capacitance: {cs}}}
@@ -57,17 +56,22 @@ def _stage(tmp_path, cs: str, rf: str):
     return analyse(load_design(path)).stages[0]
 
 
-def test_the_proposed_capacitor_is_the_least_that_gives_65_degrees(tmp_path):
-    # 10 pF sensor, 1 MΩ feedback, 10 MHz op-amp: about 2° of margin bare; the margin rises with Cf through 65°
-    # between 0.1 pF and 1 pF, where bisection on the hand loop puts the least Cf at 0.549 pF
-    u1 = _stage(tmp_path, "10p", "1M")
+@pytest.mark.parametrize(("cs", "rf", "bracket"), [
+    # 10 pF sensor, 1 MΩ feedback, 10 MHz op-amp: about 2° bare, 65° between 0.1 and 1 pF (0.549 pF)
+    ((10e-12, "10p"), (1e6, "1M"), (1e-13, 1e-12)),
+    # 0.1 pF behind 1 GΩ: under 1° bare, 65° at 1.75 fF, in the search's first step above its 1 fF bottom
+    ((0.1e-12, "0.1p"), (1e9, "1G"), (1e-15, 1e-14)),
+])
+def test_the_proposed_capacitor_is_the_least_that_gives_65_degrees(tmp_path, cs, rf, bracket):
+    # the margin rises with Cf through 65° inside the bracket, where bisection on the hand loop finds the least Cf
+    u1 = _stage(tmp_path, cs[1], rf[1])
     assert u1.topology == "transimpedance"
-    assert u1.phase_margin_deg == pytest.approx(_margin(10e-12, 1e6, 0.0), abs=1e-3)
-    lo, hi = math.log(1e-13), math.log(1e-12)
-    assert _margin(10e-12, 1e6, math.exp(lo)) < 65.0 < _margin(10e-12, 1e6, math.exp(hi))
+    assert u1.phase_margin_deg == pytest.approx(_margin(cs[0], rf[0], 0.0), abs=1e-3)
+    lo, hi = math.log(bracket[0]), math.log(bracket[1])
+    assert _margin(cs[0], rf[0], math.exp(lo)) < 65.0 < _margin(cs[0], rf[0], math.exp(hi))
     for _ in range(60):
         mid = 0.5 * (lo + hi)
-        lo, hi = (lo, mid) if _margin(10e-12, 1e6, math.exp(mid)) >= 65.0 else (mid, hi)
+        lo, hi = (lo, mid) if _margin(cs[0], rf[0], math.exp(mid)) >= 65.0 else (mid, hi)
     assert u1.feedback_capacitance_for_margin == pytest.approx(math.exp(hi), rel=1e-4, abs=0.0)
 
 

@@ -71,7 +71,7 @@ def test_the_alterations_reach_the_numbers(design):
     assert stages["U901"]["vout_min"] != stages["U101"]["vout_min"]
 
 
-def _key_of_first_stage(tmp_path, d: dict[str, Any]) -> unit_memo.UnitKey | None:
+def _key_of_first_stage(tmp_path, d: dict[str, Any], cache: dict | None = None) -> unit_memo.UnitKey | None:
     from afecheck.analysis.corners import Corners
     from afecheck.graph.build import circuit_of
     from afecheck.graph.stages import find_stages
@@ -81,7 +81,7 @@ def _key_of_first_stage(tmp_path, d: dict[str, Any]) -> unit_memo.UnitKey | None
     path.write_text(json.dumps(d), encoding="utf-8")
     circuit = circuit_of(load_design(str(path)))
     stages = [find_stages(circuit).stages["U101"]]
-    return unit_memo.unit_key(circuit, stages, {}, {}, Corners(circuit), {}, None, {})
+    return unit_memo.unit_key(circuit, stages, {}, {}, Corners(circuit), {}, None, {} if cache is None else cache)
 
 
 def test_awkward_names_are_not_keyed(tmp_path):
@@ -91,3 +91,11 @@ def test_awkward_names_are_not_keyed(tmp_path):
     assert _key_of_first_stage(tmp_path, d) is not None
     d["components"]["R!102"] = d["components"].pop("R102")
     assert _key_of_first_stage(tmp_path, d) is None
+
+
+def test_a_full_memo_stops_keying(tmp_path):
+    """Once MAX_KEPT results are kept (a design of all-different units), no unit is keyed any more: keys would
+    only cost."""
+    d = generate_design(1)
+    assert _key_of_first_stage(tmp_path, d, {unit_memo._KEPT: unit_memo.MAX_KEPT - 1}) is not None
+    assert _key_of_first_stage(tmp_path, d, {unit_memo._KEPT: unit_memo.MAX_KEPT}) is None

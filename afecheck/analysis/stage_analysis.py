@@ -614,7 +614,7 @@ def _ac_amplitudes(system: MnaSystem, inputs: list[_Input], n: int) -> AcResult:
     xs = np.abs(solved)
     for j, inp in active:
         rows = [r for r, o in enumerate(owners) if o == j]
-        if inp.source.ac_amplitude > 0:
+        if inp.source.ac_amplitude > 0 or inp.source.kind == "charge":  # a charge amplifier's sign comes from it
             mid[j] = solved[rows[len(rows) // 2]]
         h = xs[rows].max(axis=0)
         peak[j] = h

@@ -12,9 +12,13 @@ are never kept.
 
 from __future__ import annotations
 
+import hashlib
+import weakref
 from collections.abc import Mapping
 from dataclasses import dataclass
 from typing import Any
+
+import numpy as np
 
 from afecheck.analysis.affine import SweptForm
 from afecheck.analysis.results import NetSignal, StageInput, StageResult
@@ -26,7 +30,10 @@ MAX_PARTS = 64
 MAX_KEPT = 400
 """Most unit results kept per design (a design of all-different units gains nothing and must not hold them all)."""
 _KEPT = "#unit-memo-kept"
+_FORMS = "#unit-forms"
 _VSOURCE = frozenset({"vsource"})
+_PROSE = frozenset({"pins", "description", "waive"})
+_FLAT = frozenset({str, int, bool, type(None)})
 _LOW = "#"  # derived element and node names append '#...': a name holding a character at or below it is not keyed
 
 
@@ -38,16 +45,29 @@ class UnitKey:
     names: tuple[str, ...]
 
 
-def _value(cache: dict, comp: Any, ref: str) -> str:
-    """Every declared value of a component but its pins and prose, as one exact string (kept per design)."""
-    memo = cache.setdefault("#unit-values", {})
-    v = memo.get(ref)
-    if v is None:
-        dump = comp.model_dump()
-        for k in ("pins", "description", "waive"):
-            dump.pop(k, None)
-        memo[ref] = v = repr(sorted(dump.items()))
-    return v
+def _value(comp: Any) -> Any:
+    """Every declared value of a component but its pins and prose: the values themselves when they hash and hold
+    no zero (0.0 equals -0.0), else their exact text."""
+    v = tuple((k, x) for k, x in comp.__dict__.items() if k not in _PROSE)
+    plain = all(type(x) in _FLAT or (type(x) is float and x != 0) for _, x in v)
+    return v if plain else repr(v)
+
+
+def _form_parts(cache: dict, f: SweptForm) -> tuple:
+    """A form's quantity kinds, the names its quantities and sweeps are about, and a digest of its numbers (kept
+    while the form lives: a 128-bit BLAKE2 digest stands for the arrays, so the memo holds no copy of them)."""
+    memo = cache.get(_FORMS)
+    if memo is None:
+        memo = cache[_FORMS] = weakref.WeakKeyDictionary()
+    kept = memo.get(f)
+    if kept is None:
+        digest = hashlib.blake2b(digest_size=16)
+        for a in (f.lo, f.hi, f.nominal, f.gains):
+            digest.update(repr(a.shape).encode())
+            digest.update(np.ascontiguousarray(a, dtype=float).tobytes())
+        heads = tuple(k.partition(":")[0] if ":" in k else None for k in f.keys)
+        kept = memo[f] = (heads, tuple(_named(k) for k in f.keys), f.swept, (f.step, digest.digest()))
+    return kept
 
 
 def _named(key: str) -> str:
@@ -61,15 +81,13 @@ def _rekeyed(key: str, names: Mapping[str, str]) -> str:
     return f"{head}{sep}{names[tail]}"
 
 
-def _form_names(form: SweptForm, into: set[str]) -> None:
-    into.update(_named(k) for k in form.keys)
-    into.update(form.swept)
-
-
 def unit_key(circuit: Circuit, stages: list[Stage], done: Mapping[str, StageResult], forms: Mapping[str, SweptForm],
              corners: Any, input_loads: Mapping[str, tuple], loop_signature: tuple | None, cache: dict
              ) -> UnitKey | None:
-    """The key of a unit (None when it is not to be shared: too many parts on its nets, or an awkward name)."""
+    """The key of a unit (None when it is not to be shared: too many parts on its nets, an awkward name, or the
+    memo already full, as in a design of all-different units, where keys would only cost)."""
+    if cache.get(_KEPT, 0) >= MAX_KEPT:
+        return None
     d = circuit.loaded.design
     fixed = circuit.fixed
     nets: set[str] = set()
@@ -79,23 +97,32 @@ def unit_key(circuit: Circuit, stages: list[Stage], done: Mapping[str, StageResu
     for s in stages:
         parts[s.opamp] = None
         parts.update(dict.fromkeys(s.refs))
+    on_net = cache.setdefault("#unit-on", {})
     for net in nets:
-        if net in fixed:
-            parts.update((r, None) for r, _ in circuit.pins_of_kinds(net, _VSOURCE))
-        else:
-            parts.update((r, None) for r, _ in circuit.net_pins.get(net, ()))
+        on = on_net.get(net)
+        if on is None:
+            on_net[net] = on = (circuit.pins_of_kinds(net, _VSOURCE) if net in fixed
+                                else tuple(circuit.net_pins.get(net, ())))
+        parts.update((r, None) for r, _ in on)
     if len(parts) > MAX_PARTS:
         return None
+    statics = cache.setdefault("#unit-parts", {})
     far: set[str] = set()
     for r in parts:
-        far.update(circuit.pins[r].values())
+        static = statics.get(r)
+        if static is None:
+            comp = d.components[r]
+            statics[r] = static = (comp.kind, tuple(circuit.pins[r].items()), _value(comp), corners.key(r))
+        far.update(n for _, n in static[1])
     far -= nets
     names: set[str] = set(nets) | far | set(parts)
     net_forms = {n: forms.get(n) for n in sorted(nets)}
     fixed_forms = {n: corners.fixed_form(n) for n in sorted(nets | far) if n in fixed}
     for f in (*net_forms.values(), *fixed_forms.values()):
         if f is not None:
-            _form_names(f, names)
+            _, named, swept, _ = _form_parts(cache, f)
+            names.update(named)
+            names.update(swept)
     for net in nets:
         owner = circuit.opamp_outputs.get(net)
         if owner is not None:
@@ -111,15 +138,14 @@ def unit_key(circuit: Circuit, stages: list[Stage], done: Mapping[str, StageResu
     def num(name: str | None) -> Any:
         return None if name is None else rank.get(name, name)
 
-    def nums(items: Any) -> tuple:
-        return tuple(sorted(rank[n] for n in items if n in rank)), tuple(sorted(n for n in items if n not in rank))
+    def nums(items: Any) -> frozenset:
+        return frozenset(rank.get(n, n) for n in items)
 
     def form_key(f: SweptForm | None) -> Any:
         if f is None:
             return None
-        qk = tuple((k.partition(":")[0] if ":" in k else None, num(_named(k))) for k in f.keys)
-        return (qk, f.lo.tobytes(), f.hi.tobytes(), tuple(num(t) for t in f.swept), f.step,
-                f.nominal.tobytes(), f.gains.shape, f.gains.tobytes())
+        heads, named, swept, numbers = _form_parts(cache, f)
+        return heads, tuple(map(rank.__getitem__, named)), tuple(map(rank.__getitem__, swept)), numbers
 
     key: list[Any] = [len(ranked), loop_signature]
     for s in stages:
@@ -128,9 +154,8 @@ def unit_key(circuit: Circuit, stages: list[Stage], done: Mapping[str, StageResu
                     *((nums(r.nets), nums(r.refs), nums(r.boundary), r.truncated)
                       for r in (s.plus_region, s.minus_region, s.output_region))))
     for r in sorted(parts, key=rank.__getitem__):
-        comp = d.components[r]
-        key.append((rank[r], comp.kind, tuple((p, num(n)) for p, n in circuit.pins[r].items()),
-                    _value(cache, comp, r), num(corners.key(r))))
+        kind, pins, value, swept = statics[r]
+        key.append((rank[r], kind, tuple((p, rank[n]) for p, n in pins), value, num(swept)))
     statics = cache.setdefault("#unit-nets", {})
     for net in sorted(nets | far, key=rank.__getitem__):
         static = statics.get(net)
@@ -141,8 +166,7 @@ def unit_key(circuit: Circuit, stages: list[Stage], done: Mapping[str, StageResu
         if net in nets:
             owner = circuit.opamp_outputs.get(net)
             up = done.get(owner) if owner is not None else None
-            on = circuit.pins_of_kinds(net, _VSOURCE) if net in fixed else circuit.net_pins.get(net, ())
-            facts += (tuple((rank[r], p) for r, p in on),
+            facts += (tuple((rank[r], p) for r, p in on_net[net]),
                       corners.dc_path(net), input_loads.get(net),
                       form_key(net_forms[net]),
                       None if up is None else (up.vout_min, up.vout_max, up.output_resistance, up.vout_ac_peak,

@@ -6,7 +6,6 @@ import traceback
 from collections.abc import Iterable, Mapping
 from typing import Any
 
-from afecheck.collector import collector_paused
 from afecheck.engine.context import Context
 from afecheck.engine.finding import Finding, Severity
 from afecheck.engine.registry import CRASH_META, Registry, default_registry
@@ -39,13 +38,6 @@ def run_rules(loaded: LoadedDesign, **options: Any) -> tuple[Finding, ...]:
     severities = _overrides(registry, overrides, problems)
     if problems:
         raise InputError(problems)
-    with collector_paused():  # each full collection would walk the whole design and its analysis
-        return _run(loaded, rules, bound, severities, analysis)
-
-
-def _run(loaded: LoadedDesign, rules: list[Rule], bound: dict[str, dict[str, float]],
-         severities: dict[str, Severity], analysis: Any) -> tuple[Finding, ...]:
-    """Every rule over one shared context (the analysis computed on first use unless given), findings sorted."""
     base = Context(loaded)
     if analysis is not None:
         base.memo("analysis", lambda: analysis)
