@@ -48,6 +48,8 @@ def solve_with_neighbours(circuit: Circuit, plan: StagePlan, unit: tuple[str, ..
     if any(results.get(r) is None or results[r].vout_min is None for r in unit):
         return None
     stages = [plan.stages[r] for r in unit]
+    if _readers_bound(circuit, stages, cache) > MAX_LOCAL_PARTS + len(unit):
+        return None  # a crowded net: too many neighbours to couple (and listing them per unit would cost O(n²))
     near = [r for r in downstream(circuit, unit, stages)
             if r in results and results[r].vout_min is not None and results[r].feedback == "negative"]
     if not near:
@@ -112,13 +114,33 @@ def downstream(circuit: Circuit, unit: tuple[str, ...], stages: list[Stage]) -> 
     near: dict[str, None] = {}
     for s in stages:
         for net in sorted(s.nets):
-            if net in circuit.fixed or (net in circuit.signal_nets and net not in circuit.norton_nets
-                                        and not _behind_resistance(circuit, net)):
+            if not _couples(circuit, net):
                 continue
             for ref, pin in circuit.net_pins.get(net, ()):
                 if pin in ("in+", "in-") and circuit.kinds[ref] == "opamp" and ref not in unit:
                     near.setdefault(ref, None)
     return list(near)
+
+
+def _couples(circuit: Circuit, net: str) -> bool:
+    """Whether other op-amps' inputs on ``net`` move it (see :func:`downstream`)."""
+    return not (net in circuit.fixed or (net in circuit.signal_nets and net not in circuit.norton_nets
+                                         and not _behind_resistance(circuit, net)))
+
+
+def _readers_bound(circuit: Circuit, stages: list[Stage], cache: dict | None) -> int:
+    """An upper bound on the unit's neighbours plus its own op-amps: the op-amp input pins on its coupling nets,
+    counted once a net per design (in ``cache``)."""
+    counts = {} if cache is None else cache.setdefault("#coupling-readers", {})
+    total = 0
+    for net in {n for s in stages for n in s.nets}:
+        n = counts.get(net)
+        if n is None:
+            n = counts[net] = (sum(1 for ref, pin in circuit.net_pins.get(net, ())
+                                   if pin in ("in+", "in-") and circuit.kinds[ref] == "opamp")
+                               if _couples(circuit, net) else 0)
+        total += n
+    return total
 
 
 def _behind_resistance(circuit: Circuit, net: str) -> bool:

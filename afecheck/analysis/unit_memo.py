@@ -101,9 +101,11 @@ def unit_key(circuit: Circuit, stages: list[Stage], done: Mapping[str, StageResu
     for net in nets:
         on = on_net.get(net)
         if on is None:
-            on_net[net] = on = (circuit.pins_of_kinds(net, _VSOURCE) if net in fixed
-                                else tuple(circuit.net_pins.get(net, ())))
-        parts.update((r, None) for r, _ in on)
+            on = (circuit.pins_of_kinds(net, _VSOURCE) if net in fixed else tuple(circuit.net_pins.get(net, ())))
+            on_net[net] = on = (on, len({r for r, _ in on}))
+        if on[1] > MAX_PARTS:  # a crowded net: the unit's parts are more than MAX_PARTS whatever else it holds
+            return None
+        parts.update((r, None) for r, _ in on[0])
     if len(parts) > MAX_PARTS:
         return None
     statics = cache.setdefault("#unit-parts", {})
@@ -166,7 +168,7 @@ def unit_key(circuit: Circuit, stages: list[Stage], done: Mapping[str, StageResu
         if net in nets:
             owner = circuit.opamp_outputs.get(net)
             up = done.get(owner) if owner is not None else None
-            facts += (tuple((rank[r], p) for r, p in on_net[net]),
+            facts += (tuple((rank[r], p) for r, p in on_net[net][0]),
                       corners.dc_path(net), input_loads.get(net),
                       form_key(net_forms[net]),
                       None if up is None else (up.vout_min, up.vout_max, up.output_resistance, up.vout_ac_peak,
